@@ -1,0 +1,40 @@
+# Lagsight: the two commands a new user runs are `make serve` and `make test`.
+PYTHON ?= python3
+VENV   ?= .venv
+BIN    := $(VENV)/bin
+HOST   ?= 127.0.0.1
+PORT   ?= 8000
+WORKERS ?= 2
+STAMP  := $(VENV)/.installed
+
+.PHONY: serve test install lock clean bench
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+# Reinstall when the project's own install files change.
+$(STAMP): $(BIN)/python pyproject.toml constraints.txt
+	$(BIN)/python -m pip install --quiet -c constraints.txt -e '.[test]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+serve: $(STAMP)
+	$(BIN)/lagsight serve --host $(HOST) --port $(PORT) --workers $(WORKERS)
+
+test: $(STAMP)
+	$(BIN)/python -m pytest
+
+bench: $(STAMP)
+	$(BIN)/python -m benchmarks.run
+
+# Refresh constraints.txt from a fresh resolution of pyproject.toml's ranges.
+lock:
+	rm -rf /tmp/lagsight-lock && $(PYTHON) -m venv /tmp/lagsight-lock
+	/tmp/lagsight-lock/bin/pip install --quiet '.[test]'
+	{ echo "# Exact versions for reproducible installs (pip -c). Update with: make lock"; \
+	  /tmp/lagsight-lock/bin/pip freeze --exclude lagsight; } > constraints.txt
+
+clean:
+	rm -rf $(VENV) .pytest_cache build service/*.egg-info

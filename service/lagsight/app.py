@@ -1,0 +1,30 @@
+"""The application factory."""
+from __future__ import annotations
+
+import logging
+
+import yaml
+from flask import Flask
+
+from . import config as settings
+from . import errors
+
+
+def load_spec(path: str) -> dict:
+    with open(path, encoding="utf-8") as fh:
+        return yaml.safe_load(fh)
+
+
+def create_app(config: dict | None = None) -> Flask:
+    """Build the Flask app; ``config`` overrides settings (tests pass a dict)."""
+    app = Flask("lagsight")
+    app.config.update(settings.load(config))
+    app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
+    app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])
+    errors.init_app(app)
+    from .views import diagnostics, meta
+
+    app.register_blueprint(meta.bp)
+    app.register_blueprint(diagnostics.bp)
+    logging.getLogger("lagsight").setLevel(logging.INFO)
+    return app

@@ -1,0 +1,21 @@
+"""The numerical core: pure numpy/scipy, vectorised over many series, no web imports.
+
+Every function takes a 2-D float array ``x`` of shape ``(m, n)`` (m series of
+length n, rows already validated: finite, non-constant, n >= 3) and returns
+arrays with a leading axis of length m. A single series is a batch of one.
+"""
+from .autocorrelation import acf, autocovariance, center
+from .bands import band_limits, normal_quantile
+from .partial import pacf
+from .portmanteau import PORTMANTEAU_TESTS, portmanteau
+
+__all__ = [
+    "acf",
+    "autocovariance",
+    "band_limits",
+    "center",
+    "normal_quantile",
+    "pacf",
+    "portmanteau",
+    "PORTMANTEAU_TESTS",
+]

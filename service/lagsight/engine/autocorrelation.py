@@ -1,0 +1,118 @@
+"""Sample autocovariance and autocorrelation, exact on hard data.
+
+Notes
+-----
+The estimator is the usual biased one [1]_:
+
+    c_k = (1/n) * sum_{t=1}^{n-k} (x_t - xbar)(x_{t+k} - xbar),    r_k = c_k / c_0.
+
+Accuracy on data with a large mean and a small spread (the NIST StRD NumAcc
+sets) comes from three steps: an exact power-of-two rescaling (no rounding,
+and no overflow for values near the float64 limit), a two-pass mean (the
+second pass removes what rounding left of the first), and products formed
+only after centring. Short lag ranges use direct dot products; long series
+with many lags use a zero-padded real FFT, which is exact up to rounding for
+lags below the padding.
+
+References
+----------
+.. [1] Box, G. E. P., Jenkins, G. M., Reinsel, G. C. and Ljung, G. M. (2015).
+   Time Series Analysis: Forecasting and Control, 5th ed., Wiley, section 2.1.4.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import fft as sp_fft
+
+#: Above this many lags (and this length) the FFT path is cheaper than direct products.
+FFT_MIN_LAGS = 48
+FFT_MIN_LENGTH = 2048
+
+METHODS = ("auto", "direct", "fft")
+
+
+def center(x: np.ndarray) -> np.ndarray:
+    """Return each row rescaled by an exact power of two and with its mean removed.
+
+    Parameters
+    ----------
+    x : ndarray, shape (m, n)
+        Finite values.
+
+    Returns
+    -------
+    ndarray, shape (m, n)
+        ``(x - mean) * 2**-e`` per row, where ``2**e`` bounds the row's largest
+        magnitude. Autocorrelations are invariant to both operations.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    peak = np.max(np.abs(x), axis=1, keepdims=True)
+    _, exponent = np.frexp(np.where(peak > 0, peak, 1.0))
+    scaled = np.ldexp(x, -exponent)  # exact: only the exponent changes
+    d = scaled - scaled.mean(axis=1, keepdims=True)
+    d -= d.mean(axis=1, keepdims=True)  # second pass: removes the first pass's rounding
+    return d
+
+
+def autocovariance(d: np.ndarray, max_lag: int, method: str = "auto") -> np.ndarray:
+    """Biased autocovariances c_0..c_max_lag of centred rows.
+
+    Parameters
+    ----------
+    d : ndarray, shape (m, n)
+        Centred rows (see :func:`center`).
+    max_lag : int
+        Highest lag, ``1 <= max_lag <= n - 1``.
+    method : {"auto", "direct", "fft"}, default "auto"
+        "auto" uses the FFT when ``max_lag >= FFT_MIN_LAGS`` and
+        ``n >= FFT_MIN_LENGTH``, direct products otherwise.
+
+    Returns
+    -------
+    ndarray, shape (m, max_lag + 1)
+    """
+    if method not in METHODS:
+        raise ValueError(f"method must be one of {METHODS}, got {method!r}")
+    m, n = d.shape
+    if not 1 <= max_lag <= n - 1:
+        raise ValueError(f"max_lag must be between 1 and n - 1 = {n - 1}, got {max_lag}")
+    use_fft = method == "fft" or (
+        method == "auto" and max_lag >= FFT_MIN_LAGS and n >= FFT_MIN_LENGTH
+    )
+    if use_fft:
+        size = sp_fft.next_fast_len(n + max_lag, real=True)
+        spectrum = sp_fft.rfft(d, n=size, axis=1)
+        power = spectrum.real**2 + spectrum.imag**2
+        c = sp_fft.irfft(power, n=size, axis=1)[:, : max_lag + 1]
+    else:
+        c = np.empty((m, max_lag + 1))
+        c[:, 0] = np.einsum("ij,ij->i", d, d)
+        for k in range(1, max_lag + 1):
+            c[:, k] = np.einsum("ij,ij->i", d[:, :-k], d[:, k:])
+    return c / n
+
+
+def acf(x: np.ndarray, max_lag: int, method: str = "auto") -> np.ndarray:
+    """Sample autocorrelations r_1..r_max_lag of each row.
+
+    Parameters
+    ----------
+    x : ndarray, shape (m, n)
+        Finite, non-constant rows.
+    max_lag : int
+        Highest lag, ``1 <= max_lag <= n - 1``.
+    method : {"auto", "direct", "fft"}, default "auto"
+
+    Returns
+    -------
+    ndarray, shape (m, max_lag)
+        Column ``k - 1`` holds r_k.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> acf(np.array([[10000001.0, 10000003.0, 10000002.0]]), 1)
+    array([[-0.5]])
+    """
+    c = autocovariance(center(x), max_lag, method)
+    return c[:, 1:] / c[:, :1]

@@ -1,0 +1,51 @@
+"""Defaults, allowed values and limits of the request options: said once, here.
+
+The marshmallow schemas, GET /v1/methods and the tests read these names; a
+test checks that openapi/openapi.yaml states the same values.
+"""
+from __future__ import annotations
+
+import math
+
+DEFAULT_CONFIDENCE = 0.95
+DEFAULT_MODEL_DF = 0
+MIN_POINTS = 3  # the smallest series with a defined lag-1 autocorrelation (NIST NumAcc1 has 3)
+MIN_PERIOD = 2
+
+# Limits that the deployment may lower or raise (see config.py); these are the defaults.
+DEFAULT_LIMITS = {
+    "max_points": 2_000_000,  # usable points in one series
+    "max_lag": 2_000,  # highest lag a request may ask for
+    "max_body_bytes": 64 * 1024 * 1024,  # request body size
+}
+
+
+def default_max_lag(n: int, period: int | None) -> int:
+    """Default highest lag: min(max(floor(10 log10 n), 2 m), n - 1).
+
+    ``floor(10 log10 n)`` is common practice (the default number of lags of
+    ``statsmodels.tsa.stattools.acf``); with a seasonal period m we reach at
+    least lag 2m so that two seasonal lags are shown (common practice, no source).
+    """
+    lag = int(math.floor(10.0 * math.log10(n)))
+    if period is not None:
+        lag = max(lag, 2 * period)
+    return max(1, min(lag, n - 1))
+
+
+def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int) -> list[int]:
+    """Lags at which the portmanteau tests are reported.
+
+    - a short lag h = min(10, n // 5) without a period, min(2 m, n // 5) with one
+      (a widely taught rule of thumb, recalled from forecasting textbooks; no
+      source checked here), raised to model_df + 1 so it has degrees of freedom
+      and kept within max_lag;
+    - the seasonal lags m and 2 m when a period is known and they are within max_lag;
+    - max_lag itself.
+    """
+    short = min(10 if period is None else 2 * period, max(1, n // 5))
+    short = min(max(short, model_df + 1), max_lag)
+    lags = {short, max_lag}
+    if period is not None:
+        lags.update(h for h in (period, 2 * period) if h <= max_lag)
+    return sorted(lags)

@@ -1,0 +1,132 @@
+"""Request validation: marshmallow schemas that turn a parsed JSON body into options.
+
+Numbers are strict: a JSON string or boolean is never taken for a number, and
+NaN or Infinity (which some JSON writers emit) are refused with a pointer to the
+element. Defaults and limits come from :mod:`lagsight.options`.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from marshmallow import RAISE, Schema, ValidationError, fields, validate, validates_schema
+
+from . import options
+
+_NUMBER_TYPES = (int, float)
+_MAX_LISTED_ERRORS = 10
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, _NUMBER_TYPES) and not isinstance(value, bool)
+
+
+class StrictInteger(fields.Integer):
+    """An integer given as a JSON integer (or an integral float such as 12.0), never a string or boolean."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not _is_number(value):
+            raise ValidationError("Must be an integer.")
+        if isinstance(value, float) and not (math.isfinite(value) and value.is_integer()):
+            raise ValidationError("Must be an integer.")
+        return int(value)
+
+
+class StrictFloat(fields.Float):
+    """A finite JSON number, never a string or boolean."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not _is_number(value):
+            raise ValidationError("Must be a number.")
+        try:
+            number = float(value)
+        except OverflowError:
+            raise ValidationError("Must be a finite number.") from None
+        if not math.isfinite(number):
+            raise ValidationError("Must be a finite number.")
+        return number
+
+
+class NumberArray(fields.Field):
+    """A JSON array of numbers and nulls, loaded as a float64 array with NaN for null.
+
+    The type check runs over the whole list at C speed; only when it fails is the
+    list scanned again to point at the first offending elements.
+    """
+
+    default_error_messages = {"type": "Must be an array of numbers (null marks a missing value)."}
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not isinstance(value, list):
+            raise self.make_error("type")
+        kinds = set(map(type, value))
+        if not kinds <= {int, float, type(None)}:
+            raise ValidationError(self._element_errors(value))
+        try:
+            if type(None) in kinds:
+                array = np.array([np.nan if v is None else v for v in value], dtype=np.float64)
+            else:
+                array = np.array(value, dtype=np.float64)
+        except OverflowError:
+            raise ValidationError(self._element_errors(value)) from None
+        missing = np.isnan(array)
+        if not np.isfinite(array[~missing]).all() or (missing.any() and type(None) not in kinds):
+            raise ValidationError(self._element_errors(value))
+        return array
+
+    @staticmethod
+    def _element_errors(value) -> dict:
+        errors = {}
+        for i, v in enumerate(value):
+            if v is None:
+                continue
+            if not _is_number(v):
+                errors[i] = [f"Must be a number or null, got {type(v).__name__ if not isinstance(v, bool) else 'boolean'}."]
+            else:
+                try:
+                    ok = math.isfinite(float(v))
+                except OverflowError:
+                    ok = False
+                if not ok:
+                    errors[i] = ["Must be a finite number (NaN and Infinity are not allowed; send null for a missing value)."]
+            if len(errors) >= _MAX_LISTED_ERRORS:
+                break
+        return errors
+
+
+class SeriesFields(Schema):
+    """The fields that describe one series (shared by the single and batch requests)."""
+
+    class Meta:
+        unknown = RAISE
+
+    values = NumberArray(required=True)
+    timestamps = fields.List(fields.String(validate=validate.Length(min=1, max=64)), load_default=None)
+    period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
+    name = fields.String(load_default=None, allow_none=True, validate=validate.Length(max=200))
+
+    @validates_schema
+    def _timestamps_match(self, data, **kwargs):
+        stamps, values = data.get("timestamps"), data.get("values")
+        if stamps is not None and values is not None and len(stamps) != len(values):
+            raise ValidationError(
+                f"Must have the same length as values ({len(values)}), got {len(stamps)}.", "timestamps"
+            )
+
+
+class AnalysisOptions(Schema):
+    """Options that shape the analysis."""
+
+    class Meta:
+        unknown = RAISE
+
+    max_lag = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=1))
+    confidence = StrictFloat(
+        load_default=options.DEFAULT_CONFIDENCE,
+        validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False),
+    )
+    model_df = StrictInteger(load_default=options.DEFAULT_MODEL_DF, validate=validate.Range(min=0))
+
+
+class DiagnosticsRequest(SeriesFields, AnalysisOptions):
+    """Body of POST /v1/diagnostics."""

@@ -1,0 +1,1 @@
+"""HTTP views: one blueprint per module."""

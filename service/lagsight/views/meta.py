@@ -1,0 +1,50 @@
+"""Service description: health, the methods catalogue and the OpenAPI document."""
+from __future__ import annotations
+
+from flask import Blueprint, current_app
+
+from .. import __version__, options
+from ..engine.portmanteau import PORTMANTEAU_TESTS
+from ..interpretation import __doc__ as DECISION_RULE
+from ..serialisation import json_response
+
+bp = Blueprint("meta", __name__)
+
+
+@bp.get("/healthz")
+def healthz():
+    """Say the process is alive."""
+    return json_response({"status": "ok", "version": __version__})
+
+
+@bp.get("/openapi.json")
+def openapi():
+    """Serve the OpenAPI document (openapi/openapi.yaml) as JSON."""
+    return json_response(current_app.extensions["lagsight.spec"])
+
+
+@bp.get("/v1/methods")
+def methods():
+    """List analyses, options with defaults, limits and the decision rule."""
+    cfg = current_app.config
+    return json_response({
+        "version": __version__,
+        "analyses": [
+            {"name": "acf", "description": "Sample autocorrelation r_k = c_k / c_0 with the biased autocovariance (divide by n)."},
+            {"name": "pacf", "description": "Partial autocorrelation by the Durbin-Levinson recursion on the sample autocorrelation."},
+            {"name": "ljung_box", "description": "Ljung-Box portmanteau test, Q = n(n+2) sum r_k^2/(n-k), chi-square on lag - model_df df."},
+            {"name": "box_pierce", "description": "Box-Pierce portmanteau test, Q = n sum r_k^2, chi-square on lag - model_df df."},
+            {"name": "seasonal", "description": "Autocorrelations at the period m and its multiples 2m, 3m within max_lag."},
+        ],
+        "tests": list(PORTMANTEAU_TESTS),
+        "options": {
+            "max_lag": {"default": "min(max(floor(10 log10 n), 2 * period), n - 1)", "minimum": 1, "maximum": cfg["MAX_LAG"]},
+            "confidence": {"default": options.DEFAULT_CONFIDENCE, "exclusive_minimum": 0, "exclusive_maximum": 1},
+            "model_df": {"default": options.DEFAULT_MODEL_DF, "minimum": 0},
+            "period": {"default": None, "minimum": options.MIN_PERIOD},
+        },
+        "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
+        "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
+                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"]},
+        "decision_rule": " ".join(DECISION_RULE.split("---------------------------------------------------------")[1].split()),
+    })
