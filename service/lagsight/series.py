@@ -76,9 +76,11 @@ def infer_frequency(index: pd.DatetimeIndex) -> tuple[str | None, int | None]:
     """Name the regular spacing of timestamps and the seasonal period it implies."""
     if len(index) < 3:
         return None, None
-    code = pd.infer_freq(index)
-    if code is None:
+    with pd.option_context("future.infer_freq_returns_offset", True):
+        offset = pd.infer_freq(index)
+    if offset is None:
         return None, None
+    code = offset.freqstr
     base = code.split("-")[0].lstrip("0123456789") or code
     hit = PERIOD_BY_FREQUENCY.get(base)
     return (hit if hit else (code, None))

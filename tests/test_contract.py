@@ -1,0 +1,108 @@
+"""The OpenAPI document is valid, served, and says what the schemas and options say."""
+from __future__ import annotations
+
+import math
+
+import pytest
+from marshmallow import validate
+from openapi_spec_validator import validate as validate_spec
+
+from lagsight import options
+from lagsight.schema import DiagnosticsRequest, StrictFloat, StrictInteger, NumberArray
+
+from .spec_tools import assert_valid, spec
+
+
+def test_spec_is_valid_openapi_3_1():
+    validate_spec(spec())
+    assert spec()["openapi"].startswith("3.1")
+
+
+def test_spec_is_served_as_json(client):
+    r = client.get("/openapi.json")
+    assert r.status_code == 200 and r.is_json
+    assert r.get_json() == spec()
+
+
+def _range(field):
+    for v in field.validators:
+        if isinstance(v, validate.Range):
+            return v
+    return None
+
+
+@pytest.mark.parametrize("schema_cls,component", [(DiagnosticsRequest, "DiagnosticsRequest")])
+def test_request_schema_agrees_with_spec(schema_cls, component):
+    """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""
+    doc = spec()["components"]["schemas"][component]
+    fields = schema_cls().fields
+    assert set(fields) == set(doc["properties"])
+    assert {k for k, f in fields.items() if f.required} == set(doc.get("required", []))
+    assert doc.get("additionalProperties") is False  # unknown fields rejected, as the schema does
+    for name, field in fields.items():
+        prop = doc["properties"][name]
+        types = prop["type"] if isinstance(prop["type"], list) else [prop["type"]]
+        assert ("null" in types) == bool(field.allow_none), name
+        if not field.required and field.load_default is not None:
+            assert prop["default"] == field.load_default, name
+        elif not field.required:
+            assert prop.get("default", None) is None, name
+        if isinstance(field, StrictInteger):
+            assert "integer" in types, name
+        if isinstance(field, StrictFloat):
+            assert "number" in types, name
+        if isinstance(field, NumberArray):
+            assert prop["type"] == "array" and set(prop["items"]["type"]) == {"number", "null"}
+        rng = _range(field)
+        if rng is not None:
+            lo_key = "minimum" if rng.min_inclusive else "exclusiveMinimum"
+            hi_key = "maximum" if rng.max_inclusive else "exclusiveMaximum"
+            if rng.min is not None:
+                assert prop[lo_key] == rng.min, name
+            if rng.max is not None:
+                assert prop[hi_key] == rng.max, name
+
+
+def test_defaults_read_the_same_in_options_schema_and_methods(client):
+    methods = client.get("/v1/methods").get_json()
+    req = spec()["components"]["schemas"]["DiagnosticsRequest"]["properties"]
+    assert req["confidence"]["default"] == options.DEFAULT_CONFIDENCE == methods["options"]["confidence"]["default"]
+    assert req["model_df"]["default"] == options.DEFAULT_MODEL_DF == methods["options"]["model_df"]["default"]
+    assert req["period"]["minimum"] == options.MIN_PERIOD == methods["options"]["period"]["minimum"]
+    assert "10 log10 n" in req["max_lag"]["description"] and "10 log10 n" in methods["options"]["max_lag"]["default"]
+
+
+def test_problem_kinds_are_documented():
+    from lagsight.problems import KINDS
+
+    described = spec()["components"]["schemas"]["Problem"]["properties"]["type"]["description"]
+    for slug in KINDS:
+        assert slug in described
+
+
+def test_methods_response_matches_spec(client):
+    assert_valid(client.get("/v1/methods").get_json(), "Methods")
+
+
+@pytest.mark.parametrize("n,period,model_df", [(3, None, 0), (12, None, 1), (60, 12, 2), (500, 7, 0), (40, None, 30)])
+def test_reports_match_spec_and_contain_no_nan(client, n, period, model_df):
+    import numpy as np
+
+    x = np.random.default_rng(n).standard_normal(n).tolist()
+    r = client.post("/v1/diagnostics", json={"values": x, "period": period, "model_df": model_df})
+    assert r.status_code == 200, r.get_json()
+    body = r.get_json()
+    assert_valid(body, "Report")
+    assert b"NaN" not in r.data and b"Infinity" not in r.data
+
+    def walk(v):
+        if isinstance(v, float):
+            assert math.isfinite(v)
+        elif isinstance(v, dict):
+            for w in v.values():
+                walk(w)
+        elif isinstance(v, list):
+            for w in v:
+                walk(w)
+
+    walk(body)
