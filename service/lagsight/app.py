@@ -22,9 +22,10 @@ def create_app(config: dict | None = None) -> Flask:
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])
     errors.init_app(app)
-    from .views import diagnostics, meta
+    from .views import batch, diagnostics, meta
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(diagnostics.bp)
+    app.register_blueprint(batch.bp)
     logging.getLogger("lagsight").setLevel(logging.INFO)
     return app
