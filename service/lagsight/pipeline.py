@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import options
+from . import metrics, options
 from .engine.analysis import analyse
 from .interpretation import interpret
 from .report import build_report
@@ -47,4 +47,5 @@ def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
         result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags))
         for row, i in enumerate(members):
             reports[i] = interpret(build_report(items[i][0], result, row))
+    metrics.record_analysed(len(items), sum(series.n for series, _ in items))
     return reports
