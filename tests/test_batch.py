@@ -212,10 +212,10 @@ def test_invalid_shared_fields_are_422_for_the_whole_batch(client, body, pointer
 
 
 def test_limits_are_enforced_before_validation_and_reported_in_methods():
-    app = create_app({"TESTING": True, "MAX_BATCH_SERIES": 3, "MAX_BATCH_POINTS": 20, "MAX_LAG": 5})
+    app = create_app({"TESTING": True, "MAX_SERIES": 3, "MAX_BATCH_POINTS": 20, "MAX_LAG": 5})
     client = app.test_client()
     limits = client.get("/v1/methods").get_json()["limits"]
-    assert (limits["max_batch_series"], limits["max_batch_points"], limits["max_lag"]) == (3, 20, 5)
+    assert (limits["max_series"], limits["max_batch_points"], limits["max_lag"]) == (3, 20, 5)
     # Items that would fail validation still count: the limits are checked first.
     too_many = [{"id": i, "values": "not checked yet"} for i in range(4)]
     assert "4" in _problem(client.post(URL, json={"series": too_many}), 413)["detail"]

@@ -89,7 +89,7 @@ def test_batch_options_read_the_same_as_the_single_route_and_methods(client):
         assert {k: item[key].get(k) for k in bounds} == {k: single[key].get(k) for k in bounds}
     methods = client.get("/v1/methods").get_json()
     assert methods["batch"]["per_series_overrides"] == list(BATCH_OVERRIDES)
-    assert methods["limits"]["max_batch_series"] == options.DEFAULT_LIMITS["max_batch_series"]
+    assert methods["limits"]["max_series"] == options.DEFAULT_LIMITS["max_series"]
     assert methods["limits"]["max_batch_points"] == options.DEFAULT_LIMITS["max_batch_points"]
 
 

@@ -18,8 +18,9 @@ DEFAULT_LIMITS = {
     "max_points": 2_000_000,  # usable points in one series
     "max_lag": 2_000,  # highest lag a request may ask for
     "max_body_bytes": 64 * 1024 * 1024,  # request body size
-    "max_batch_series": 20_000,  # series in one batch request
+    "max_series": 20_000,  # series in one batch request
     "max_batch_points": 5_000_000,  # values in one batch request, all series together
+    "max_replicates": 10_000,  # Monte Carlo replicates one request may ask for
 }
 
 

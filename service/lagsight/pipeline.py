@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import options
+from . import metrics, options
 from .engine.analysis import analyse
 from .interpretation import interpret
 from .report import build_reports
@@ -80,6 +80,7 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[
     for plan, members in blocks(items):
         x = np.stack([items[i][0].values for i in members])
         result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags))
+        metrics.record_analysed(len(members), plan.n * len(members))
         with gc_paused():
             reports = build_reports([items[i][0] for i in members], result)
             done = [(i, interpret(report)) for i, report in zip(members, reports)]

@@ -46,8 +46,8 @@ def _check_size(body: dict, cfg) -> None:
     series = body.get("series")
     if not isinstance(series, list):
         return
-    if len(series) > cfg["MAX_BATCH_SERIES"]:
-        detail = f"Too many series: {len(series)} > this deployment's limit of {cfg['MAX_BATCH_SERIES']} per batch."
+    if len(series) > cfg["MAX_SERIES"]:
+        detail = f"Too many series: {len(series)} > this deployment's limit of {cfg['MAX_SERIES']} per batch."
         raise Problem("payload-too-large", detail, [FieldError("/series", detail)])
     total = sum(len(s["values"]) for s in series if isinstance(s, dict) and isinstance(s.get("values"), list))
     if total > cfg["MAX_BATCH_POINTS"]:

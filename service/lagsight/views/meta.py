@@ -46,7 +46,7 @@ def methods():
         },
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
-                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_batch_series": cfg["MAX_BATCH_SERIES"],
+                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
                    "max_batch_points": cfg["MAX_BATCH_POINTS"]},
         "batch": {
             "route": "/v1/diagnostics/batch",
