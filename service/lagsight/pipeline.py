@@ -14,7 +14,7 @@ from . import options
 from .engine.analysis import analyse
 from .interpretation import interpret
 from .report import build_report
-from .series import PreparedSeries, resolve_max_lag
+from .series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 
 
 @dataclass(frozen=True)
@@ -26,14 +26,20 @@ class Plan:
     confidence: float
     model_df: int
     test_lags: tuple[int, ...]
+    length: int = 0  # time-grid length; differs from n when observations are missing
+    pairwise: bool = False  # missing observations analysed with the amplitude-modulated estimator
 
 
 def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
     """Resolve the defaults that depend on the data (max_lag, portmanteau lags)."""
     n = series.n
-    max_lag = resolve_max_lag(opts.get("max_lag"), n, series.period, max_lag_limit)
+    mask = series.mask
+    max_lag = resolve_max_lag(opts.get("max_lag"), series.length if mask is not None else n, series.period,
+                              max_lag_limit)
+    if mask is not None:
+        max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
     lags = options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])
-    return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags))
+    return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags), series.length, mask is not None)
 
 
 def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
@@ -44,7 +50,8 @@ def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
     reports: list[dict | None] = [None] * len(items)
     for plan, members in groups.items():
         x = np.stack([items[i][0].values for i in members])
-        result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags))
+        mask = ~np.isnan(x) if plan.pairwise else None
+        result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags), mask=mask)
         for row, i in enumerate(members):
             reports[i] = interpret(build_report(items[i][0], result, row))
     return reports

@@ -57,6 +57,13 @@ def _seasonal(series: PreparedSeries, acf_block: dict) -> dict:
     return {"period": period, "period_source": series.period_source, "lags": entries, "note": note}
 
 
+def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
+    block = dict(series.missing)
+    if analysis.n_effective is not None:
+        block["effective_n"] = _floats(analysis.n_effective[row])
+    return block
+
+
 def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
     """Assemble the numeric part of the report for row ``row`` of a group analysis."""
     lags = list(range(1, analysis.max_lag + 1))
@@ -82,4 +89,6 @@ def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> d
         "advice": [],
         "cautions": [],
         "warnings": list(series.warnings),
+        "missing": _missing(series, analysis, row),
+        "transform": series.transform,
     }
