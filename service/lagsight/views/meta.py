@@ -7,6 +7,7 @@ from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import __doc__ as DECISION_RULE
 from ..engine.masked import __doc__ as masked_doc
+from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
 from ..timestamps import __doc__ as timestamps_doc
 from ..transforms import __doc__ as transforms_doc
@@ -54,6 +55,12 @@ def methods():
                        "rules": " ".join(timestamps_doc.split("----------------------------------------------------------")[1].split())},
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
-                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"]},
+                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
+                   "max_batch_points": cfg["MAX_BATCH_POINTS"]},
+        "batch": {
+            "route": "/v1/diagnostics/batch",
+            "per_series_overrides": list(BATCH_OVERRIDES),
+            "media_types": ["application/json", "application/x-ndjson"],
+        },
         "decision_rule": " ".join(DECISION_RULE.split("---------------------------------------------------------")[1].split()),
     })
