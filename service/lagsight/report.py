@@ -86,7 +86,7 @@ def _seasonal(series: PreparedSeries, acf_block: dict) -> dict:
 def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
     block = dict(series.missing)
     if analysis.n_effective is not None:
-        block["effective_n"] = _floats(analysis.n_effective[row])
+        block["effective_n"] = _rows(analysis.n_effective[row : row + 1])[0]
     return block
 
 
