@@ -17,14 +17,15 @@ def load_spec(path: str) -> dict:
 
 def create_app(config: dict | None = None) -> Flask:
     """Build the Flask app; ``config`` overrides settings (tests pass a dict)."""
-    app = Flask("lagsight")
+    app = Flask("lagsight", static_folder=None)  # the page blueprint serves the static files
     app.config.update(settings.load(config))
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])
     errors.init_app(app)
-    from .views import diagnostics, meta
+    from .views import diagnostics, meta, page
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(diagnostics.bp)
+    app.register_blueprint(page.bp)
     logging.getLogger("lagsight").setLevel(logging.INFO)
     return app

@@ -6,11 +6,23 @@ from pathlib import Path
 
 from . import options
 
+
+def csp_sources(raw: str) -> str:
+    """A CSP source list (for frame-ancestors): space-separated sources, no directive separators."""
+    value = " ".join(raw.split())
+    if not value or any(ch in value for ch in ";,\""):
+        raise ValueError("must be space-separated CSP sources such as 'self' https://portal.example")
+    return value
+
+
 #: name -> (environment variable, default, parser)
 SETTINGS = {
     "MAX_BODY_BYTES": ("LAGSIGHT_MAX_BODY_BYTES", options.DEFAULT_LIMITS["max_body_bytes"], int),
     "MAX_POINTS": ("LAGSIGHT_MAX_POINTS", options.DEFAULT_LIMITS["max_points"], int),
     "MAX_LAG": ("LAGSIGHT_MAX_LAG", options.DEFAULT_LIMITS["max_lag"], int),
+    # CSP frame-ancestors sources allowed to embed the page (GET /) in an iframe, e.g.
+    # "'self' https://portal.example"; 'none' forbids embedding.
+    "FRAME_ANCESTORS": ("LAGSIGHT_FRAME_ANCESTORS", "'self'", csp_sources),
     "OPENAPI_PATH": ("LAGSIGHT_OPENAPI_PATH", str(Path(__file__).resolve().parents[2] / "openapi" / "openapi.yaml"), str),
 }
 
