@@ -46,13 +46,13 @@ def test_frame_ancestors_that_would_break_the_policy_are_refused(raw):
 @pytest.mark.parametrize("name,mimetype", [("page.js", "text/javascript"), ("page.css", "text/css"),
                                            ("favicon.svg", "image/svg+xml")])
 def test_assets_are_served_from_the_package(client, name, mimetype):
-    with client.get(f"/assets/{name}") as r:
+    with client.get(f"/static/{name}") as r:
         assert r.status_code == 200 and r.mimetype == mimetype
         assert r.data == (STATIC / name).read_bytes()
 
 
 def test_missing_asset_is_a_problem_404(client):
-    r = client.get("/assets/nothing.js")
+    r = client.get("/static/nothing.js")
     assert r.status_code == 404 and r.mimetype == "application/problem+json"
 
 

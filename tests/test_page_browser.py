@@ -195,18 +195,23 @@ def test_page_refuses_to_be_framed_by_an_origin_not_allowed(browser, live_server
     context.close()
 
 
-def test_page_can_be_framed_by_an_allowed_portal(browser, tmp_path):
+def test_page_can_be_framed_by_an_allowed_portal_and_sends_the_token(browser, tmp_path):
     target: dict = {}
     context = browser.new_context()
     page = context.new_page()
     with portal(target) as origin:
-        env = {"LAGSIGHT_FRAME_ANCESTORS": f"'self' {origin}"}
+        env = {"LAGSIGHT_FRAME_ANCESTORS": f"'self' {origin}", "LAGSIGHT_AUTH_TOKENS": "portal-secret-1"}
         with gunicorn(tmp_path / "framed.log", workers=1, env=env) as base:
             target["src"] = base + "/"
             page.goto(origin + "/reports")
             frame = page.frame_locator("#f")
             frame.locator("#series-form").wait_for(state="attached", timeout=10000)
             frame.locator("#values").fill("1\n3\n2\n5\n4\n6\n5\n8\n7\n9\n8\n11")
+            frame.locator("#submit").click()  # this deployment requires a token: the 401 is shown
+            frame.locator("#problem").wait_for(state="visible", timeout=10000)
+            assert "bearer token" in frame.locator("#problem").inner_text().lower()
+            frame.locator("details.access summary").click()
+            frame.locator("#token").fill("portal-secret-1")
             frame.locator("#submit").click()
             frame.locator("#result:not([hidden])").wait_for(timeout=10000)
             assert frame.locator("#acf-chart svg rect.spike").count() >= 1

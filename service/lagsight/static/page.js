@@ -172,6 +172,12 @@
     return body;
   }
 
+  function authHeaders(headers) {
+    const token = $("token").value.trim();
+    if (token) headers.Authorization = `Bearer ${token}`;
+    return headers;
+  }
+
   async function submit(event) {
     event.preventDefault();
     hideProblem();
@@ -189,7 +195,7 @@
     try {
       const r = await fetch(API, {
         method: "POST",
-        headers: { "Content-Type": "application/json", Accept: "application/json" },
+        headers: authHeaders({ "Content-Type": "application/json", Accept: "application/json" }),
         body: JSON.stringify(body),
         signal: controller.signal,
       });

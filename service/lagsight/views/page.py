@@ -13,7 +13,7 @@ from flask import Blueprint, Response, current_app
 
 STATIC = Path(__file__).resolve().parents[1] / "static"
 
-bp = Blueprint("page", __name__, static_folder=str(STATIC), static_url_path="/assets")
+bp = Blueprint("page", __name__, static_folder=str(STATIC), static_url_path="/static")
 
 
 def content_security_policy(frame_ancestors: str) -> str:
