@@ -37,7 +37,9 @@ test: $(STAMP) $(CHROMIUM)
 screenshots: $(STAMP) $(CHROMIUM)
 	LAGSIGHT_SCREENSHOTS=docs $(BIN)/python -m pytest tests/test_page_browser.py -q
 
+# Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.
 bench: $(STAMP)
+	command -v wrk >/dev/null || (apt-get install -y wrk >/dev/null 2>&1 || true)
 	$(BIN)/python -m benchmarks.run
 
 # Refresh constraints.txt from a fresh resolution of pyproject.toml's ranges.
