@@ -16,8 +16,10 @@ Every chart is a small table a plotting library can draw as is:
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
-from scipy.stats import norm
+from scipy.special import ndtri
 
 from . import options
 
@@ -26,7 +28,7 @@ MAX_TIME_POINTS = 2000
 
 def zones(values: list, upper: list, confidence: float) -> list:
     """inside / marginal / far for each lag (None where the value is undefined)."""
-    z = float(norm.isf((1.0 - confidence) / 2.0))
+    z = float(-ndtri((1.0 - confidence) / 2.0))  # = norm.isf(...), without the distribution object's overhead
     out = []
     for v, u in zip(values, upper):
         if v is None or u is None:
@@ -57,13 +59,20 @@ def _thin(y: np.ndarray, limit: int) -> np.ndarray:
     return np.asarray(keep, dtype=np.int64)
 
 
+def _floats_or_none(y: np.ndarray) -> list:
+    """The values as floats, None where NaN (one vectorised check first: most series have no gap)."""
+    if not np.isnan(y).any():
+        return y.tolist()
+    return [None if math.isnan(v) else v for v in y.tolist()]
+
+
 def time_plot(values: np.ndarray, labels: list[str] | None) -> dict:
     keep = _thin(values, MAX_TIME_POINTS)
     y = values[keep]
     return {
         "x": [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist(),
         "x_kind": "time" if labels is not None else "index",
-        "values": [None if np.isnan(v) else v for v in y.tolist()],
+        "values": _floats_or_none(y),
         "points": int(values.size),
         "thinned": bool(keep.size < values.size),
         "vega_lite": None,
