@@ -14,7 +14,7 @@ import math
 
 import numpy as np
 
-from .charts import chart_data
+from .charts import chart_data, zones
 from .engine.analysis import GroupAnalysis
 from .series import PreparedSeries
 
@@ -97,6 +97,8 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
     acf = _Correlograms(lags, analysis.acf, analysis.acf_lower, analysis.acf_upper)
     pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_lower, analysis.pacf_upper)
     tests = _test_rows(analysis)
+    acf_zones = zones(analysis.acf, analysis.acf_upper, analysis.confidence)
+    pacf_zones = zones(analysis.pacf, analysis.pacf_upper, analysis.confidence)
     reports = []
     for row, s in enumerate(series):
         acf_block = acf.block(row)
@@ -123,7 +125,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "missing": _missing(s, analysis, row),
             "transform": s.transform,
         })
-        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1])
+        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1], acf_zones[row], pacf_zones[row])
     return reports
 
 
