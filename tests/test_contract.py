@@ -53,6 +53,13 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
             assert "number" in types, name
         if isinstance(field, NumberArray):
             assert prop["type"] == "array" and set(prop["items"]["type"]) == {"number", "null"}
+        choices = next((v.choices for v in field.validators if isinstance(v, validate.OneOf)), None)
+        if choices is not None:
+            assert list(prop["enum"]) == list(choices), name
+        inner = getattr(field, "inner", None)
+        inner_choices = next((v.choices for v in getattr(inner, "validators", []) if isinstance(v, validate.OneOf)), None)
+        if inner_choices is not None:
+            assert list(prop["items"]["enum"]) == list(inner_choices), name
         rng = _range(field)
         if rng is not None:
             lo_key = "minimum" if rng.min_inclusive else "exclusiveMinimum"

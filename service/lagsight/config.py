@@ -11,6 +11,8 @@ SETTINGS = {
     "MAX_BODY_BYTES": ("LAGSIGHT_MAX_BODY_BYTES", options.DEFAULT_LIMITS["max_body_bytes"], int),
     "MAX_POINTS": ("LAGSIGHT_MAX_POINTS", options.DEFAULT_LIMITS["max_points"], int),
     "MAX_LAG": ("LAGSIGHT_MAX_LAG", options.DEFAULT_LIMITS["max_lag"], int),
+    "MAX_REPLICATES": ("LAGSIGHT_MAX_REPLICATES", options.DEFAULT_LIMITS["max_replicates"], int),
+    "MAX_SIMULATED_VALUES": ("LAGSIGHT_MAX_SIMULATED_VALUES", options.DEFAULT_LIMITS["max_simulated_values"], int),
     "OPENAPI_PATH": ("LAGSIGHT_OPENAPI_PATH", str(Path(__file__).resolve().parents[2] / "openapi" / "openapi.yaml"), str),
 }
 

@@ -30,5 +30,5 @@ def diagnose():
     data = load(_SCHEMA, read_json_object(request))
     cfg = current_app.config
     series = prepare(data, cfg["MAX_POINTS"])
-    plan = plan_for(series, data, cfg["MAX_LAG"])
+    plan = plan_for(series, data, cfg)
     return json_response(run([(series, plan)])[0])
