@@ -1,13 +1,11 @@
 """The application factory."""
 from __future__ import annotations
 
-import logging
-
 import yaml
 from flask import Flask
 
 from . import config as settings
-from . import errors
+from . import errors, observability, security
 
 
 def load_spec(path: str) -> dict:
@@ -21,10 +19,12 @@ def create_app(config: dict | None = None) -> Flask:
     app.config.update(settings.load(config))
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])
+    observability.init_app(app)  # first: the request id and clock start before anything can fail
+    security.init_app(app)
     errors.init_app(app)
-    from .views import diagnostics, meta
+    from .views import diagnostics, meta, operations
 
     app.register_blueprint(meta.bp)
+    app.register_blueprint(operations.bp)
     app.register_blueprint(diagnostics.bp)
-    logging.getLogger("lagsight").setLevel(logging.INFO)
     return app

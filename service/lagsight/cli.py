@@ -1,37 +1,46 @@
-"""The ``lagsight`` command: ``lagsight serve --host --port --workers``."""
+"""The ``lagsight`` command: ``lagsight serve --host --port --workers --timeout``.
+
+Flags override the LAGSIGHT_* environment variables of the same meaning; the
+other settings (docs/CONFIGURATION.md) come from the environment.
+"""
 from __future__ import annotations
 
 import argparse
 import os
 import sys
 
+from . import config
 
-def serve(host: str, port: int, workers: int, timeout: int) -> None:
-    """Replace this process with gunicorn serving lagsight.wsgi:app."""
-    args = [
-        sys.executable, "-m", "gunicorn", "lagsight.wsgi:app",
-        "--bind", f"{host}:{port}",
-        "--workers", str(workers),
-        "--timeout", str(timeout),
-        "--graceful-timeout", "30",
-        "--preload",
-        "--no-control-socket",
-        "--access-logfile", "-",
-    ]
-    os.execv(sys.executable, args)
+_FLAGS = {"host": "HOST", "port": "PORT", "workers": "WORKERS", "timeout": "TIMEOUT"}
+
+
+def serve(environ: dict) -> None:
+    """Replace this process with gunicorn serving lagsight.wsgi:app with lagsight.gunicorn_conf."""
+    args = [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"]
+    os.execve(sys.executable, args, environ)
 
 
 def main(argv=None) -> None:
+    try:
+        settings = config.load()
+    except ValueError as err:
+        sys.exit(f"lagsight: {err}")
     parser = argparse.ArgumentParser(prog="lagsight", description="Lagsight white-noise diagnostics service.")
     sub = parser.add_subparsers(dest="command", required=True)
-    s = sub.add_parser("serve", help="run the HTTP service with gunicorn")
-    s.add_argument("--host", default=os.environ.get("LAGSIGHT_HOST", "127.0.0.1"))
-    s.add_argument("--port", type=int, default=int(os.environ.get("LAGSIGHT_PORT", "8000")))
-    s.add_argument("--workers", type=int, default=int(os.environ.get("LAGSIGHT_WORKERS", str(min(2 * (os.cpu_count() or 1) + 1, 9)))))
-    s.add_argument("--timeout", type=int, default=int(os.environ.get("LAGSIGHT_TIMEOUT", "60")))
+    s = sub.add_parser("serve", help="run the HTTP service with gunicorn (settings: docs/CONFIGURATION.md)")
+    s.add_argument("--host", default=settings["HOST"])
+    s.add_argument("--port", type=int, default=settings["PORT"])
+    s.add_argument("--workers", type=int, default=settings["WORKERS"])
+    s.add_argument("--timeout", type=int, default=settings["TIMEOUT"])
+    sub.add_parser("settings", help="print the settings table (variable, default, scope, meaning)")
     ns = parser.parse_args(argv)
-    if ns.command == "serve":
-        serve(ns.host, ns.port, ns.workers, ns.timeout)
+    if ns.command == "settings":
+        print(config.markdown_table(), end="")
+    elif ns.command == "serve":
+        environ = dict(os.environ)
+        for flag, key in _FLAGS.items():
+            environ[config.SETTINGS[key].var] = str(getattr(ns, flag))
+        serve(environ)
 
 
 if __name__ == "__main__":

@@ -6,6 +6,7 @@ import logging
 from flask import Flask, request
 from werkzeug.exceptions import HTTPException
 
+from .observability import exception_fields, request_id
 from .problems import KINDS, Problem
 from .serialisation import problem_response
 
@@ -39,5 +40,7 @@ def init_app(app: Flask) -> None:
 
     @app.errorhandler(Exception)
     def _crash(exc: Exception):
-        log.exception("unhandled error on %s %s", request.method, request.path)
+        # type and frames only: the message of an exception can quote request data
+        log.error("unhandled error", extra={"request_id": request_id(), "method": request.method,
+                                            "route": request.path, **exception_fields(exc)})
         return problem_response(Problem("internal-error", "The service failed on this request; it has been logged."), request.path)

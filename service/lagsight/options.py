@@ -20,7 +20,8 @@ DEFAULT_LIMITS = {
     "max_points": 2_000_000,  # usable points in one series
     "max_lag": 2_000,  # highest lag a request may ask for
     "max_body_bytes": 64 * 1024 * 1024,  # request body size
-    "max_replicates": 9_999,  # Monte Carlo replicates per request
+    "max_series": 1_000,  # series in one batch request
+    "max_replicates": 9_999,  # Monte Carlo replicates one request may ask for
     "max_simulated_values": 50_000_000,  # Monte Carlo replicates x n per request
 }
 

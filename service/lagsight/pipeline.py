@@ -10,7 +10,7 @@ from collections import defaultdict
 
 import numpy as np
 
-from . import options
+from . import metrics, options
 from .engine.analysis import Spec, analyse
 from .interpretation import interpret
 from .problems import invalid
@@ -66,4 +66,5 @@ def run(items: list[tuple[PreparedSeries, Spec]]) -> list[dict]:
         result = analyse(x, spec)
         for row, i in enumerate(members):
             reports[i] = interpret(build_report(items[i][0], result, row))
+    metrics.record_analysed(len(items), sum(series.n for series, _ in items))
     return reports

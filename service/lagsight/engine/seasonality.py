@@ -12,7 +12,7 @@ near 0 no seasonal pattern, near 1 a seasonal pattern that dominates the noise.
 
 References
 ----------
-.. [1] Wang, X., Smith, K. A. and Hyndman, R. J. (2006). Characteristic-based clustering
+.. [1] Wang, X., Smith, K. A. et al. (2006). Characteristic-based clustering
    for time series data. Data Mining and Knowledge Discovery 13, 335-364.
 .. [2] Cleveland, R. B., Cleveland, W. S., McRae, J. E. and Terpenning, I. (1990). STL: a
    seasonal-trend decomposition procedure based on loess. J. Official Statistics 6, 3-73.

@@ -1,0 +1,60 @@
+"""gunicorn settings from the LAGSIGHT_* environment: ``gunicorn -c python:lagsight.gunicorn_conf lagsight.wsgi:app``.
+
+``lagsight serve`` uses this file; a deployment can use it directly (see
+docs/DEPLOYMENT.md). Values come from :mod:`lagsight.config`, so the one table
+in docs/CONFIGURATION.md documents them. It also prepares the directory through
+which the workers share their Prometheus counts and makes gunicorn's own log
+lines JSON like the service's.
+"""
+import glob
+import os
+import shutil
+import tempfile
+
+from lagsight import config as _config  # imports no metrics: prometheus_client must see the directory first
+
+MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"  # read by prometheus_client when it is first imported
+
+_s = _config.load()
+
+bind = [f"{_s['HOST']}:{_s['PORT']}"]
+workers = _s["WORKERS"]
+timeout = _s["TIMEOUT"]
+graceful_timeout = _s["GRACEFUL_TIMEOUT"]
+keepalive = _s["KEEPALIVE"]
+max_requests = _s["MAX_REQUESTS"]
+max_requests_jitter = max_requests // 10
+preload_app = True
+control_socket_disable = True  # one shared default path would clash between instances on one machine
+accesslog = None  # the service writes its own JSON access line per request (request id, route, status, duration)
+errorlog = "-"
+loglevel = _s["LOG_LEVEL"].lower()
+logconfig_dict = {
+    "version": 1,
+    "disable_existing_loggers": False,
+    "formatters": {"json": {"()": "lagsight.observability.JsonFormatter"}},
+    "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json", "stream": "ext://sys.stderr"}},
+    "root": {"level": "WARNING", "handlers": ["stderr"]},
+    "loggers": {
+        "gunicorn.error": {"handlers": ["stderr"], "level": _s["LOG_LEVEL"], "propagate": False},
+        "gunicorn.access": {"handlers": [], "level": "CRITICAL", "propagate": False},
+    },
+}
+
+# Workers share metrics through files in one directory, which must start empty.
+_made_dir = not os.environ.get(MULTIPROC_ENV)
+if _made_dir:
+    os.environ[MULTIPROC_ENV] = tempfile.mkdtemp(prefix="lagsight-metrics-")
+for _stale in glob.glob(os.path.join(os.environ[MULTIPROC_ENV], "*.db")):
+    os.remove(_stale)
+
+
+def child_exit(server, worker):
+    from lagsight.metrics import worker_exited
+
+    worker_exited(worker.pid)
+
+
+def on_exit(server):
+    if _made_dir:
+        shutil.rmtree(os.environ[MULTIPROC_ENV], ignore_errors=True)
