@@ -14,28 +14,33 @@ DEFAULT_CONFIDENCE = 0.95
 DEFAULT_MODEL_DF = 0
 MIN_POINTS = 3  # the smallest series with a defined lag-1 autocorrelation (NIST NumAcc1 has 3)
 MIN_PERIOD = 2
+MAX_ID_LENGTH = 200  # characters of a batch series id
 
 # Limits that the deployment may lower or raise (see config.py); these are the defaults.
 DEFAULT_LIMITS = {
     "max_points": 2_000_000,  # usable points in one series
     "max_lag": 2_000,  # highest lag a request may ask for
     "max_body_bytes": 64 * 1024 * 1024,  # request body size
-    "max_series": 1_000,  # series in one batch request
+    "max_series": 20_000,  # series in one batch request
+    "max_batch_points": 5_000_000,  # values in one batch request, all series together
     "max_replicates": 9_999,  # Monte Carlo replicates one request may ask for
     "max_simulated_values": 50_000_000,  # Monte Carlo replicates x n per request
 }
 
 
 def default_max_lag(n: int, period: int | None) -> int:
-    """Default highest lag: min(max(floor(10 log10 n), 2 m), n - 1).
+    """Default highest lag: min(max(floor(10 log10 n), s), n - 1).
 
     ``floor(10 log10 n)`` is common practice (the default number of lags of
-    ``statsmodels.tsa.stattools.acf``); with a seasonal period m we reach at
-    least lag 2m so that two seasonal lags are shown (common practice, no source).
+    ``statsmodels.tsa.stattools.acf``). With a seasonal period m, s is 2m when
+    2m <= n/2, else m when m <= n/2, so that the seasonal lags are shown without
+    reaching lags where too few pairs of values remain (common practice, no source);
+    without a period, or when m > n/2, s is 0.
     """
     lag = int(math.floor(10.0 * math.log10(n)))
     if period is not None:
-        lag = max(lag, 2 * period)
+        reach = next((k * period for k in (2, 1) if k * period <= n // 2), 0)
+        lag = max(lag, reach)
     return max(1, min(lag, n - 1))
 
 

@@ -3,10 +3,18 @@
 Floats that are not defined are ``None`` with a reason beside them, never NaN.
 Sentences, the verdict, advice and the one-line meaning of each test are added
 by :mod:`lagsight.interpretation`.
+
+Reports are built a group at a time: each array of the group analysis is turned
+into Python lists once (``ndarray.tolist`` runs at C speed), then every row's
+report takes its slices. Building row by row from NumPy scalars cost about ten
+times more on batches of thousands of short series (see BENCHMARKS.md).
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
+from scipy.stats import binom
 
 from .engine.analysis import GroupAnalysis
 from .engine.bands import Band, per_lag_confidence
@@ -15,65 +23,90 @@ from .series import PreparedSeries
 #: A spike is "far" outside when it lies beyond this many standard errors from the band centre.
 FAR_SE = 3.0
 
-
-def _floats(a) -> list:
-    a = np.asarray(a, dtype=np.float64)
-    return [v if v == v and abs(v) != float("inf") else None for v in a.tolist()]
-
-
-def _num(v) -> float | None:
-    return None if v is None or not np.isfinite(v) else float(v)
+_NOT_COMPUTABLE = {
+    "mcleod_li": "Not computable: the squared values do not vary.",
+    "runs": "Not computable: all values lie on one side of the median.",
+    "cumulative_periodogram": "Not computable: the series is too short for two Fourier frequencies.",
+}
 
 
-def _correlogram(lags: list[int], values: np.ndarray, band: Band, row: int) -> dict:
-    centre, se = band.centre[row], band.se[row]
-    lower, upper = centre - band.z * se, centre + band.z * se
-    outside = (values < lower) | (values > upper)
-    far = np.abs(values - centre) > FAR_SE * se
-    return {
-        "lags": lags,
-        "values": _floats(values),
-        "lower": _floats(lower),
-        "upper": _floats(upper),
-        "centre": _floats(centre),
-        "standard_error": _floats(se),
-        "outside": [k for k, o in zip(lags, outside.tolist()) if o],
-        "far": [k for k, o, f in zip(lags, outside.tolist(), far.tolist()) if o and f],
-        "marginal": [k for k, o, f in zip(lags, outside.tolist(), far.tolist()) if o and not f],
-    }
+def _rows(a: np.ndarray) -> list[list]:
+    """Rows of a 2-D float array as lists, with None where a value is not finite."""
+    rows = a.tolist()
+    if np.isfinite(a).all():
+        return rows
+    return [[v if math.isfinite(v) else None for v in row] for row in rows]
 
 
-def _test_entries(analysis: GroupAnalysis, row: int) -> list[dict]:
+def _list(a: np.ndarray) -> list:
+    return _rows(np.asarray(a, dtype=np.float64)[None, :])[0]
+
+
+class _Correlograms:
+    """One correlogram (ACF or PACF) of every row of a group, as lists."""
+
+    def __init__(self, lags: list[int], values: np.ndarray, band: Band):
+        self.lags = lags
+        lower, upper = band.lower, band.upper
+        self.values = _rows(values)
+        self.lower = _rows(lower)
+        self.upper = _rows(upper)
+        self.centre = _rows(band.centre)
+        self.se = _rows(band.se)
+        outside = (values < lower) | (values > upper)
+        far = outside & (np.abs(values - band.centre) > FAR_SE * band.se)
+        self.outside = [[lag for lag, o in zip(lags, row) if o] for row in outside.tolist()]
+        self.far = [[lag for lag, f in zip(lags, row) if f] for row in far.tolist()]
+
+    def block(self, row: int) -> dict:
+        far = set(self.far[row])
+        return {
+            "lags": list(self.lags),
+            "values": self.values[row],
+            "lower": self.lower[row],
+            "upper": self.upper[row],
+            "centre": self.centre[row],
+            "standard_error": self.se[row],
+            "outside": self.outside[row],
+            "far": self.far[row],
+            "marginal": [lag for lag in self.outside[row] if lag not in far],
+        }
+
+
+def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
+    """The test entries of every row: a list of test dicts per row."""
     alpha = 1.0 - analysis.confidence
-    out = []
+    m = analysis.acf.shape[0]
+    out: list[list[dict]] = [[] for _ in range(m)]
     for t in analysis.tests:
+        stats, pvals = _rows(t.statistic), _rows(t.p_value)
+        ses = _rows(t.mc_se) if t.mc_se is not None else None
+        per_row = {k: _list(v) for k, v in t.extras.items() if isinstance(v, np.ndarray)}
+        constant = {k: v for k, v in t.extras.items() if not isinstance(v, np.ndarray)}
         for j, lag in enumerate(t.lags):
-            stat, p, df = _num(t.statistic[row, j]), _num(t.p_value[row, j]), t.df[j]
-            entry = {
-                "name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                "reject": None if p is None else bool(p < alpha),
-                "method": t.method,
-                "mc_standard_error": None if t.mc_se is None else _num(t.mc_se[row, j]),
-                "details": {k: (_num(v[row]) if isinstance(v, np.ndarray) else v) for k, v in t.extras.items()},
-                "meaning": None,
-                "note": None,
-            }
-            if t.name in ("ljung_box", "box_pierce") and df is None:
-                entry["note"] = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
-                                 f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
-            elif stat is None or p is None:
-                entry["note"] = {
-                    "mcleod_li": "Not computable: the squared values do not vary.",
-                    "runs": "Not computable: all values lie on one side of the median.",
-                    "cumulative_periodogram": "Not computable: the series is too short for two Fourier frequencies.",
-                }.get(t.name, "Not computable for this series.")
-            out.append(entry)
+            df = t.df[j]
+            no_df = t.name in ("ljung_box", "box_pierce") and df is None
+            for row in range(m):
+                stat, p = stats[row][j], pvals[row][j]
+                note = None
+                if no_df:
+                    note = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
+                            f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
+                elif stat is None or p is None:
+                    note = _NOT_COMPUTABLE.get(t.name, "Not computable for this series.")
+                out[row].append({
+                    "name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
+                    "reject": None if p is None else p < alpha,
+                    "method": t.method,
+                    "mc_standard_error": None if ses is None else ses[row][j],
+                    "details": {**constant, **{k: v[row] for k, v in per_row.items()}},
+                    "meaning": None,
+                    "note": note,
+                })
     return out
 
 
-def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: list[int]) -> dict:
-    from scipy.stats import binom
-
+def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...]) -> dict:
     K, k_out = len(acf_block["lags"]), len(acf_block["outside"])
     return {
         "count": k_out,
@@ -88,7 +121,6 @@ def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: list[int]
 
 def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, row: int) -> dict:
     period = series.period
-    strength = analysis.seasonal_strength[row]
     base = {"period": period, "period_source": series.period_source, "lags": [],
             "suggested_period": analysis.suggested_period[row], "strength": None, "leftover_likely": None,
             "note": None}
@@ -102,62 +134,73 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
                     for lag in analysis.spec.seasonal_lags]
     if not base["lags"]:
         base["note"] = f"max_lag is below the period {period}; raise max_lag to at least {period} to check seasonal lags."
+    strength = analysis.seasonal_strength[row]
     base["strength"] = {
         "value": strength,
         "method": "stl",
-        "note": None if strength is not None else f"Not computed: STL needs at least {2 * period + 1} values for period {period}.",
+        "note": None if strength is not None else (
+            f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
+            if series.n < 2 * period + 1 else "Not computed: seasonal strength was not requested."),
     }
     return base
 
 
-def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
-    """Assemble the numeric part of the report for row ``row`` of a group analysis."""
+def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
+    """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i."""
     spec = analysis.spec
     lags = list(range(1, spec.max_lag + 1))
-    acf_block = _correlogram(lags, analysis.acf[row], analysis.acf_band, row)
-    pacf_block = _correlogram(lags, analysis.pacf[row], analysis.pacf_band, row)
+    acf = _Correlograms(lags, analysis.acf, analysis.acf_band)
+    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band)
+    tests = _test_rows(analysis)
     per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
     constant_width = spec.band in ("white_noise", "simultaneous")
+    frequencies = _list(analysis.frequencies)
+    power, cumulative = _rows(analysis.power), _rows(analysis.cumulative)
     crit = analysis.ks_critical
-    expected = analysis.expected_cumulative
-    unit_root = analysis.unit_root[row]
-    return {
-        "name": series.name,
-        "n": series.n,
-        "n_input": series.n_input,
-        "n_missing": series.n_missing,
-        "max_lag": spec.max_lag,
-        "confidence": spec.confidence,
-        "model_df": spec.model_df,
-        "period": series.period,
-        "frequency": series.frequency,
-        "band": {
-            "kind": spec.band,
-            "per_lag_confidence": per_lag,
-            "z": analysis.acf_band.z,
-            "half_width": acf_block["upper"][0] if constant_width else None,
-        },
-        "acf": acf_block,
-        "pacf": pacf_block,
-        "exceedances": _exceedances(acf_block, 1.0 - per_lag, list(spec.seasonal_lags)),
-        "tests": _test_entries(analysis, row),
-        "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
-        "seasonal": _seasonal(series, analysis, acf_block, row),
-        "periodogram": {
-            "frequencies": _floats(analysis.frequencies),
-            "power": _floats(analysis.power[row]),
-            "cumulative": _floats(analysis.cumulative[row]),
-            "lower": None if crit is None else _floats(expected - crit),
-            "upper": None if crit is None else _floats(expected + crit),
-            "binned": bool(analysis.frequencies.size < (series.n - 1) // 2),
-        },
-        "unit_root": None if unit_root is None else {
-            "test": "augmented_dickey_fuller", "statistic": unit_root[0], "p_value": unit_root[1],
-            "lags_used": unit_root[2],
-        },
-        "verdict": None,
-        "interpretation": [],
-        "advice": [],
-        "cautions": [],
-        "warnings": list(series.warnings),
-    }
+    lower = None if crit is None else _list(analysis.expected_cumulative - crit)
+    upper = None if crit is None else _list(analysis.expected_cumulative + crit)
+    reports = []
+    for row, s in enumerate(series):
+        acf_block = acf.block(row)
+        unit_root = analysis.unit_root[row]
+        reports.append({
+            "name": s.name,
+            "n": s.n,
+            "n_input": s.n_input,
+            "n_missing": s.n_missing,
+            "max_lag": spec.max_lag,
+            "confidence": spec.confidence,
+            "model_df": spec.model_df,
+            "period": s.period,
+            "frequency": s.frequency,
+            "band": {
+                "kind": spec.band,
+                "per_lag_confidence": per_lag,
+                "z": analysis.acf_band.z,
+                "half_width": acf_block["upper"][0] if constant_width else None,
+            },
+            "acf": acf_block,
+            "pacf": pacf.block(row),
+            "exceedances": _exceedances(acf_block, 1.0 - per_lag, spec.seasonal_lags),
+            "tests": tests[row],
+            "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
+            "seasonal": _seasonal(s, analysis, acf_block, row),
+            "periodogram": {
+                "frequencies": list(frequencies),
+                "power": power[row],
+                "cumulative": cumulative[row],
+                "lower": None if lower is None else list(lower),
+                "upper": None if upper is None else list(upper),
+                "binned": len(frequencies) < (s.n - 1) // 2,
+            },
+            "unit_root": None if unit_root is None else {
+                "test": "augmented_dickey_fuller", "statistic": unit_root[0], "p_value": unit_root[1],
+                "lags_used": unit_root[2],
+            },
+            "verdict": None,
+            "interpretation": [],
+            "advice": [],
+            "cautions": [],
+            "warnings": list(s.warnings),
+        })
+    return reports

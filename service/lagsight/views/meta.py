@@ -7,6 +7,7 @@ from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import MEANINGS
 from ..interpretation import __doc__ as DECISION_RULE
+from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
 
 bp = Blueprint("meta", __name__)
@@ -43,7 +44,7 @@ def methods():
         "test_catalogue": [{"name": name, "meaning": MEANINGS[name].format(lag="h")} for name in options.TEST_NAMES],
         "tests": list(PORTMANTEAU_TESTS),
         "options": {
-            "max_lag": {"default": "min(max(floor(10 log10 n), 2 * period), n - 1)", "minimum": 1, "maximum": cfg["MAX_LAG"]},
+            "max_lag": {"default": "min(max(floor(10 log10 n), s), n - 1) with s = 2 * period if that is at most n/2, else period if that is, else 0", "minimum": 1, "maximum": cfg["MAX_LAG"]},
             "confidence": {"default": options.DEFAULT_CONFIDENCE, "exclusive_minimum": 0, "exclusive_maximum": 1},
             "model_df": {"default": options.DEFAULT_MODEL_DF, "minimum": 0},
             "period": {"default": None, "minimum": options.MIN_PERIOD},
@@ -60,7 +61,13 @@ def methods():
             "Monte Carlo p-values.")},
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
-                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_replicates": cfg["MAX_REPLICATES"],
+                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
+                   "max_batch_points": cfg["MAX_BATCH_POINTS"], "max_replicates": cfg["MAX_REPLICATES"],
                    "max_simulated_values": cfg["MAX_SIMULATED_VALUES"]},
+        "batch": {
+            "route": "/v1/diagnostics/batch",
+            "per_series_overrides": list(BATCH_OVERRIDES),
+            "media_types": ["application/json", "application/x-ndjson"],
+        },
         "decision_rule": " ".join(DECISION_RULE.split("-" * 74)[1].split()),
     })
