@@ -23,7 +23,7 @@ from .engine.analysis import Spec, analyse
 from .interpretation import interpret
 from .problems import invalid
 from .report import build_reports
-from .series import PreparedSeries, resolve_max_lag
+from .series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 
 #: Values per engine block (2**18 float64 = 2 MiB per copy of the data).
 BLOCK_POINTS = 1 << 18
@@ -35,6 +35,8 @@ class Plan:
 
     n: int
     spec: Spec
+    length: int = 0  # time-grid length; differs from n when observations are missing
+    pairwise: bool = False  # missing observations analysed with the amplitude-modulated estimator
 
 
 def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
@@ -44,11 +46,18 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
     MAX_REPLICATES and MAX_SIMULATED_VALUES (the deployment settings).
     """
     n = series.n
-    max_lag = resolve_max_lag(opts.get("max_lag"), n, series.period, limits["MAX_LAG"])
+    mask = series.mask
+    max_lag = resolve_max_lag(opts.get("max_lag"), series.length if mask is not None else n, series.period,
+                              limits["MAX_LAG"])
+    if mask is not None:
+        max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
     tests = tuple(t for t in options.TEST_NAMES if t in (opts.get("tests") or options.DEFAULT_TESTS))
     monte_carlo = opts.get("p_values", options.DEFAULT_P_VALUES) == "monte_carlo"
     replicates = opts.get("replicates", options.DEFAULT_REPLICATES) if monte_carlo else 0
     seed = opts.get("seed")
+    if monte_carlo and mask is not None:
+        raise invalid("/p_values", "Monte Carlo p-values need a complete series; with missing values use "
+                                   "missing \"interpolate\", or asymptotic p-values.")
     if monte_carlo:
         if replicates > limits["MAX_REPLICATES"]:
             raise invalid("/replicates", f"replicates must be at most {limits['MAX_REPLICATES']} "
@@ -73,7 +82,7 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
         replicates=replicates,
         seed=seed,
     )
-    return Plan(n, spec)
+    return Plan(n, spec, series.length, mask is not None)
 
 
 def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
@@ -83,7 +92,7 @@ def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[in
         groups[plan].append(i)
     out = []
     for plan, members in groups.items():
-        rows = max(1, BLOCK_POINTS // plan.n)
+        rows = max(1, BLOCK_POINTS // max(plan.n, plan.length))
         out.extend((plan, members[start:start + rows]) for start in range(0, len(members), rows))
     return out
 
@@ -109,7 +118,8 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[
     """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
     for plan, members in blocks(items):
         x = np.stack([items[i][0].values for i in members])
-        result = analyse(x, plan.spec)
+        mask = ~np.isnan(x) if plan.pairwise else None
+        result = analyse(x, plan.spec, mask=mask)
         metrics.record_analysed(len(members), plan.n * len(members))
         with gc_paused():
             reports = build_reports([items[i][0] for i in members], result)

@@ -16,12 +16,12 @@ import math
 import numpy as np
 from scipy.stats import binom
 
+from . import options
 from .engine.analysis import GroupAnalysis
 from .engine.bands import Band, per_lag_confidence
 from .series import PreparedSeries
 
-#: A spike is "far" outside when it lies beyond this many standard errors from the band centre.
-FAR_SE = 3.0
+FAR_SE = options.FAR_OUTSIDE_SE  # standard errors beyond which a spike is "far" outside
 
 _NOT_COMPUTABLE = {
     "mcleod_li": "Not computable: the squared values do not vary.",
@@ -94,6 +94,9 @@ def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
                             f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
                 elif stat is None or p is None:
                     note = _NOT_COMPUTABLE.get(t.name, "Not computable for this series.")
+                    if t.name == "cumulative_periodogram" and analysis.n_effective is not None:
+                        note = ("Not computable with missing observations: the periodogram needs a complete, "
+                                "evenly spaced series (use missing \"interpolate\" to get it).")
                 out[row].append({
                     "name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
                     "reject": None if p is None else p < alpha,
@@ -140,9 +143,18 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
         "method": "stl",
         "note": None if strength is not None else (
             f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
-            if series.n < 2 * period + 1 else "Not computed: seasonal strength was not requested."),
+            if series.n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
+            "\"interpolate\" to get it)." if analysis.n_effective is not None
+            else "Not computed: seasonal strength was not requested."),
     }
     return base
+
+
+def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
+    block = dict(series.missing)
+    if analysis.n_effective is not None:
+        block["effective_n"] = _rows(analysis.n_effective[row : row + 1])[0]
+    return block
 
 
 def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
@@ -153,7 +165,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
     pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band)
     tests = _test_rows(analysis)
     per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
-    constant_width = spec.band in ("white_noise", "simultaneous")
+    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None
     frequencies = _list(analysis.frequencies)
     power, cumulative = _rows(analysis.power), _rows(analysis.cumulative)
     crit = analysis.ks_critical
@@ -202,5 +214,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "advice": [],
             "cautions": [],
             "warnings": list(s.warnings),
+            "missing": _missing(s, analysis, row),
+            "transform": s.transform,
         })
     return reports

@@ -14,6 +14,7 @@ from scipy.stats import chi2
 from . import randomness, seasonality, spectrum, stationarity
 from .autocorrelation import autocovariance, center
 from .bands import Band, acf_band, pacf_band
+from .masked import center_observed, masked_acf, masked_portmanteau
 from .partial import pacf
 from .portmanteau import portmanteau
 
@@ -90,6 +91,7 @@ class GroupAnalysis:
     seasonal_strength: list  # float or None per row
     suggested_period: list  # int or None per row
     unit_root: list  # (stat, p, lags) or None per row
+    n_effective: np.ndarray | None = None  # (m, K) per-lag effective sizes when values are missing (masked.py)
 
     @property
     def max_lag(self) -> int:
@@ -104,12 +106,27 @@ class GroupAnalysis:
         return self.spec.model_df
 
 
-def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray, spec: Spec) -> list[TestArrays]:
-    """Every selected test on rows x (raw), d (centred), r (ACF), power (periodogram)."""
+def _per_observed_row(fn, x: np.ndarray, mask: np.ndarray):
+    """Apply a row-wise test to the observed values of each row (rows differ in length)."""
+    parts = [fn(x[i][mask[i]][None, :]) for i in range(x.shape[0])]
+    return tuple(np.concatenate(col) for col in zip(*parts))
+
+
+def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None, spec: Spec,
+           mask: np.ndarray | None = None, n_eff: np.ndarray | None = None) -> list[TestArrays]:
+    """Every selected test on rows x (raw), d (centred), r (ACF), power (periodogram).
+
+    With ``mask`` (True where observed) the lag-based tests use the amplitude-modulated
+    estimator and its effective sizes ``n_eff``; runs, turning points and Jarque-Bera use
+    the observed values in order; the cumulative periodogram needs a complete series.
+    """
     m, n = x.shape
     out = []
     for name in spec.tests:
-        if name in ("ljung_box", "box_pierce"):
+        if name in ("ljung_box", "box_pierce") and mask is not None:
+            stat, df, p = masked_portmanteau(r, n, n_eff, spec.test_lags, spec.model_df, name)
+            out.append(TestArrays(name, list(spec.test_lags), [int(v) if v > 0 else None for v in df], stat, p, stat))
+        elif name in ("ljung_box", "box_pierce"):
             stat, df, p = portmanteau(r, n, spec.test_lags, spec.model_df, name)
             out.append(TestArrays(name, list(spec.test_lags), [int(v) if v > 0 else None for v in df], stat, p, stat))
         elif name == "seasonal_ljung_box":
@@ -117,27 +134,44 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray, spec:
             if not lags:
                 continue
             idx = np.array(lags) - 1
-            stat = (n * (n + 2.0) * (r[:, idx] ** 2 / (n - np.array(lags))).sum(axis=1))[:, None]
+            weight = n if n_eff is None else n_eff[:, idx]
+            stat = (weight * (n + 2.0) * (r[:, idx] ** 2 / (n - np.array(lags)))).sum(axis=1)[:, None]
             out.append(TestArrays(name, [lags[-1]], [len(lags)], stat, chi2.sf(stat, len(lags)), stat,
                                   extras={"seasonal_lags": list(lags)}))
+        elif name == "mcleod_li" and mask is not None:
+            sq = np.where(mask, d * d, np.nan)
+            stat = np.full((m, 1), np.nan)
+            varies = np.array([np.ptp(sq[i][mask[i]]) > 0 for i in range(m)])
+            if varies.any():
+                r2, ne2 = masked_acf(sq[varies], mask[varies], spec.short_lag)
+                stat[varies], _, _ = masked_portmanteau(r2, n, ne2, [spec.short_lag], 0, "ljung_box")
+            p = chi2.sf(stat, spec.short_lag)
+            out.append(TestArrays(name, [spec.short_lag], [spec.short_lag], stat, p, stat))
         elif name == "mcleod_li":
             stat, p = randomness.mcleod_li(d, [spec.short_lag])
             out.append(TestArrays(name, [spec.short_lag], [spec.short_lag], stat, p, stat))
         elif name == "runs":
-            z, p, runs = randomness.runs_about_median(x)
+            z, p, runs = (randomness.runs_about_median(x) if mask is None
+                          else _per_observed_row(randomness.runs_about_median, x, mask))
             out.append(TestArrays(name, [None], [None], z[:, None], p[:, None], np.abs(z)[:, None],
                                   extras={"runs": runs}))
         elif name == "turning_points":
-            z, p, count = randomness.turning_points(x)
+            z, p, count = (randomness.turning_points(x) if mask is None
+                           else _per_observed_row(randomness.turning_points, x, mask))
             out.append(TestArrays(name, [None], [None], z[:, None], p[:, None], np.abs(z)[:, None],
                                   extras={"turning_points": count}))
+        elif name == "cumulative_periodogram" and power is None:
+            nan = np.full((m, 1), np.nan)
+            out.append(TestArrays(name, [None], [None], nan, nan, nan, method="exact",
+                                  extras={"frequencies_tested": None}))
         elif name == "cumulative_periodogram":
             q = power.shape[1]
             stat = spectrum.ks_statistic(spectrum.cumulative_periodogram(power))
             out.append(TestArrays(name, [None], [None], stat[:, None], spectrum.ks_p_value(stat, q)[:, None],
                                   stat[:, None], method="exact", extras={"frequencies_tested": q - 1}))
         elif name == "jarque_bera":
-            stat, p, skew, kurt = randomness.jarque_bera(d)
+            stat, p, skew, kurt = (randomness.jarque_bera(d) if mask is None else _per_observed_row(
+                lambda row: randomness.jarque_bera(row - row.mean()), x, mask))
             out.append(TestArrays(name, [None], [2], stat[:, None], p[:, None], stat[:, None],
                                   extras={"skewness": skew, "kurtosis": kurt}))
         else:
@@ -184,37 +218,58 @@ def monte_carlo(observed: list[TestArrays], n: int, spec: Spec) -> None:
         t.method = "monte_carlo"
 
 
-def analyse(x: np.ndarray, spec: Spec) -> GroupAnalysis:
+def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupAnalysis:
     """Autocorrelations, bands, tests and spectral summaries for rows of x.
 
     Parameters
     ----------
     x : ndarray, shape (m, n)
-        Finite, non-constant rows, n >= 3.
+        Finite, non-constant rows, n >= 3 (NaN allowed only where ``mask`` is False).
     spec : Spec
         max_lag (1 <= max_lag <= n - 1), confidence, model_df, portmanteau lags
         (each <= max_lag), band kind, tests, p-value method and Monte Carlo settings.
+    mask : ndarray of bool, shape (m, n), optional
+        True where observed. When given, the amplitude-modulated estimator with
+        per-lag effective sizes n_k is used (see :mod:`.masked`): band standard
+        errors scale by sqrt(n / n_k); the periodogram, STL, the unit-root check
+        and Monte Carlo p-values need complete series and are left out.
     """
     x = np.atleast_2d(np.asarray(x, dtype=np.float64))
     m, n = x.shape
-    d, r, power = _observe(x, spec)
-    phi = pacf(r)
+    if mask is not None and mask.all():
+        mask = None
+    n_eff = None
+    if mask is None:
+        d, r, power = _observe(x, spec)
+    else:
+        r, n_eff = masked_acf(x, mask, spec.max_lag)
+        d, power = center_observed(x, mask), None
+    phi = np.clip(pacf(r), -1.0, 1.0)
     band = acf_band(spec.band, r, n, spec.confidence)
-    tests = _tests(x, d, r, power, spec)
-    if spec.p_values == "monte_carlo" and spec.replicates > 0:
+    p_band = pacf_band(spec.band, m, n, spec.max_lag, spec.confidence)
+    if n_eff is not None:
+        scale = np.sqrt(n / n_eff)
+        band.se, p_band.se = band.se * scale, p_band.se * scale
+    tests = _tests(x, d, r, power, spec, mask, n_eff)
+    if spec.p_values == "monte_carlo" and spec.replicates > 0 and mask is None:
         monte_carlo(tests, n, spec)
-    freqs, chart_power, chart_cum, expected = spectrum.chart_blocks(power, n)
+    if power is None:
+        freqs, chart_power, chart_cum, expected, crit = (np.zeros(0), np.zeros((m, 0)), np.zeros((m, 0)),
+                                                        np.zeros(0), None)
+    else:
+        freqs, chart_power, chart_cum, expected = spectrum.chart_blocks(power, n)
+        crit = spectrum.ks_critical(power.shape[1], spec.confidence)
     strength, suggested, unit_root = [], [], []
     for i in range(m):
-        if spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1:
+        complete = mask is None
+        if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1:
             strength.append(seasonality.stl_strength(x[i], spec.period))
         else:
             strength.append(None)
-        suggested.append(None if spec.period is not None
+        suggested.append(None if spec.period is not None or not complete
                          else seasonality.suggest_period(r[i], band.upper[i], power[i], n))
-        unit_root.append(stationarity.adf(x[i]) if stationarity.decays_slowly(r[i]) and n >= 10 else None)
+        unit_root.append(stationarity.adf(x[i]) if complete and stationarity.decays_slowly(r[i]) and n >= 10 else None)
     return GroupAnalysis(
-        n, spec, r, band, phi, pacf_band(spec.band, m, n, spec.max_lag, spec.confidence), tests,
-        freqs, chart_power, chart_cum, expected, spectrum.ks_critical(power.shape[1], spec.confidence),
-        strength, suggested, unit_root,
+        n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
+        strength, suggested, unit_root, n_eff,
     )

@@ -7,8 +7,11 @@ from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import MEANINGS
 from ..interpretation import __doc__ as DECISION_RULE
+from ..engine.masked import __doc__ as masked_doc
 from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
+from ..timestamps import __doc__ as timestamps_doc
+from ..transforms import __doc__ as transforms_doc
 
 bp = Blueprint("meta", __name__)
 
@@ -54,11 +57,17 @@ def methods():
             "replicates": {"default": options.DEFAULT_REPLICATES, "minimum": options.MIN_REPLICATES,
                            "maximum": cfg["MAX_REPLICATES"]},
             "seed": {"default": None, "minimum": 0},
+            "missing": {"default": options.DEFAULT_MISSING, "enum": list(options.MISSING_METHODS),
+                        "pairwise": " ".join(masked_doc.split("Notes\n-----")[1].split("References")[0].split())},
+            "transform": {"order": list(options.TRANSFORM_ORDER),
+                          "rules": " ".join(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1].split())},
         },
         "small_sample_threshold": {"n": options.SMALL_SAMPLE_N, "why": (
             "Below this length the chi-square p-values drift from their nominal level (simulated here: the 5% "
             "Ljung-Box test at lag 10 rejects about 7% of i.i.d. series of length 30); reports warn and advise "
             "Monte Carlo p-values.")},
+        "timestamps": {"periods": dict(options.PERIOD_BY_SPACING),
+                       "rules": " ".join(timestamps_doc.split("----------------------------------------------------------")[1].split())},
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
