@@ -145,7 +145,8 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
             f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
             if series.n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
             "\"interpolate\" to get it)." if analysis.n_effective is not None
-            else "Not computed: seasonal strength was not requested."),
+            else "Not computed: no seasonal lag lies outside the band, so there is no seasonal pattern to "
+                 "measure (on noise the STL strength only describes noise)."),
     }
     return base
 

@@ -259,10 +259,18 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
     else:
         freqs, chart_power, chart_cum, expected = spectrum.chart_blocks(power, n)
         crit = spectrum.ks_critical(power.shape[1], spec.confidence)
+    # STL runs only where a seasonal lag lies outside the band: elsewhere there is no seasonal
+    # pattern to measure, and the decomposition (about 1 ms a series) would dominate large batches.
+    if spec.seasonal_lags:
+        idx = np.array(spec.seasonal_lags) - 1
+        seasonal_flag = ((r[:, idx] < band.lower[:, idx]) | (r[:, idx] > band.upper[:, idx])).any(axis=1)
+    else:
+        seasonal_flag = np.zeros(m, dtype=bool)
     strength, suggested, unit_root = [], [], []
     for i in range(m):
         complete = mask is None
-        if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1:
+        if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1 \
+                and seasonal_flag[i]:
             strength.append(seasonality.stl_strength(x[i], spec.period))
         else:
             strength.append(None)

@@ -9,6 +9,7 @@ Seasonal strength [1]_ is
 with S_t and R_t the seasonal and remainder components of an STL decomposition
 [2]_ (``statsmodels.tsa.seasonal.STL``, default settings). It lies in [0, 1]:
 near 0 no seasonal pattern, near 1 a seasonal pattern that dominates the noise.
+The engine computes it only for series with a seasonal lag outside the band.
 
 References
 ----------
