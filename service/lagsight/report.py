@@ -17,6 +17,7 @@ import numpy as np
 from scipy.stats import binom
 
 from . import options
+from .charts import chart_data
 from .engine.analysis import GroupAnalysis
 from .engine.bands import Band, per_lag_confidence
 from .series import PreparedSeries
@@ -218,4 +219,5 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "missing": _missing(s, analysis, row),
             "transform": s.transform,
         })
+        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1])
     return reports
