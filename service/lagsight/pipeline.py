@@ -117,7 +117,10 @@ def gc_paused():
 def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[int, dict]]]:
     """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
     for plan, members in blocks(items):
-        x = np.stack([items[i][0].values for i in members])
+        if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
+            x = items[members[0]][0].values[None, :]
+        else:
+            x = np.stack([items[i][0].values for i in members])
         mask = ~np.isnan(x) if plan.pairwise else None
         result = analyse(x, plan.spec, mask=mask)
         metrics.record_analysed(len(members), plan.n * len(members))

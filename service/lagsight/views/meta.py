@@ -7,7 +7,11 @@ from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import MEANINGS
 from ..interpretation import __doc__ as DECISION_RULE
+from .. import query
+from ..charts import __doc__ as charts_doc
+from ..csv_input import __doc__ as csv_doc
 from ..engine.masked import __doc__ as masked_doc
+from ..serialisation_csv import COLUMNS as CSV_COLUMNS
 from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
 from ..timestamps import __doc__ as timestamps_doc
@@ -73,6 +77,18 @@ def methods():
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
                    "max_batch_points": cfg["MAX_BATCH_POINTS"], "max_replicates": cfg["MAX_REPLICATES"],
                    "max_simulated_values": cfg["MAX_SIMULATED_VALUES"]},
+        "data_in": {
+            "media_types": ["application/json", "text/csv"],
+            "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),
+            "query_parameters": {"output": list(query.OUTPUT_PARAMS), "csv": list(query.CSV_PARAMS),
+                                 "analysis": list(query.ANALYSIS_PARAMS), "transform": list(query.TRANSFORM_PARAMS)},
+        },
+        "data_out": {
+            "formats": dict(options.FORMATS),
+            "charts": list(options.CHART_KINDS),
+            "csv_columns": list(CSV_COLUMNS),
+            "chart_data": " ".join(charts_doc.split("\n\n", 1)[1].split()),
+        },
         "batch": {
             "route": "/v1/diagnostics/batch",
             "per_series_overrides": list(BATCH_OVERRIDES),
