@@ -73,6 +73,13 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
             assert set(types) == {"string", "integer"} and prop["maxLength"] == options.MAX_ID_LENGTH, name
         if isinstance(field, NumberArray):
             assert prop["type"] == "array" and set(prop["items"]["type"]) == {"number", "null"}
+        choices = next((v.choices for v in field.validators if isinstance(v, validate.OneOf)), None)
+        if choices is not None:
+            assert [c for c in prop["enum"] if c is not None] == list(choices), name
+        inner = getattr(field, "inner", None)
+        inner_choices = next((v.choices for v in getattr(inner, "validators", []) if isinstance(v, validate.OneOf)), None)
+        if inner_choices is not None:
+            assert list(prop["items"]["enum"]) == list(inner_choices), name
         rng = _range(field)
         if rng is not None:
             lo_key = "minimum" if rng.min_inclusive else "exclusiveMinimum"
@@ -176,6 +183,9 @@ def test_query_parameters_agree_with_the_spec():
     assert params["chart"]["schema"]["enum"] == list(options.CHART_KINDS)
     assert params["chart"]["schema"]["default"] == options.DEFAULT_CHART
     assert params["missing"]["schema"]["enum"] == list(options.MISSING_METHODS)
+    assert params["band"]["schema"]["enum"] == list(options.BAND_KINDS)
+    assert params["p_values"]["schema"]["enum"] == list(options.P_VALUE_METHODS)
+    assert params["replicates"]["schema"]["default"] == options.DEFAULT_REPLICATES
     assert set(params["delimiter"]["schema"]["enum"]) == set(options.CSV_DELIMITERS) | set(
         options.CSV_DELIMITERS.values())
     assert set(params["decimal"]["schema"]["enum"]) == set(options.CSV_DECIMALS) | set(options.CSV_DECIMALS.values())

@@ -7,8 +7,8 @@ Every chart is a small table a plotting library can draw as is:
   ``MAX_TIME_POINTS`` by keeping each bucket's lowest and highest point, so peaks survive.
 - ``correlogram`` and ``pacf``: per lag the value, the band, a ``zone`` and whether the lag
   is seasonal. Zones: ``inside`` the band; ``marginal`` outside it but within
-  ``options.FAR_OUTSIDE_SE`` (3) standard errors of zero; ``far`` beyond that. The standard
-  error is the band's half-width divided by the normal quantile z of the confidence.
+  ``options.FAR_OUTSIDE_SE`` (3) standard errors of the band's centre; ``far`` beyond that
+  (the report's ``outside`` and ``far`` lags; the standard error is the band's, per lag).
 - ``periodogram``: frequencies (cycles per observation), power, the cumulative periodogram
   and its band, from the report's ``periodogram`` block.
 
@@ -105,20 +105,19 @@ def seasonal_flags(max_lag: int, period: int | None) -> list[bool]:
     return [lag % period == 0 for lag in range(1, max_lag + 1)]
 
 
-def chart_data(values: np.ndarray, labels: list[str] | None, report: dict,
-               acf_zone: list | None = None, pacf_zone: list | None = None) -> dict:
-    """The ``charts`` block for one report (its numeric keys must be filled).
+def block_zones(block: dict) -> list:
+    """Zones read off a correlogram block's ``outside`` and ``far`` lags (the report's own classification)."""
+    outside, far = set(block["outside"]), set(block["far"])
+    return [None if v is None else "far" if lag in far else "marginal" if lag in outside else "inside"
+            for lag, v in zip(block["lags"], block["values"])]
 
-    ``acf_zone``/``pacf_zone`` may be given when computed for a whole group at once (see :func:`zones`).
-    """
+
+def chart_data(values: np.ndarray, labels: list[str] | None, report: dict) -> dict:
+    """The ``charts`` block for one report (its numeric keys must be filled)."""
     seasonal = seasonal_flags(report["max_lag"], report["period"])
-    conf = report["confidence"]
-    acf, pacf = report["acf"], report["pacf"]
     return {
         "time_plot": time_plot(values, labels),
-        "correlogram": correlogram(acf, acf_zone if acf_zone is not None else zones(acf["values"], acf["upper"], conf),
-                                   seasonal),
-        "pacf": correlogram(pacf, pacf_zone if pacf_zone is not None else zones(pacf["values"], pacf["upper"], conf),
-                            seasonal),
+        "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),
+        "pacf": correlogram(report["pacf"], block_zones(report["pacf"]), seasonal),
         "periodogram": periodogram(report.get("periodogram")),
     }
