@@ -109,11 +109,11 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
         raise Problem("invalid-content", detail, [FieldError(prefix + "/id", detail)])
     seen[data["id"]] = index
     own = {key for key in BATCH_OVERRIDES if key in data}
-    opts = {key: data[key] if key in own else shared[key] for key in BATCH_OVERRIDES}
+    opts = {**shared, **{key: data[key] for key in own}}
     data["period"] = opts["period"]
     try:
         series = prepare(data, cfg["MAX_POINTS"])
-        plan = plan_for(series, opts, cfg["MAX_LAG"])
+        plan = plan_for(series, opts, cfg)
     except Problem as problem:
         problem.errors = [
             e if e.pointer in _SHARED_POINTERS and e.pointer[1:] not in own else e.under(prefix)
