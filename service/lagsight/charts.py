@@ -7,8 +7,8 @@ Every chart is a small table a plotting library can draw as is:
   ``MAX_TIME_POINTS`` by keeping each bucket's lowest and highest point, so peaks survive.
 - ``correlogram`` and ``pacf``: per lag the value, the band, a ``zone`` and whether the lag
   is seasonal. Zones: ``inside`` the band; ``marginal`` outside it but within
-  ``options.FAR_OUTSIDE_SE`` (3) standard errors of zero; ``far`` beyond that. The standard
-  error is the band's half-width divided by the normal quantile z of the confidence.
+  ``options.FAR_OUTSIDE_SE`` (3) standard errors of the band's centre; ``far`` beyond that
+  (the report's ``far`` and ``marginal`` lists, computed for every band kind).
 - ``periodogram``: frequencies (cycles per observation), power, the cumulative periodogram
   and its band, from the report's ``periodogram`` block.
 
@@ -17,27 +17,21 @@ Every chart is a small table a plotting library can draw as is:
 from __future__ import annotations
 
 import numpy as np
-from scipy.stats import norm
 
 from . import options
 
 MAX_TIME_POINTS = 2000
 
 
-def zones(values: list, upper: list, confidence: float) -> list:
-    """inside / marginal / far for each lag (None where the value is undefined)."""
-    z = float(norm.isf((1.0 - confidence) / 2.0))
-    out = []
-    for v, u in zip(values, upper):
-        if v is None or u is None:
-            out.append(None)
-        elif abs(v) <= u:
-            out.append("inside")
-        elif abs(v) <= options.FAR_OUTSIDE_SE * u / z:
-            out.append("marginal")
-        else:
-            out.append("far")
-    return out
+def zones(block: dict) -> list:
+    """inside / marginal / far for each lag of a correlogram block (None where the value is undefined).
+
+    Read off the block's ``far`` and ``marginal`` lists, which the report computes against
+    the band's own centre and standard error (so every band kind is coloured correctly).
+    """
+    far, marginal = set(block["far"]), set(block["marginal"])
+    return [None if v is None else "far" if lag in far else "marginal" if lag in marginal else "inside"
+            for lag, v in zip(block["lags"], block["values"])]
 
 
 def _thin(y: np.ndarray, limit: int) -> np.ndarray:
@@ -76,7 +70,7 @@ def correlogram(block: dict, confidence: float, seasonal_lags: set[int]) -> dict
         "values": block["values"],
         "lower": block["lower"],
         "upper": block["upper"],
-        "zone": zones(block["values"], block["upper"], confidence),
+        "zone": zones(block),
         "seasonal": [lag in seasonal_lags for lag in block["lags"]],
         "vega_lite": None,
     }
