@@ -98,7 +98,7 @@ def test_long_series_time_plot_is_thinned_keeping_extremes():
 def test_zones_follow_the_report_far_and_marginal_lags(client):
     # se = 1/sqrt(100) = 0.1 under the white_noise band: outside beyond 0.196, "far" beyond 0.3.
     block = {"lags": [1, 2, 3, 4, 5], "values": [0.1, -0.2, 0.29, -0.31, None], "far": [4], "marginal": [2, 3]}
-    assert charts.zones(block) == ["inside", "marginal", "marginal", "far", None]
+    assert charts.block_zones({**block, "outside": [2, 3, 4]}) == ["inside", "marginal", "marginal", "far", None]
 
 
 def test_zones_use_the_band_centre_of_the_small_sample_band(client):

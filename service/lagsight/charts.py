@@ -8,7 +8,7 @@ Every chart is a small table a plotting library can draw as is:
 - ``correlogram`` and ``pacf``: per lag the value, the band, a ``zone`` and whether the lag
   is seasonal. Zones: ``inside`` the band; ``marginal`` outside it but within
   ``options.FAR_OUTSIDE_SE`` (3) standard errors of the band's centre; ``far`` beyond that
-  (the report's ``far`` and ``marginal`` lists, computed for every band kind).
+  (the report's ``outside`` and ``far`` lags; the standard error is the band's, per lag).
 - ``periodogram``: frequencies (cycles per observation), power, the cumulative periodogram
   and its band, from the report's ``periodogram`` block.
 
@@ -17,21 +17,27 @@ Every chart is a small table a plotting library can draw as is:
 from __future__ import annotations
 
 import numpy as np
+from scipy.stats import norm
 
 from . import options
 
 MAX_TIME_POINTS = 2000
 
 
-def zones(block: dict) -> list:
-    """inside / marginal / far for each lag of a correlogram block (None where the value is undefined).
+def zones(values, upper, confidence: float) -> list:
+    """inside / marginal / far for each lag (None where the value is undefined).
 
-    Read off the block's ``far`` and ``marginal`` lists, which the report computes against
-    the band's own centre and standard error (so every band kind is coloured correctly).
+    ``values`` and ``upper`` may be lists (None for undefined) or arrays of shape (K,) or (m, K);
+    the result is a list of the same nesting.
     """
-    far, marginal = set(block["far"]), set(block["marginal"])
-    return [None if v is None else "far" if lag in far else "marginal" if lag in marginal else "inside"
-            for lag, v in zip(block["lags"], block["values"])]
+    z = float(norm.isf((1.0 - confidence) / 2.0))
+    v = np.abs(np.array(values, dtype=np.float64))
+    u = np.array(upper, dtype=np.float64)
+    with np.errstate(invalid="ignore"):
+        out = np.where(v <= u, "inside", np.where(v <= options.FAR_OUTSIDE_SE * u / z, "marginal", "far"))
+    out = out.astype(object)
+    out[np.isnan(v) | np.isnan(u)] = None
+    return out.tolist()
 
 
 def _thin(y: np.ndarray, limit: int) -> np.ndarray:
@@ -52,26 +58,32 @@ def _thin(y: np.ndarray, limit: int) -> np.ndarray:
 
 
 def time_plot(values: np.ndarray, labels: list[str] | None) -> dict:
-    keep = _thin(values, MAX_TIME_POINTS)
-    y = values[keep]
+    if values.size <= MAX_TIME_POINTS:
+        keep, y = None, values
+        x = list(labels) if labels is not None else list(range(values.size))
+    else:
+        keep = _thin(values, MAX_TIME_POINTS)
+        y = values[keep]
+        x = [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist()
+    missing = np.isnan(y)
     return {
-        "x": [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist(),
+        "x": x,
         "x_kind": "time" if labels is not None else "index",
-        "values": [None if np.isnan(v) else v for v in y.tolist()],
+        "values": [None if m else v for v, m in zip(y.tolist(), missing.tolist())] if missing.any() else y.tolist(),
         "points": int(values.size),
-        "thinned": bool(keep.size < values.size),
+        "thinned": keep is not None,
         "vega_lite": None,
     }
 
 
-def correlogram(block: dict, confidence: float, seasonal_lags: set[int]) -> dict:
+def correlogram(block: dict, zone: list, seasonal: list[bool]) -> dict:
     return {
         "lags": block["lags"],
         "values": block["values"],
         "lower": block["lower"],
         "upper": block["upper"],
-        "zone": zones(block),
-        "seasonal": [lag in seasonal_lags for lag in block["lags"]],
+        "zone": zone,
+        "seasonal": seasonal,
         "vega_lite": None,
     }
 
@@ -87,15 +99,25 @@ def periodogram(block: dict | None) -> dict:
             "vega_lite": None}
 
 
+def seasonal_flags(max_lag: int, period: int | None) -> list[bool]:
+    if not period:
+        return [False] * max_lag
+    return [lag % period == 0 for lag in range(1, max_lag + 1)]
+
+
+def block_zones(block: dict) -> list:
+    """Zones read off a correlogram block's ``outside`` and ``far`` lags (the report's own classification)."""
+    outside, far = set(block["outside"]), set(block["far"])
+    return [None if v is None else "far" if lag in far else "marginal" if lag in outside else "inside"
+            for lag, v in zip(block["lags"], block["values"])]
+
+
 def chart_data(values: np.ndarray, labels: list[str] | None, report: dict) -> dict:
     """The ``charts`` block for one report (its numeric keys must be filled)."""
-    period = report["period"]
-    seasonal = set()
-    if period:
-        seasonal = {period * j for j in range(1, report["max_lag"] // period + 1)}
+    seasonal = seasonal_flags(report["max_lag"], report["period"])
     return {
         "time_plot": time_plot(values, labels),
-        "correlogram": correlogram(report["acf"], report["confidence"], seasonal),
-        "pacf": correlogram(report["pacf"], report["confidence"], seasonal),
+        "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),
+        "pacf": correlogram(report["pacf"], block_zones(report["pacf"]), seasonal),
         "periodogram": periodogram(report.get("periodogram")),
     }
