@@ -13,6 +13,7 @@ import numpy as np
 from . import metrics, options
 from .engine.analysis import analyse
 from .interpretation import interpret
+from .problems import invalid
 from .report import build_report
 from .series import PreparedSeries, resolve_max_lag
 
@@ -31,6 +32,9 @@ class Plan:
 def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
     """Resolve the defaults that depend on the data (max_lag, portmanteau lags)."""
     n = series.n
+    if opts["model_df"] >= n:  # also keeps absurd integers (beyond 64 bits) out of the arithmetic
+        raise invalid("/model_df", f"model_df (parameters of the fitted model) must be less than the number of "
+                                   f"usable values ({n}), got {opts['model_df']}.")
     max_lag = resolve_max_lag(opts.get("max_lag"), n, series.period, max_lag_limit)
     lags = options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])
     return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags))

@@ -122,7 +122,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     n = values.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if np.ptp(values) == 0:
+    if values.min() == values.max():  # not np.ptp: max - min overflows for values near +-1.8e308
         raise invalid("/values", "The series is constant; autocorrelation is undefined when there is no variation.")
     if period is not None and period >= n:
         if source == "request":
