@@ -4,11 +4,12 @@ from __future__ import annotations
 import math
 
 import pytest
-from marshmallow import validate
+from marshmallow import missing, validate
 from openapi_spec_validator import validate as validate_spec
 
 from lagsight import options
-from lagsight.schema import DiagnosticsRequest, StrictFloat, StrictInteger, NumberArray
+from lagsight.schema import (BATCH_OVERRIDES, BatchRequest, BatchSeries, DiagnosticsRequest, NumberArray, SeriesId,
+                             StrictFloat, StrictInteger)
 
 from .spec_tools import assert_valid, spec
 
@@ -31,7 +32,9 @@ def _range(field):
     return None
 
 
-@pytest.mark.parametrize("schema_cls,component", [(DiagnosticsRequest, "DiagnosticsRequest")])
+@pytest.mark.parametrize("schema_cls,component", [
+    (DiagnosticsRequest, "DiagnosticsRequest"), (BatchRequest, "BatchRequest"), (BatchSeries, "BatchSeries"),
+])
 def test_request_schema_agrees_with_spec(schema_cls, component):
     """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""
     doc = spec()["components"]["schemas"][component]
@@ -43,7 +46,9 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
         prop = doc["properties"][name]
         types = prop["type"] if isinstance(prop["type"], list) else [prop["type"]]
         assert ("null" in types) == bool(field.allow_none), name
-        if not field.required and field.load_default is not None:
+        if not field.required and field.load_default is missing:  # absent stays absent (batch overrides)
+            assert "default" not in prop, name
+        elif not field.required and field.load_default is not None:
             assert prop["default"] == field.load_default, name
         elif not field.required:
             assert prop.get("default", None) is None, name
@@ -51,6 +56,8 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
             assert "integer" in types, name
         if isinstance(field, StrictFloat):
             assert "number" in types, name
+        if isinstance(field, SeriesId):
+            assert set(types) == {"string", "integer"} and prop["maxLength"] == options.MAX_ID_LENGTH, name
         if isinstance(field, NumberArray):
             assert prop["type"] == "array" and set(prop["items"]["type"]) == {"number", "null"}
         rng = _range(field)
@@ -70,6 +77,26 @@ def test_defaults_read_the_same_in_options_schema_and_methods(client):
     assert req["model_df"]["default"] == options.DEFAULT_MODEL_DF == methods["options"]["model_df"]["default"]
     assert req["period"]["minimum"] == options.MIN_PERIOD == methods["options"]["period"]["minimum"]
     assert "10 log10 n" in req["max_lag"]["description"] and "10 log10 n" in methods["options"]["max_lag"]["default"]
+
+
+def test_batch_options_read_the_same_as_the_single_route_and_methods(client):
+    single = spec()["components"]["schemas"]["DiagnosticsRequest"]["properties"]
+    batch = spec()["components"]["schemas"]["BatchRequest"]["properties"]
+    item = spec()["components"]["schemas"]["BatchSeries"]["properties"]
+    bounds = ("type", "minimum", "exclusiveMinimum", "exclusiveMaximum")
+    for key in BATCH_OVERRIDES:
+        assert {k: batch[key].get(k) for k in (*bounds, "default")} == {k: single[key].get(k) for k in (*bounds, "default")}
+        assert {k: item[key].get(k) for k in bounds} == {k: single[key].get(k) for k in bounds}
+    methods = client.get("/v1/methods").get_json()
+    assert methods["batch"]["per_series_overrides"] == list(BATCH_OVERRIDES)
+    assert methods["limits"]["max_series"] == options.DEFAULT_LIMITS["max_series"]
+    assert methods["limits"]["max_batch_points"] == options.DEFAULT_LIMITS["max_batch_points"]
+
+
+def test_batch_report_has_the_report_fields_and_id():
+    schemas = spec()["components"]["schemas"]
+    assert schemas["Report"]["allOf"] == [{"$ref": "#/components/schemas/ReportFields"}]
+    assert {"$ref": "#/components/schemas/ReportFields"} in schemas["BatchReport"]["allOf"]
 
 
 def test_problem_kinds_are_documented():

@@ -22,9 +22,10 @@ def create_app(config: dict | None = None) -> Flask:
     observability.init_app(app)  # first: the request id and clock start before anything can fail
     security.init_app(app)
     errors.init_app(app)
-    from .views import diagnostics, meta, operations
+    from .views import batch, diagnostics, meta, operations
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(operations.bp)
     app.register_blueprint(diagnostics.bp)
+    app.register_blueprint(batch.bp)
     return app

@@ -76,7 +76,9 @@ SETTINGS: dict[str, Setting] = {
     "MAX_LAG": Setting("LAGSIGHT_MAX_LAG", options.DEFAULT_LIMITS["max_lag"], positive_int,
                        "Highest lag a request may ask for (422 beyond)."),
     "MAX_SERIES": Setting("LAGSIGHT_MAX_SERIES", options.DEFAULT_LIMITS["max_series"], positive_int,
-                          "Most series in one batch request (422 beyond)."),
+                          "Most series in one batch request (413 beyond, before any validation)."),
+    "MAX_BATCH_POINTS": Setting("LAGSIGHT_MAX_BATCH_POINTS", options.DEFAULT_LIMITS["max_batch_points"], positive_int,
+                                "Most values in one batch request, all series together (413 beyond, before any validation)."),
     "MAX_REPLICATES": Setting("LAGSIGHT_MAX_REPLICATES", options.DEFAULT_LIMITS["max_replicates"], positive_int,
                               "Most Monte Carlo replicates a request may ask for (422 beyond)."),
     # browsers and security

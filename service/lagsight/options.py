@@ -11,13 +11,15 @@ DEFAULT_CONFIDENCE = 0.95
 DEFAULT_MODEL_DF = 0
 MIN_POINTS = 3  # the smallest series with a defined lag-1 autocorrelation (NIST NumAcc1 has 3)
 MIN_PERIOD = 2
+MAX_ID_LENGTH = 200  # characters of a batch series id
 
 # Limits that the deployment may lower or raise (see config.py); these are the defaults.
 DEFAULT_LIMITS = {
     "max_points": 2_000_000,  # usable points in one series
     "max_lag": 2_000,  # highest lag a request may ask for
     "max_body_bytes": 64 * 1024 * 1024,  # request body size
-    "max_series": 1_000,  # series in one batch request
+    "max_series": 20_000,  # series in one batch request
+    "max_batch_points": 5_000_000,  # values in one batch request, all series together
     "max_replicates": 10_000,  # Monte Carlo replicates one request may ask for
 }
 

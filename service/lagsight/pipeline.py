@@ -2,10 +2,17 @@
 
 Series that share a length and options are stacked and analysed together as
 one 2-D array; a single request is a batch of one, so both paths run the same code.
+Large groups are cut into blocks of at most ``BLOCK_POINTS`` values, which bounds
+the engine's working memory and lets a streaming response send results while
+later blocks compute. Each row's numbers do not depend on the other rows of its
+block, so the blocking changes no result.
 """
 from __future__ import annotations
 
+import gc
 from collections import defaultdict
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -14,8 +21,11 @@ from . import metrics, options
 from .engine.analysis import analyse
 from .interpretation import interpret
 from .problems import invalid
-from .report import build_report
+from .report import build_reports
 from .series import PreparedSeries, resolve_max_lag
+
+#: Values per engine block (2**18 float64 = 2 MiB per copy of the data).
+BLOCK_POINTS = 1 << 18
 
 
 @dataclass(frozen=True)
@@ -40,16 +50,51 @@ def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
     return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags))
 
 
-def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
-    """Reports for prepared series, in the order given."""
+def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
+    """Group item indices by plan, in order of first appearance, cut into blocks of ``BLOCK_POINTS``."""
     groups: dict[Plan, list[int]] = defaultdict(list)
     for i, (_, plan) in enumerate(items):
         groups[plan].append(i)
-    reports: list[dict | None] = [None] * len(items)
+    out = []
     for plan, members in groups.items():
+        rows = max(1, BLOCK_POINTS // plan.n)
+        out.extend((plan, members[start:start + rows]) for start in range(0, len(members), rows))
+    return out
+
+
+@contextmanager
+def gc_paused():
+    """Pause the cyclic garbage collector while building many small, acyclic dicts and lists.
+
+    Reports hold no reference cycles, so reference counting frees them all the same;
+    without the pause the collector's repeated full scans cost about twice the
+    building itself on a block of thousands of reports (see BENCHMARKS.md).
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[int, dict]]]:
+    """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
+    for plan, members in blocks(items):
         x = np.stack([items[i][0].values for i in members])
         result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags))
-        for row, i in enumerate(members):
-            reports[i] = interpret(build_report(items[i][0], result, row))
-    metrics.record_analysed(len(items), sum(series.n for series, _ in items))
+        metrics.record_analysed(len(members), plan.n * len(members))
+        with gc_paused():
+            reports = build_reports([items[i][0] for i in members], result)
+            done = [(i, interpret(report)) for i, report in zip(members, reports)]
+        yield done
+
+
+def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
+    """Reports for prepared series, in the order given."""
+    reports: list[dict | None] = [None] * len(items)
+    for block in run_blocks(items):
+        for i, report in block:
+            reports[i] = report
     return reports

@@ -2,8 +2,15 @@
 
 Floats that are not defined are ``None`` with a reason beside them, never NaN.
 Sentences, the verdict and advice are added by :mod:`lagsight.interpretation`.
+
+Reports are built a group at a time: each array of the group analysis is turned
+into Python lists once (``ndarray.tolist`` runs at C speed), then every row's
+report takes its slices. Building row by row from NumPy scalars cost about ten
+times more on batches of thousands of short series (see BENCHMARKS.md).
 """
 from __future__ import annotations
+
+import math
 
 import numpy as np
 
@@ -11,37 +18,56 @@ from .engine.analysis import GroupAnalysis
 from .series import PreparedSeries
 
 
-def _floats(a: np.ndarray) -> list:
-    return [float(v) if np.isfinite(v) else None for v in a.tolist()]
+def _rows(a: np.ndarray) -> list[list]:
+    """Rows of a 2-D float array as lists, with None where a value is not finite."""
+    rows = a.tolist()
+    if np.isfinite(a).all():
+        return rows
+    return [[v if math.isfinite(v) else None for v in row] for row in rows]
 
 
-def _correlogram(lags: list[int], values, lower, upper) -> dict:
-    outside = (values < lower) | (values > upper)
-    return {
-        "lags": lags,
-        "values": _floats(values),
-        "lower": _floats(lower),
-        "upper": _floats(upper),
-        "outside": [lag for lag, out in zip(lags, outside.tolist()) if out],
-    }
+class _Correlograms:
+    """One correlogram (ACF or PACF) of every row of a group, as lists."""
+
+    def __init__(self, lags: list[int], values: np.ndarray, lower: np.ndarray, upper: np.ndarray):
+        self.lags = lags
+        self.values = _rows(values)
+        self.lower = _rows(lower)
+        self.upper = _rows(upper)
+        mask = ((values < lower) | (values > upper)).tolist()
+        self.outside = [[lag for lag, out in zip(lags, row) if out] for row in mask]
+
+    def block(self, row: int) -> dict:
+        return {
+            "lags": list(self.lags),
+            "values": self.values[row],
+            "lower": self.lower[row],
+            "upper": self.upper[row],
+            "outside": self.outside[row],
+        }
 
 
-def _tests(analysis: GroupAnalysis, row: int) -> list[dict]:
+def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
+    """The portmanteau entries of every row: a list of test dicts per row."""
     alpha = 1.0 - analysis.confidence
-    out = []
+    m = analysis.acf.shape[0]
+    out: list[list[dict]] = [[] for _ in range(m)]
     for t in analysis.tests:
+        stats = t.statistic.tolist()
+        pvals = t.p_value.tolist()
         for j, lag in enumerate(t.lags):
             df = int(t.df[j])
-            stat = float(t.statistic[row, j])
             if df > 0:
-                p = float(t.p_value[row, j])
-                out.append({"name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                            "reject": bool(p < alpha), "note": None})
+                for row in range(m):
+                    p = pvals[row][j]
+                    out[row].append({"name": t.name, "lag": lag, "df": df, "statistic": stats[row][j],
+                                     "p_value": p, "reject": p < alpha, "note": None})
             else:
-                out.append({"name": t.name, "lag": lag, "df": None, "statistic": stat, "p_value": None,
-                            "reject": None,
-                            "note": f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
-                                    f"{df} degrees of freedom; test at a lag above {analysis.model_df}."})
+                note = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
+                        f"{df} degrees of freedom; test at a lag above {analysis.model_df}.")
+                for row in range(m):
+                    out[row].append({"name": t.name, "lag": lag, "df": None, "statistic": stats[row][j],
+                                     "p_value": None, "reject": None, "note": note})
     return out
 
 
@@ -57,29 +83,51 @@ def _seasonal(series: PreparedSeries, acf_block: dict) -> dict:
     return {"period": period, "period_source": series.period_source, "lags": entries, "note": note}
 
 
-def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
-    """Assemble the numeric part of the report for row ``row`` of a group analysis."""
+def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
+    """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i."""
     lags = list(range(1, analysis.max_lag + 1))
-    acf_block = _correlogram(lags, analysis.acf[row], analysis.acf_lower[row], analysis.acf_upper[row])
-    pacf_block = _correlogram(lags, analysis.pacf[row], analysis.pacf_lower[row], analysis.pacf_upper[row])
-    return {
-        "name": series.name,
-        "n": series.n,
-        "n_input": series.n_input,
-        "n_missing": series.n_missing,
-        "max_lag": analysis.max_lag,
-        "confidence": analysis.confidence,
-        "model_df": analysis.model_df,
-        "period": series.period,
-        "frequency": series.frequency,
-        "band": {"kind": "white_noise", "half_width": acf_block["upper"][0]},
-        "acf": acf_block,
-        "pacf": pacf_block,
-        "tests": _tests(analysis, row),
-        "seasonal": _seasonal(series, acf_block),
-        "verdict": None,
-        "interpretation": [],
-        "advice": [],
-        "cautions": [],
-        "warnings": list(series.warnings),
-    }
+    acf = _Correlograms(lags, analysis.acf, analysis.acf_lower, analysis.acf_upper)
+    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_lower, analysis.pacf_upper)
+    tests = _test_rows(analysis)
+    reports = []
+    for row, s in enumerate(series):
+        acf_block = acf.block(row)
+        reports.append({
+            "name": s.name,
+            "n": s.n,
+            "n_input": s.n_input,
+            "n_missing": s.n_missing,
+            "max_lag": analysis.max_lag,
+            "confidence": analysis.confidence,
+            "model_df": analysis.model_df,
+            "period": s.period,
+            "frequency": s.frequency,
+            "band": {"kind": "white_noise", "half_width": acf_block["upper"][0]},
+            "acf": acf_block,
+            "pacf": pacf.block(row),
+            "tests": tests[row],
+            "seasonal": _seasonal(s, acf_block),
+            "verdict": None,
+            "interpretation": [],
+            "advice": [],
+            "cautions": [],
+            "warnings": list(s.warnings),
+        })
+    return reports
+
+
+def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
+    """The numeric part of the report for row ``row`` of a group analysis."""
+    return build_reports([series], _one_row(analysis, row))[0]
+
+
+def _one_row(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
+    from dataclasses import replace
+
+    pick = slice(row, row + 1)
+    return replace(
+        analysis,
+        acf=analysis.acf[pick], acf_lower=analysis.acf_lower[pick], acf_upper=analysis.acf_upper[pick],
+        pacf=analysis.pacf[pick], pacf_lower=analysis.pacf_lower[pick], pacf_upper=analysis.pacf_upper[pick],
+        tests=[replace(t, statistic=t.statistic[pick], p_value=t.p_value[pick]) for t in analysis.tests],
+    )

@@ -130,3 +130,45 @@ class AnalysisOptions(Schema):
 
 class DiagnosticsRequest(SeriesFields, AnalysisOptions):
     """Body of POST /v1/diagnostics."""
+
+
+class SeriesId(fields.Field):
+    """A caller's key for one series of a batch: a JSON string (1 to 200 characters) or integer."""
+
+    default_error_messages = {"type": "Must be a string of 1 to 200 characters or an integer."}
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if isinstance(value, str) and 1 <= len(value) <= options.MAX_ID_LENGTH:
+            return value
+        if isinstance(value, int) and not isinstance(value, bool):
+            return value
+        raise self.make_error("type")
+
+
+class BatchSeries(SeriesFields):
+    """One item of ``series`` in POST /v1/diagnostics/batch.
+
+    ``max_lag``, ``confidence`` and ``model_df`` here override the batch's shared
+    values for this series only; absent, the shared value applies (``max_lag: null``
+    asks for the default rule for this series).
+    """
+
+    id = SeriesId(required=True)
+    period = StrictInteger(allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
+    max_lag = StrictInteger(allow_none=True, validate=validate.Range(min=1))
+    confidence = StrictFloat(validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False))
+    model_df = StrictInteger(validate=validate.Range(min=0))
+
+
+class BatchRequest(AnalysisOptions):
+    """Body of POST /v1/diagnostics/batch: the series (checked one by one) and the shared options.
+
+    ``series`` is only checked to be a non-empty array here; each item is validated
+    on its own so that one bad series yields an error for that item alone.
+    """
+
+    series = fields.List(fields.Raw(allow_none=True), required=True, validate=validate.Length(min=1))
+    period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
+
+#: The options a series of a batch may override, and the shared field each falls back to.
+BATCH_OVERRIDES = ("period", "max_lag", "confidence", "model_df")

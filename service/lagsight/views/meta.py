@@ -6,6 +6,7 @@ from flask import Blueprint, current_app
 from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import __doc__ as DECISION_RULE
+from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
 
 bp = Blueprint("meta", __name__)
@@ -45,6 +46,12 @@ def methods():
         },
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
-                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"]},
+                   "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
+                   "max_batch_points": cfg["MAX_BATCH_POINTS"]},
+        "batch": {
+            "route": "/v1/diagnostics/batch",
+            "per_series_overrides": list(BATCH_OVERRIDES),
+            "media_types": ["application/json", "application/x-ndjson"],
+        },
         "decision_rule": " ".join(DECISION_RULE.split("---------------------------------------------------------")[1].split()),
     })

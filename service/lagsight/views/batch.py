@@ -1,0 +1,180 @@
+"""POST /v1/diagnostics/batch: many series in one request, one result per series.
+
+Each series is validated and prepared on its own: a bad one becomes an ``error``
+result (problem details with pointers under ``/series/<i>``) and the others go on.
+Series that share a plan are analysed together (see :mod:`lagsight.pipeline`).
+With ``Accept: application/x-ndjson`` the results are streamed, one JSON object
+per line, as each engine block finishes.
+"""
+from __future__ import annotations
+
+import logging
+
+from flask import Blueprint, Response, current_app, request, stream_with_context
+from marshmallow import ValidationError
+
+from ..payload import read_json_object
+from ..pipeline import Plan, plan_for, run_blocks
+from ..problems import FieldError, Problem, flatten_messages
+from ..schema import BATCH_OVERRIDES, BatchRequest, BatchSeries
+from ..serialisation import dumps, json_response
+from ..series import PreparedSeries, prepare
+from .diagnostics import load
+
+bp = Blueprint("batch", __name__)
+log = logging.getLogger("lagsight")
+
+JSON = "application/json"
+NDJSON = "application/x-ndjson"
+_REQUEST = BatchRequest()
+_SERIES = BatchSeries()
+
+
+def _negotiate() -> str:
+    """JSON unless the caller prefers NDJSON; 406 when it accepts neither."""
+    if not request.headers.get("Accept"):
+        return JSON
+    best = request.accept_mimetypes.best_match([JSON, NDJSON])
+    if best is None:
+        raise Problem("not-acceptable", f"This route answers {JSON} or {NDJSON} (streamed); "
+                                        f"the Accept header allows neither.")
+    return best
+
+
+def _check_size(body: dict, cfg) -> None:
+    """413 before any validation work when the batch exceeds the series or point limits."""
+    series = body.get("series")
+    if not isinstance(series, list):
+        return
+    if len(series) > cfg["MAX_SERIES"]:
+        detail = f"Too many series: {len(series)} > this deployment's limit of {cfg['MAX_SERIES']} per batch."
+        raise Problem("payload-too-large", detail, [FieldError("/series", detail)])
+    total = sum(len(s["values"]) for s in series if isinstance(s, dict) and isinstance(s.get("values"), list))
+    if total > cfg["MAX_BATCH_POINTS"]:
+        detail = f"Too many values: {total} in all > this deployment's limit of {cfg['MAX_BATCH_POINTS']} per batch."
+        raise Problem("payload-too-large", detail, [FieldError("/series", detail)])
+
+
+def _check_shared(shared: dict, cfg) -> None:
+    if shared["max_lag"] is not None and shared["max_lag"] > cfg["MAX_LAG"]:
+        raise Problem("invalid-content", "1 field(s) are invalid; see errors.", [FieldError(
+            "/max_lag", f"max_lag must be at most {cfg['MAX_LAG']} (this deployment's limit), got {shared['max_lag']}.")])
+
+
+def _item_id(item):
+    value = item.get("id") if isinstance(item, dict) else None
+    return value if isinstance(value, (str, int)) and not isinstance(value, bool) else None
+
+
+def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[PreparedSeries, Plan]:
+    """Validate, clean and plan one series; raise a Problem whose pointers start at the body's root
+    (under ``/series/<index>``, or at the shared option when a shared value does not fit this series)."""
+    prefix = f"/series/{index}"
+    if not isinstance(item, dict):
+        raise Problem("invalid-content", "The series is not a JSON object.",
+                      [FieldError(prefix, "Must be an object with id and values.")])
+    try:
+        data = _SERIES.load(item)
+    except ValidationError as err:
+        errors = [e.under(prefix) for e in flatten_messages(err.messages)]
+        raise Problem("invalid-content", f"{len(errors)} field(s) of this series are invalid; see errors.", errors) from None
+    if data["id"] in seen:
+        detail = f"The id {data['id']!r} is already used by /series/{seen[data['id']]}; ids must be unique."
+        raise Problem("invalid-content", detail, [FieldError(prefix + "/id", detail)])
+    seen[data["id"]] = index
+    own = {key for key in BATCH_OVERRIDES if key in data}
+    opts = {key: data[key] if key in own else shared[key] for key in BATCH_OVERRIDES}
+    data["period"] = opts["period"]
+    try:
+        series = prepare(data, cfg["MAX_POINTS"])
+        plan = plan_for(series, opts, cfg["MAX_LAG"])
+    except Problem as problem:
+        problem.errors = [
+            e if e.pointer in _SHARED_POINTERS and e.pointer[1:] not in own else e.under(prefix)
+            for e in problem.errors
+        ]
+        raise
+    return series, plan
+
+
+#: Pointers that series preparation may raise about an option the batch shares.
+_SHARED_POINTERS = {"/" + key for key in BATCH_OVERRIDES}
+
+
+def _error_result(item_id, problem: Problem) -> dict:
+    return {"id": item_id, "error": problem.as_dict(request.path)}
+
+
+class _Summary:
+    def __init__(self, total: int):
+        self.counts = {"series": total, "white_noise": 0, "not_white_noise": 0, "undetermined": 0, "errors": 0}
+
+    def add(self, result: dict) -> None:
+        if "error" in result:
+            self.counts["errors"] += 1
+            return
+        verdict = result["verdict"]["white_noise"]
+        key = "undetermined" if verdict is None else ("white_noise" if verdict else "not_white_noise")
+        self.counts[key] += 1
+
+
+@bp.post("/v1/diagnostics/batch")
+def diagnose_batch():
+    """Diagnose every series of a batch; one bad series never sinks the others."""
+    media = _negotiate()
+    body = read_json_object(request)
+    cfg = current_app.config
+    _check_size(body, cfg)
+    shared = load(_REQUEST, body)
+    _check_shared(shared, cfg)
+    raw = shared.pop("series")
+    errors: list[tuple[int, dict]] = []
+    prepared: list[tuple[PreparedSeries, Plan]] = []
+    where: list[tuple[int, object]] = []  # prepared position -> (request index, id)
+    seen: dict = {}
+    for i, item in enumerate(raw):
+        try:
+            prepared.append(_prepare_item(item, shared, cfg, seen, i))
+            where.append((i, _item_id(item)))
+        except Problem as problem:
+            errors.append((i, _error_result(_item_id(item), problem)))
+    summary = _Summary(len(raw))
+    if media == NDJSON:
+        return Response(stream_with_context(_stream(errors, prepared, where, summary)), mimetype=NDJSON)
+    results: list = [None] * len(raw)
+    for i, result in errors:
+        results[i] = result
+    for block in run_blocks(prepared):
+        for j, report in block:
+            i, item_id = where[j]
+            results[i] = {"id": item_id, **report}
+    for result in results:
+        summary.add(result)
+    return json_response({"results": results, "summary": summary.counts})
+
+
+def _line(obj) -> bytes:
+    return dumps(obj) + b"\n"
+
+
+def _stream(errors, prepared, where, summary: _Summary):
+    """NDJSON lines: request errors first, then each block's results as it finishes, then the summary."""
+    try:
+        if errors:
+            for _, result in errors:
+                summary.add(result)
+            yield b"".join(_line({"kind": "result", "index": i, **result}) for i, result in errors)
+        for block in run_blocks(prepared):
+            lines = []
+            for j, report in block:
+                i, item_id = where[j]
+                result = {"id": item_id, **report}
+                summary.add(result)
+                lines.append(_line({"kind": "result", "index": i, **result}))
+            yield b"".join(lines)
+        yield _line({"kind": "summary", "summary": summary.counts})
+    except Exception:  # the status line is sent: end the stream with an error line instead
+        log.exception("unhandled error while streaming %s", request.path)
+        problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "
+                                            "Results already sent are valid; the others were not computed.")
+        yield _line({"kind": "error", "error": problem.as_dict(request.path)})

@@ -1,0 +1,302 @@
+"""POST /v1/diagnostics/batch: same reports as the single route, per-series errors, limits, streaming."""
+from __future__ import annotations
+
+import orjson
+import numpy as np
+import pytest
+
+from lagsight import create_app, pipeline
+
+from .spec_tools import assert_valid
+
+URL = "/v1/diagnostics/batch"
+SINGLE = "/v1/diagnostics"
+NDJSON = "application/x-ndjson"
+SERIES_KEYS = ("values", "timestamps", "period", "name")
+OPTION_KEYS = ("period", "max_lag", "confidence", "model_df")
+
+
+def _ar1(n: int, phi: float, seed: int) -> list[float]:
+    """A simulated AR(1) path (demo-style invented data, not a reference)."""
+    e = np.random.default_rng(seed).standard_normal(n)
+    x = np.empty(n)
+    x[0] = e[0]
+    for t in range(1, n):
+        x[t] = phi * x[t - 1] + e[t]
+    return x.tolist()
+
+
+def _noise(n: int, seed: int, scale: float = 1.0, shift: float = 0.0) -> list[float]:
+    return (shift + scale * np.random.default_rng(seed).standard_normal(n)).tolist()
+
+
+def _mixed_series() -> list[dict]:
+    """Lengths from 3 to 2,500 (direct and FFT autocovariance), groups of equal plans, overrides."""
+    monthly = [f"{2015 + i // 12}-{i % 12 + 1:02d}-01" for i in range(60)]
+    out = [
+        {"id": "numacc1", "values": [10000001, 10000003, 10000002]},  # NIST StRD NumAcc1 values
+        {"id": "shop-7", "values": _noise(120, 1), "period": 12, "name": "shop 7 weekly residuals"},
+        {"id": 8, "values": _ar1(120, 0.6, 2), "period": 12},
+        {"id": "sensor-long", "values": _noise(2500, 3, 1e-3, 1e6), "max_lag": 60},  # FFT path
+        {"id": "sensor-long-2", "values": _ar1(2500, 0.3, 4), "max_lag": 60},
+        {"id": "monthly", "values": _noise(60, 5), "timestamps": monthly},
+        {"id": "resid-arma", "values": _noise(80, 6), "model_df": 3, "confidence": 0.9},
+        {"id": "few-df", "values": _noise(30, 7), "max_lag": 4, "model_df": 4},
+        {"id": "default-lag", "values": _noise(200, 8), "max_lag": None},
+    ]
+    out += [{"id": f"same-{k}", "values": _noise(120, 100 + k), "period": 12} for k in range(40)]
+    return out
+
+
+def _single_body(item: dict, shared: dict) -> dict:
+    body = {k: item[k] for k in SERIES_KEYS if k in item}
+    for key in OPTION_KEYS:
+        value = item[key] if key in item else shared.get(key)
+        if value is not None:
+            body[key] = value
+    return body
+
+
+def _report_bytes(result: dict) -> bytes:
+    return orjson.dumps({k: v for k, v in result.items() if k not in ("id", "kind", "index")})
+
+
+@pytest.fixture
+def small_blocks(monkeypatch):
+    """Cut the engine's work into small blocks, so that equal plans span several blocks."""
+    monkeypatch.setattr(pipeline, "BLOCK_POINTS", 1000)
+
+
+@pytest.mark.parametrize("shared", [{}, {"max_lag": 24, "confidence": 0.99, "model_df": 1, "period": 6}])
+@pytest.mark.parametrize("blocks", ["default", "small"])
+def test_batch_reports_are_byte_identical_to_single_reports(client, request, shared, blocks):
+    if blocks == "small":
+        request.getfixturevalue("small_blocks")
+    series = _mixed_series()
+    if shared.get("max_lag"):  # a shared max_lag of 24 does not fit the 3- and 30-point series
+        series = [s for s in series if len(s["values"]) > 24 or "max_lag" in s]
+    r = client.post(URL, json={"series": series, **shared})
+    assert r.status_code == 200, r.get_json()
+    body = r.get_json()
+    assert_valid(body, "BatchResponse")
+    assert [res["id"] for res in body["results"]] == [s["id"] for s in series]
+    for item, result in zip(series, body["results"]):
+        assert "error" not in result, result
+        single = client.post(SINGLE, json=_single_body(item, shared))
+        assert single.status_code == 200, single.get_json()
+        assert _report_bytes(result) == single.data, item["id"]
+
+
+def test_results_do_not_depend_on_the_rest_of_the_batch(client):
+    series = _mixed_series()
+    whole = client.post(URL, json={"series": series}).get_json()["results"]
+    reordered = series[::-1]
+    again = client.post(URL, json={"series": reordered}).get_json()["results"][::-1]
+    alone = [client.post(URL, json={"series": [s]}).get_json()["results"][0] for s in series[:5]]
+    assert [_report_bytes(r) for r in whole] == [_report_bytes(r) for r in again]
+    assert [_report_bytes(r) for r in whole[:5]] == [_report_bytes(r) for r in alone]
+
+
+GOOD = [
+    {"id": "a", "values": _noise(50, 11), "period": 7},
+    {"id": "b", "values": _ar1(50, 0.7, 12)},
+    {"id": "c", "values": _noise(64, 13)},
+]
+
+BAD_ITEMS = [
+    ({"id": "x", "values": [1, 2, "3", 4]}, "/values/2", "number"),
+    ({"id": "x", "values": [1, 2, True, 4]}, "/values/2", "boolean"),
+    ({"id": "x", "values": [1, 2]}, "/values", "at least 3"),
+    ({"id": "x", "values": [5, 5, 5, 5, 5]}, "/values", "constant"),
+    ({"id": "x", "values": [1, None, 3, 4]}, "/values/1", "missing"),
+    ({"id": "x", "values": "1,2,3"}, "/values", "array"),
+    ({"id": "x", "values": [1, 2, 3], "timestamps": ["2024-01-01", "later", "2024-01-03"]}, "/timestamps/1", "ISO 8601"),
+    ({"id": "x", "values": [1, 2, 3], "timestamps": ["2024-01-02", "2024-01-01", "2024-01-03"]}, "/timestamps/1", "earlier"),
+    ({"id": "x", "values": [1, 2, 3], "timestamps": ["2024-01-01"]}, "/timestamps", "same length"),
+    ({"id": "x", "values": [1, 2, 3, 4], "max_lag": 4}, "/max_lag", "less than"),
+    ({"id": "x", "values": [1, 2, 3, 5], "period": 4}, "/period", "less than"),
+    ({"id": "x", "values": [1, 2, 3], "confidence": 1.5}, "/confidence", ""),
+    ({"id": "x", "values": [1, 2, 3], "model_df": -1}, "/model_df", ""),
+    ({"id": "x", "values": [1, 2, 3], "colour": "red"}, "/colour", "unknown"),
+    ({"values": [1, 2, 3]}, "/id", "required"),
+    ({"id": "", "values": [1, 2, 3]}, "/id", "string"),
+    ({"id": True, "values": [1, 2, 3]}, "/id", "string"),
+    ({"id": "a", "values": [1, 2, 3]}, "/id", "unique"),
+    ([1, 2, 3], "", "object"),
+    (None, "", "object"),
+]
+
+
+@pytest.mark.parametrize("bad,pointer,phrase", BAD_ITEMS)
+def test_one_bad_series_leaves_the_others_intact(client, bad, pointer, phrase):
+    reference = client.post(URL, json={"series": GOOD}).get_json()["results"]
+    r = client.post(URL, json={"series": [GOOD[0], bad, *GOOD[1:]]})
+    assert r.status_code == 200
+    body = r.get_json()
+    assert_valid(body, "BatchResponse")
+    results = body["results"]
+    assert [_report_bytes(x) for x in results[:1] + results[2:]] == [_report_bytes(x) for x in reference]
+    error = results[1]
+    assert set(error) == {"id", "error"}
+    assert error["id"] == (bad.get("id") if isinstance(bad, dict) and isinstance(bad.get("id"), str) else None)
+    problem = error["error"]
+    assert problem["status"] == 422 and problem["type"] == "urn:lagsight:problem:invalid-content"
+    assert problem["instance"] == URL
+    found = {e["pointer"]: e["detail"] for e in problem["errors"]}
+    assert "/series/1" + pointer in found, found
+    assert phrase.lower() in found["/series/1" + pointer].lower()
+    assert body["summary"]["errors"] == 1 and body["summary"]["series"] == 4
+
+
+@pytest.mark.parametrize("raw,pointer", [
+    (b'{"series": [{"id": "a", "values": [1, 2, 4, 3]}, {"id": "b", "values": [1, NaN, 3]}]}', "/series/1/values/1"),
+    (b'{"series": [{"id": "a", "values": [1, 2, 4, 3]}, {"id": "b", "values": [1, 2, 1e400]}]}', "/series/1/values/2"),
+])
+def test_non_finite_values_fail_only_their_series(client, raw, pointer):
+    body = client.post(URL, data=raw, content_type="application/json").get_json()
+    assert "error" not in body["results"][0]
+    assert pointer in [e["pointer"] for e in body["results"][1]["error"]["errors"]]
+
+
+def test_a_shared_option_that_does_not_fit_one_series_points_at_the_shared_option(client):
+    body = client.post(URL, json={"series": [{"id": "long", "values": _noise(40, 1)},
+                                             {"id": "short", "values": _noise(8, 2)}], "max_lag": 10}).get_json()
+    assert body["results"][0]["max_lag"] == 10
+    assert [e["pointer"] for e in body["results"][1]["error"]["errors"]] == ["/max_lag"]
+
+
+def test_per_series_overrides_and_shared_defaults(client):
+    series = [{"id": "shared", "values": _noise(100, 1)},
+              {"id": "own", "values": _noise(100, 2), "period": 4, "max_lag": 12, "confidence": 0.9, "model_df": 2},
+              {"id": "auto-lag", "values": _noise(100, 3), "max_lag": None}]
+    results = client.post(URL, json={"series": series, "period": 7, "max_lag": 15, "confidence": 0.99,
+                                     "model_df": 1}).get_json()["results"]
+    assert [(r["period"], r["max_lag"], r["confidence"], r["model_df"]) for r in results] == [
+        (7, 15, 0.99, 1), (4, 12, 0.9, 2), (7, 20, 0.99, 1)]  # auto: max(floor(10 log10 100), 2 * 7) = 20
+
+
+def test_summary_counts_verdicts_and_errors(client):
+    series = [
+        {"id": "noise", "values": _noise(300, 21)},
+        {"id": "ar", "values": _ar1(300, 0.8, 22)},
+        {"id": "ar-2", "values": _ar1(300, -0.7, 23)},
+        {"id": "no-df", "values": _noise(30, 24), "max_lag": 3, "model_df": 3},
+        {"id": "flat", "values": [2, 2, 2]},
+    ]
+    body = client.post(URL, json={"series": series}).get_json()
+    verdicts = [r["verdict"]["white_noise"] if "verdict" in r else "error" for r in body["results"]]
+    assert verdicts[1:] == [False, False, None, "error"]
+    expected = {"series": 5, "white_noise": verdicts.count(True), "not_white_noise": 2, "undetermined": 1, "errors": 1}
+    assert body["summary"] == expected
+
+
+def _problem(r, status: int) -> dict:
+    assert r.status_code == status, r.get_data(as_text=True)[:300]
+    assert r.mimetype == "application/problem+json"
+    body = r.get_json()
+    assert_valid(body, "Problem")
+    return body
+
+
+@pytest.mark.parametrize("body,pointer", [
+    ({}, "/series"),
+    ({"series": []}, "/series"),
+    ({"series": {"id": "a"}}, "/series"),
+    ({"series": [{"id": "a", "values": [1, 2, 3]}], "confidence": 0}, "/confidence"),
+    ({"series": [{"id": "a", "values": [1, 2, 3]}], "model_df": "2"}, "/model_df"),
+    ({"series": [{"id": "a", "values": [1, 2, 3]}], "values": [1, 2, 3]}, "/values"),
+])
+def test_invalid_shared_fields_are_422_for_the_whole_batch(client, body, pointer):
+    problem = _problem(client.post(URL, json=body), 422)
+    assert pointer in [e["pointer"] for e in problem["errors"]]
+
+
+def test_limits_are_enforced_before_validation_and_reported_in_methods():
+    app = create_app({"TESTING": True, "MAX_SERIES": 3, "MAX_BATCH_POINTS": 20, "MAX_LAG": 5})
+    client = app.test_client()
+    limits = client.get("/v1/methods").get_json()["limits"]
+    assert (limits["max_series"], limits["max_batch_points"], limits["max_lag"]) == (3, 20, 5)
+    # Items that would fail validation still count: the limits are checked first.
+    too_many = [{"id": i, "values": "not checked yet"} for i in range(4)]
+    assert "4" in _problem(client.post(URL, json={"series": too_many}), 413)["detail"]
+    too_long = [{"id": i, "values": [0.5] * 7} for i in range(3)]
+    problem = _problem(client.post(URL, json={"series": too_long}), 413)
+    assert "21" in problem["detail"] and problem["errors"][0]["pointer"] == "/series"
+    ok = [{"id": i, "values": _noise(6, i)} for i in range(3)]
+    problem = _problem(client.post(URL, json={"series": ok, "max_lag": 6}), 422)
+    assert problem["errors"][0]["pointer"] == "/max_lag"
+    own = client.post(URL, json={"series": [*ok[:2], {"id": 9, "values": _noise(6, 9), "max_lag": 6}]}).get_json()
+    assert "error" in own["results"][2] and own["results"][2]["error"]["errors"][0]["pointer"] == "/series/2/max_lag"
+    assert own["results"][0]["max_lag"] == 5  # the default rule is capped at the deployment's limit
+
+
+def test_body_size_limit_is_413():
+    client = create_app({"TESTING": True, "MAX_BODY_BYTES": 500}).test_client()
+    _problem(client.post(URL, json={"series": [{"id": 1, "values": list(range(200))}]}), 413)
+
+
+@pytest.mark.parametrize("accept", ["text/csv", "application/xml"])
+def test_unacceptable_media_type_is_406(client, accept):
+    _problem(client.post(URL, json={"series": GOOD}, headers={"Accept": accept}), 406)
+
+
+@pytest.mark.parametrize("accept", [None, "*/*", "application/json", "application/*",
+                                    "application/x-ndjson;q=0.5, application/json"])
+def test_json_is_answered_unless_ndjson_is_preferred(client, accept):
+    headers = {"Accept": accept} if accept else {}
+    r = client.post(URL, json={"series": GOOD}, headers=headers)
+    assert r.status_code == 200 and r.mimetype == "application/json"
+
+
+def _lines(r) -> list[dict]:
+    assert r.status_code == 200 and r.mimetype == NDJSON
+    raw = r.get_data()
+    assert raw.endswith(b"\n")
+    lines = [orjson.loads(line) for line in raw.split(b"\n")[:-1]]
+    for line in lines:
+        assert_valid(line, "BatchStreamLine")
+    return lines
+
+
+def test_ndjson_stream_carries_the_same_results_and_a_final_summary(client, small_blocks):
+    series = [GOOD[0], {"id": "bad", "values": [1, 1, 1]}, *_mixed_series()[1:]]
+    plain = client.post(URL, json={"series": series}).get_json()
+    lines = _lines(client.post(URL, json={"series": series}, headers={"Accept": NDJSON}))
+    assert lines[-1] == {"kind": "summary", "summary": plain["summary"]}
+    results = lines[:-1]
+    assert all(line["kind"] == "result" for line in results)
+    assert results[0]["index"] == 1 and "error" in results[0]  # failed validation: sent first
+    assert sorted(line["index"] for line in results) == list(range(len(series)))
+    by_index = {line.pop("index"): line for line in results}
+    for i, expected in enumerate(plain["results"]):
+        got = by_index[i]
+        assert got.pop("kind") == "result"
+        assert orjson.dumps(got) == orjson.dumps(expected)
+
+
+def test_ndjson_is_sent_block_by_block(app, small_blocks):
+    series = [{"id": i, "values": _noise(200, i)} for i in range(30)]  # 6,000 values: 6 blocks of 1,000
+    r = app.test_client().post(URL, json={"series": series}, headers={"Accept": NDJSON}, buffered=False)
+    chunks = [c for c in r.response if c]
+    assert len(chunks) >= 6
+    assert all(chunk.endswith(b"\n") for chunk in chunks)
+    r.close()
+
+
+def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, small_blocks):
+    import lagsight.views.batch as view
+
+    real = view.run_blocks
+
+    def fail_after_first(items):
+        blocks = real(items)
+        yield next(blocks)
+        raise RuntimeError("secret internal detail")
+
+    monkeypatch.setattr(view, "run_blocks", fail_after_first)
+    series = [{"id": i, "values": _noise(200, i)} for i in range(20)]
+    r = app.test_client().post(URL, json={"series": series}, headers={"Accept": NDJSON})
+    lines = _lines(r)
+    assert lines[-1]["kind"] == "error" and lines[-1]["error"]["status"] == 500
+    assert 0 < len(lines) - 1 < 20 and "secret" not in r.get_data(as_text=True)
+    assert any("streaming" in rec.message for rec in caplog.records)
