@@ -39,7 +39,7 @@ def series(elements=moderate):
 
 def spread_ok(x: np.ndarray, extra: float = 0.0) -> bool:
     """Enough variation that rounding in x (or x + c) is small next to it."""
-    return np.ptp(x) > 1e-6 * (np.max(np.abs(x)) + abs(extra)) and np.ptp(x) > 1e-300
+    return np.ptp(x) > 1e-6 * (np.max(np.abs(x)) + abs(extra)) and np.ptp(x) > 1e-250
 
 
 def r_of(x: np.ndarray, max_lag: int | None = None) -> np.ndarray:
@@ -56,7 +56,7 @@ def test_acf_unchanged_by_a_shift(x, c):
 @SETTINGS
 @given(series(), st.floats(min_value=1e-50, max_value=1e50))
 def test_acf_unchanged_by_positive_scaling(x, a):
-    assume(spread_ok(x))
+    assume(spread_ok(x) and spread_ok(a * x))  # a tiny a can push a tiny x into underflow
     np.testing.assert_allclose(r_of(a * x), r_of(x), atol=1e-9)
 
 
