@@ -9,7 +9,7 @@ from openapi_spec_validator import validate as validate_spec
 
 from lagsight import options
 from lagsight.schema import (BATCH_OVERRIDES, BatchRequest, BatchSeries, DiagnosticsRequest, NumberArray, SeriesId,
-                             StrictFloat, StrictInteger)
+                             StrictFloat, StrictInteger, TransformFields)
 
 from .spec_tools import assert_valid, spec
 
@@ -32,8 +32,18 @@ def _range(field):
     return None
 
 
+def _types(prop: dict) -> list:
+    """JSON types a property allows, through oneOf alternatives."""
+    if "oneOf" in prop:
+        return [t for alt in prop["oneOf"] for t in _types(alt)]
+    if "$ref" in prop:
+        return ["object"]
+    return prop["type"] if isinstance(prop["type"], list) else [prop["type"]]
+
+
 @pytest.mark.parametrize("schema_cls,component", [
     (DiagnosticsRequest, "DiagnosticsRequest"), (BatchRequest, "BatchRequest"), (BatchSeries, "BatchSeries"),
+    (TransformFields, "Transform"),
 ])
 def test_request_schema_agrees_with_spec(schema_cls, component):
     """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""
@@ -44,7 +54,7 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
     assert doc.get("additionalProperties") is False  # unknown fields rejected, as the schema does
     for name, field in fields.items():
         prop = doc["properties"][name]
-        types = prop["type"] if isinstance(prop["type"], list) else [prop["type"]]
+        types = _types(prop)
         assert ("null" in types) == bool(field.allow_none), name
         if not field.required and field.load_default is missing:  # absent stays absent (batch overrides)
             assert "default" not in prop, name
@@ -56,6 +66,9 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
             assert "integer" in types, name
         if isinstance(field, StrictFloat):
             assert "number" in types, name
+        for v in field.validators:
+            if isinstance(v, validate.OneOf):
+                assert [c for c in prop["enum"] if c is not None] == list(v.choices), name
         if isinstance(field, SeriesId):
             assert set(types) == {"string", "integer"} and prop["maxLength"] == options.MAX_ID_LENGTH, name
         if isinstance(field, NumberArray):
@@ -77,6 +90,17 @@ def test_defaults_read_the_same_in_options_schema_and_methods(client):
     assert req["model_df"]["default"] == options.DEFAULT_MODEL_DF == methods["options"]["model_df"]["default"]
     assert req["period"]["minimum"] == options.MIN_PERIOD == methods["options"]["period"]["minimum"]
     assert "10 log10 n" in req["max_lag"]["description"] and "10 log10 n" in methods["options"]["max_lag"]["default"]
+    assert req["missing"]["default"] == options.DEFAULT_MISSING == methods["options"]["missing"]["default"]
+    assert req["missing"]["enum"] == list(options.MISSING_METHODS) == methods["options"]["missing"]["enum"]
+    transform = spec()["components"]["schemas"]["Transform"]
+    assert list(transform["properties"]) == list(options.TRANSFORM_ORDER) == methods["options"]["transform"]["order"]
+    assert transform["properties"]["difference"]["maximum"] == options.MAX_DIFFERENCE
+    assert transform["properties"]["seasonal_difference"]["maximum"] == options.MAX_SEASONAL_DIFFERENCE
+    assert transform["properties"]["box_cox"]["oneOf"][0]["maximum"] == options.MAX_BOX_COX_LAMBDA
+    spacing = req["timestamps"]["description"]
+    for name, period in options.PERIOD_BY_SPACING.items():
+        assert (f"{name} {period}" if period else name) in spacing, name
+        assert methods["timestamps"]["periods"][name] == period
 
 
 def test_batch_options_read_the_same_as_the_single_route_and_methods(client):

@@ -53,3 +53,54 @@ def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int) ->
     if period is not None:
         lags.update(h for h in (period, 2 * period) if h <= max_lag)
     return sorted(lags)
+
+
+# --- data in: missing values, timestamps, transforms -------------------------------------------
+
+#: How missing observations (null values, or slots skipped by regular timestamps) are handled.
+MISSING_METHODS = ("refuse", "interpolate", "pairwise")
+DEFAULT_MISSING = "refuse"
+
+#: A regular grid with gaps is accepted when at least this share of its slots is observed;
+#: sparser timestamps are treated as irregular (common practice, no source).
+MIN_OBSERVED_SHARE = 0.5
+
+#: A lag is analysed with missing data only when at least this many complete pairs span it.
+MIN_PAIRS = 3
+
+#: Regular spacing -> (name, seasonal period). The period is the cycle one looks for first
+#: (common practice, no source): a day of hours, a week of days, a year of weeks, months or quarters.
+PERIOD_BY_SPACING = {
+    "hourly": 24,
+    "daily": 7,
+    "business-daily": 5,
+    "weekly": 52,
+    "monthly": 12,
+    "quarterly": 4,
+    "yearly": None,
+}
+
+#: Transform steps, in the order they are applied.
+TRANSFORM_ORDER = ("log", "box_cox", "difference", "seasonal_difference", "detrend")
+BOX_COX_ESTIMATE = "estimate"
+MAX_BOX_COX_LAMBDA = 5.0  # |lambda| beyond this is refused (common practice, no source: useful lambdas lie in [-2, 2])
+MAX_DIFFERENCE = 3  # order d of differencing
+MAX_SEASONAL_DIFFERENCE = 2  # order D of seasonal differencing
+DETREND_KINDS = ("linear",)
+
+# --- data out ------------------------------------------------------------------------------------
+
+#: Response formats (query parameter ``format``) and the media types that select them via Accept.
+FORMATS = {"json": "application/json", "csv": "text/csv", "svg": "image/svg+xml", "png": "image/png"}
+DEFAULT_FORMAT = "json"
+#: Charts that format=svg/png can draw (query parameter ``chart``).
+CHART_KINDS = ("correlogram", "pacf", "time_plot", "periodogram", "panel")
+DEFAULT_CHART = "correlogram"
+#: A spike beyond this many standard errors is "far" outside the band; between the band and it, "marginal".
+FAR_OUTSIDE_SE = 3.0
+
+# --- CSV bodies ----------------------------------------------------------------------------------
+
+CSV_DELIMITERS = {"comma": ",", "semicolon": ";", "tab": "\t"}
+CSV_DECIMALS = {"point": ".", "comma": ","}
+CSV_MISSING_TOKENS = ("", "na", "n/a", "nan", "null", "none", "#n/a", "-")

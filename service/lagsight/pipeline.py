@@ -22,7 +22,7 @@ from .engine.analysis import analyse
 from .interpretation import interpret
 from .problems import invalid
 from .report import build_reports
-from .series import PreparedSeries, resolve_max_lag
+from .series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 
 #: Values per engine block (2**18 float64 = 2 MiB per copy of the data).
 BLOCK_POINTS = 1 << 18
@@ -37,6 +37,8 @@ class Plan:
     confidence: float
     model_df: int
     test_lags: tuple[int, ...]
+    length: int = 0  # time-grid length; differs from n when observations are missing
+    pairwise: bool = False  # missing observations analysed with the amplitude-modulated estimator
 
 
 def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
@@ -45,9 +47,13 @@ def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
     if opts["model_df"] >= n:  # also keeps absurd integers (beyond 64 bits) out of the arithmetic
         raise invalid("/model_df", f"model_df (parameters of the fitted model) must be less than the number of "
                                    f"usable values ({n}), got {opts['model_df']}.")
-    max_lag = resolve_max_lag(opts.get("max_lag"), n, series.period, max_lag_limit)
+    mask = series.mask
+    max_lag = resolve_max_lag(opts.get("max_lag"), series.length if mask is not None else n, series.period,
+                              max_lag_limit)
+    if mask is not None:
+        max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
     lags = options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])
-    return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags))
+    return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags), series.length, mask is not None)
 
 
 def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
@@ -57,7 +63,7 @@ def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[in
         groups[plan].append(i)
     out = []
     for plan, members in groups.items():
-        rows = max(1, BLOCK_POINTS // plan.n)
+        rows = max(1, BLOCK_POINTS // max(plan.n, plan.length))
         out.extend((plan, members[start:start + rows]) for start in range(0, len(members), rows))
     return out
 
@@ -83,7 +89,8 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[
     """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
     for plan, members in blocks(items):
         x = np.stack([items[i][0].values for i in members])
-        result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags))
+        mask = ~np.isnan(x) if plan.pairwise else None
+        result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags), mask=mask)
         metrics.record_analysed(len(members), plan.n * len(members))
         with gc_paused():
             reports = build_reports([items[i][0] for i in members], result)

@@ -83,6 +83,13 @@ def _seasonal(series: PreparedSeries, acf_block: dict) -> dict:
     return {"period": period, "period_source": series.period_source, "lags": entries, "note": note}
 
 
+def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
+    block = dict(series.missing)
+    if analysis.n_effective is not None:
+        block["effective_n"] = _rows(analysis.n_effective[row : row + 1])[0]
+    return block
+
+
 def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
     """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i."""
     lags = list(range(1, analysis.max_lag + 1))
@@ -112,6 +119,8 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "advice": [],
             "cautions": [],
             "warnings": list(s.warnings),
+            "missing": _missing(s, analysis, row),
+            "transform": s.transform,
         })
     return reports
 
@@ -130,4 +139,5 @@ def _one_row(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
         acf=analysis.acf[pick], acf_lower=analysis.acf_lower[pick], acf_upper=analysis.acf_upper[pick],
         pacf=analysis.pacf[pick], pacf_lower=analysis.pacf_lower[pick], pacf_upper=analysis.pacf_upper[pick],
         tests=[replace(t, statistic=t.statistic[pick], p_value=t.p_value[pick]) for t in analysis.tests],
+        n_effective=None if analysis.n_effective is None else analysis.n_effective[pick],
     )

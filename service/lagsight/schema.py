@@ -94,6 +94,40 @@ class NumberArray(fields.Field):
         return errors
 
 
+class BoxCoxLambda(fields.Field):
+    """A Box-Cox lambda: a finite number, or "estimate" for the maximum-likelihood value."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if value == options.BOX_COX_ESTIMATE:
+            return value
+        if _is_number(value) and math.isfinite(float(value)) and abs(float(value)) <= options.MAX_BOX_COX_LAMBDA:
+            return float(value)
+        raise ValidationError(f'Must be a number between -{options.MAX_BOX_COX_LAMBDA:g} and '
+                              f'{options.MAX_BOX_COX_LAMBDA:g}, or "{options.BOX_COX_ESTIMATE}".')
+
+
+class StrictBoolean(fields.Boolean):
+    """A JSON true or false, nothing else."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not isinstance(value, bool):
+            raise ValidationError("Must be true or false.")
+        return value
+
+
+class TransformFields(Schema):
+    """The ``transform`` object: steps applied in the order of options.TRANSFORM_ORDER."""
+
+    class Meta:
+        unknown = RAISE
+
+    log = StrictBoolean(load_default=False)
+    box_cox = BoxCoxLambda(load_default=None, allow_none=True)
+    difference = StrictInteger(load_default=0, validate=validate.Range(min=0, max=options.MAX_DIFFERENCE))
+    seasonal_difference = StrictInteger(load_default=0, validate=validate.Range(min=0, max=options.MAX_SEASONAL_DIFFERENCE))
+    detrend = fields.String(load_default=None, allow_none=True, validate=validate.OneOf(options.DETREND_KINDS))
+
+
 class SeriesFields(Schema):
     """The fields that describe one series (shared by the single and batch requests)."""
 
@@ -104,6 +138,8 @@ class SeriesFields(Schema):
     timestamps = fields.List(fields.String(validate=validate.Length(min=1, max=64)), load_default=None)
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     name = fields.String(load_default=None, allow_none=True, validate=validate.Length(max=200))
+    missing = fields.String(load_default=options.DEFAULT_MISSING, validate=validate.OneOf(options.MISSING_METHODS))
+    transform = fields.Nested(TransformFields, load_default=None, allow_none=True)
 
     @validates_schema
     def _timestamps_match(self, data, **kwargs):

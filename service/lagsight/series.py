@@ -11,29 +11,16 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
-from . import options
+from . import options, timestamps, transforms
+from .engine.masked import pair_counts
 from .problems import invalid
-
-#: Regular spacing -> seasonal period (the cycle one would look for first).
-PERIOD_BY_FREQUENCY = {
-    "h": ("hourly", 24),
-    "D": ("daily", 7),
-    "B": ("business-daily", 5),
-    "W": ("weekly", 52),
-    "MS": ("monthly", 12),
-    "ME": ("monthly", 12),
-    "QS": ("quarterly", 4),
-    "QE": ("quarterly", 4),
-}
-
 
 @dataclass
 class PreparedSeries:
     """A clean series and what was learnt while cleaning it."""
 
-    values: np.ndarray  # usable observations, float64, finite
+    values: np.ndarray  # float64 on a regular grid; NaN only where missing and missing == "pairwise"
     n_input: int
     n_missing: int
     period: int | None
@@ -41,49 +28,64 @@ class PreparedSeries:
     frequency: str | None  # e.g. "monthly", from timestamps
     name: str | None = None
     warnings: list[dict] = field(default_factory=list)
+    labels: list[str] | None = None  # a time label per analysed point, when timestamps were sent
+    missing: dict = field(default_factory=dict)  # the report's ``missing`` block
+    transform: dict = field(default_factory=dict)  # the report's ``transform`` block
 
     @property
     def n(self) -> int:
+        """Observed points analysed."""
+        return int(np.count_nonzero(~np.isnan(self.values))) if self.has_gaps else int(self.values.size)
+
+    @property
+    def length(self) -> int:
+        """Points on the time grid analysed, missing ones included."""
         return int(self.values.size)
+
+    @property
+    def has_gaps(self) -> bool:
+        return bool(self.missing.get("method") == "pairwise" and np.isnan(self.values).any())
+
+    @property
+    def mask(self) -> np.ndarray | None:
+        return ~np.isnan(self.values) if self.has_gaps else None
 
 
 def _warning(code: str, message: str) -> dict:
     return {"code": code, "message": message}
 
 
-def parse_timestamps(stamps: list[str]) -> pd.DatetimeIndex:
-    """Parse ISO 8601 strings; refuse unparsable, mixed-zone, unsorted or duplicate stamps."""
-    try:
-        index = pd.DatetimeIndex(pd.to_datetime(pd.Series(stamps), format="ISO8601", utc=False))
-    except (ValueError, TypeError, OverflowError):
-        index = None
-    if index is None:
-        for i, s in enumerate(stamps):
-            try:
-                pd.to_datetime(s, format="ISO8601")
-            except (ValueError, TypeError, OverflowError):
-                raise invalid(f"/timestamps/{i}", f"Not an ISO 8601 date or date-time: {s[:40]!r}.") from None
-        raise invalid("/timestamps", "Timestamps must all carry a time zone offset or all carry none.")
-    steps = np.diff(index.asi8)
-    if steps.size and (steps <= 0).any():
-        i = int(np.argmax(steps <= 0)) + 1
-        what = "repeats" if steps[i - 1] == 0 else "is earlier than"
-        raise invalid(f"/timestamps/{i}", f"Timestamp {stamps[i]!r} {what} the one before it; timestamps must be strictly increasing.")
-    return index
+def _refuse_missing(raw_missing: np.ndarray, axis: timestamps.TimeAxis | None, stamps, n_null: int, n_gaps: int):
+    hint = 'send missing = "interpolate" or "pairwise" to analyse it anyway.'
+    if n_null:
+        first = int(np.argmax(raw_missing))
+        return invalid(f"/values/{first}", f"{n_null} value(s) are missing (null), the first at index {first}; {hint}")
+    jumps = np.diff(axis.slots)
+    i = int(np.argmax(jumps > 1)) + 1
+    return invalid(f"/timestamps/{i}", f"The {axis.frequency} timestamps skip {n_gaps} step(s) in all, the first "
+                                       f"{int(jumps[i - 1]) - 1} between {stamps[i - 1]!r} and {stamps[i]!r}; {hint}")
 
 
-def infer_frequency(index: pd.DatetimeIndex) -> tuple[str | None, int | None]:
-    """Name the regular spacing of timestamps and the seasonal period it implies."""
-    if len(index) < 3:
-        return None, None
-    with pd.option_context("future.infer_freq_returns_offset", True):
-        offset = pd.infer_freq(index)
-    if offset is None:
-        return None, None
-    code = offset.freqstr
-    base = code.split("-")[0].lstrip("0123456789") or code
-    hit = PERIOD_BY_FREQUENCY.get(base)
-    return (hit if hit else (code, None))
+def _fill_missing(values: np.ndarray, method: str, warnings: list, labels):
+    """Drop missing values at the ends; interpolate inside when asked. Returns values, labels, dropped, filled."""
+    missing = np.isnan(values)
+    observed = np.flatnonzero(~missing)
+    if observed.size < options.MIN_POINTS:
+        raise invalid("/values", f"Need at least {options.MIN_POINTS} observed values, got {observed.size}.")
+    lo, hi = int(observed[0]), int(observed[-1]) + 1
+    dropped = values.size - (hi - lo)
+    if dropped:
+        warnings.append(_warning("missing_ends_dropped", f"{dropped} missing value(s) at the start or end were "
+                                                         "dropped: they cannot be interpolated or paired."))
+        values, missing = values[lo:hi], missing[lo:hi]
+        labels = labels[lo:hi] if labels is not None else None
+    filled = 0
+    if method == "interpolate" and missing.any():
+        t = np.arange(values.size)
+        values = values.copy()
+        values[missing] = np.interp(t[missing], t[~missing], values[~missing])
+        filled = int(missing.sum())
+    return values, labels, dropped, filled
 
 
 def prepare(data: dict, max_points: int) -> PreparedSeries:
@@ -93,43 +95,87 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     ----------
     data : dict
         Loaded fields of one series (``values`` as a float array with NaN for
-        null, optional ``timestamps``, ``period``, ``name``).
+        null, optional ``timestamps``, ``period``, ``name``, ``missing``, ``transform``).
     max_points : int
-        Deployment limit on the points of one series.
+        Deployment limit on the points of one series (time-grid slots included).
+
+    Notes
+    -----
+    Order: timestamps (order, duplicates, spacing, gaps) -> missing values
+    (refuse, interpolate or pairwise) -> transforms -> checks. Problems carry
+    pointers relative to the series object.
     """
     raw = data["values"]
     if raw.size > max_points:
         raise invalid("/values", f"Too many values: {raw.size} > the limit of {max_points}.")
-    missing = np.isnan(raw)
-    n_missing = int(missing.sum())
+    method = data.get("missing") or options.DEFAULT_MISSING
     warnings: list[dict] = []
-    if n_missing:
-        first = int(np.argmax(missing))
-        raise invalid(
-            f"/values/{first}",
-            f"{n_missing} value(s) are missing (null), the first at index {first}; "
-            "send a complete series (this version does not fill gaps).",
-        )
-    values = raw
     period, source, frequency = data.get("period"), ("request" if data.get("period") else None), None
-    if data.get("timestamps") is not None:
-        index = parse_timestamps(data["timestamps"])
-        frequency, implied = infer_frequency(index)
-        if frequency is None:
-            warnings.append(_warning("irregular_timestamps", "The timestamps are not evenly spaced; they were used only for order, not to infer a period."))
-        if period is None and implied is not None:
-            period, source = implied, "timestamps"
-    n = values.size
+    values, labels, axis, stamps = raw, None, None, data.get("timestamps")
+    raw_missing = np.isnan(raw)
+    n_null, n_gaps = int(raw_missing.sum()), 0
+    if stamps is not None:
+        axis = timestamps.describe(stamps, max_points)
+        frequency = axis.frequency
+        if axis.slots is None:
+            labels = list(stamps)
+            if raw.size >= 3:
+                warnings.append(_warning("irregular_timestamps", "The timestamps are not evenly spaced; they were used "
+                                         "only for order, not to infer a period or find gaps."))
+        else:
+            labels = axis.labels
+            if axis.size > raw.size:
+                n_gaps = axis.size - raw.size
+                values = np.full(axis.size, np.nan)
+                values[axis.slots] = raw
+        if period is None and axis.period is not None:
+            period, source = axis.period, "timestamps"
+    n_missing = n_null + n_gaps
+    dropped = filled = 0
+    if n_missing:
+        if method == "refuse":
+            raise _refuse_missing(raw_missing, axis, stamps, n_null, n_gaps)
+        values, labels, dropped, filled = _fill_missing(values, method, warnings, labels)
+    n_grid = values.size
+    n_before = int(np.count_nonzero(~np.isnan(values)))
+    if period is not None and period >= n_grid and source == "request":
+        raise invalid("/period", f"The period ({period}) must be less than the number of values ({n_grid}).")
+    values, steps, front = transforms.apply(values, data.get("transform"), period)
+    if labels is not None and front:
+        labels = labels[front:]
+    observed = values[~np.isnan(values)]
+    n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if values.min() == values.max():  # not np.ptp: max - min overflows for values near +-1.8e308
-        raise invalid("/values", "The series is constant; autocorrelation is undefined when there is no variation.")
-    if period is not None and period >= n:
-        if source == "request":
-            raise invalid("/period", f"The period ({period}) must be less than the number of values ({n}).")
-        warnings.append(_warning("period_too_long", f"The timestamps suggest a period of {period}, but the series has only {n} values; no seasonal check was made."))
+    if observed.min() == observed.max():  # not np.ptp: max - min overflows for values near +-1.8e308
+        what = " after the transforms" if steps else ""
+        raise invalid("/transform" if steps else "/values",
+                      f"The series is constant{what}; autocorrelation is undefined when there is no variation.")
+    if period is not None and period >= values.size:
+        warnings.append(_warning("period_too_long", f"The timestamps suggest a period of {period}, but the series "
+                                                    f"has only {values.size} values; no seasonal check was made."))
         period, source = None, None
-    return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings)
+    missing_block = {
+        "method": method, "count": n_missing, "from_nulls": n_null, "from_gaps": n_gaps,
+        "dropped_at_ends": dropped, "interpolated": filled,
+        "remaining": int(np.isnan(values).sum()), "effective_n": None,
+        "note": _missing_note(method, n_missing, dropped, filled),
+    }
+    transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}
+    return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings,
+                          labels, missing_block, transform_block)
+
+
+def _missing_note(method: str, count: int, dropped: int, filled: int) -> str | None:
+    if not count:
+        return None
+    if method == "interpolate":
+        return (f"{filled} missing value(s) were filled by straight lines between their neighbours"
+                + (f" and {dropped} at the ends dropped" if dropped else "")
+                + "; filled values make the series smoother and can raise low-lag autocorrelation.")
+    return ("Autocovariances use only the pairs observed at each lag (the amplitude-modulated estimator, "
+            "Parzen 1963); the band and the portmanteau statistics use each lag's effective size "
+            "n_k = n * (pairs at lag k) / (n - k), so the band widens where pairs are scarce.")
 
 
 def resolve_max_lag(requested: int | None, n: int, period: int | None, limit: int) -> int:
@@ -141,3 +187,23 @@ def resolve_max_lag(requested: int | None, n: int, period: int | None, limit: in
     if requested > limit:
         raise invalid("/max_lag", f"max_lag must be at most {limit} (this deployment's limit), got {requested}.")
     return requested
+
+
+def limit_to_paired_lags(series: PreparedSeries, mask: np.ndarray, max_lag: int, requested: bool) -> int:
+    """With missing values, keep to lags spanned by at least options.MIN_PAIRS complete pairs.
+
+    A requested max_lag beyond that is refused; the default is lowered, with a warning.
+    """
+    pairs = pair_counts(mask[None, :], max_lag)[0, 1:]
+    short = np.flatnonzero(pairs < options.MIN_PAIRS)
+    if not short.size:
+        return max_lag
+    lag = int(short[0]) + 1
+    if requested or lag == 1:
+        raise invalid("/max_lag" if requested else "/values",
+                      f"Lag {lag} has only {int(pairs[lag - 1])} pair(s) of observed values; at least "
+                      f"{options.MIN_PAIRS} are needed at every lag analysed"
+                      + (f": lower max_lag below {lag}." if requested else "."))
+    series.warnings.append(_warning("max_lag_lowered", f"max_lag was lowered to {lag - 1}: lag {lag} has fewer than "
+                                                      f"{options.MIN_PAIRS} pairs of observed values."))
+    return lag - 1

@@ -6,8 +6,11 @@ from flask import Blueprint, current_app
 from .. import __version__, options
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import __doc__ as DECISION_RULE
+from ..engine.masked import __doc__ as masked_doc
 from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
+from ..timestamps import __doc__ as timestamps_doc
+from ..transforms import __doc__ as transforms_doc
 
 bp = Blueprint("meta", __name__)
 
@@ -43,7 +46,13 @@ def methods():
             "confidence": {"default": options.DEFAULT_CONFIDENCE, "exclusive_minimum": 0, "exclusive_maximum": 1},
             "model_df": {"default": options.DEFAULT_MODEL_DF, "minimum": 0},
             "period": {"default": None, "minimum": options.MIN_PERIOD},
+            "missing": {"default": options.DEFAULT_MISSING, "enum": list(options.MISSING_METHODS),
+                        "pairwise": " ".join(masked_doc.split("Notes\n-----")[1].split("References")[0].split())},
+            "transform": {"order": list(options.TRANSFORM_ORDER),
+                          "rules": " ".join(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1].split())},
         },
+        "timestamps": {"periods": dict(options.PERIOD_BY_SPACING),
+                       "rules": " ".join(timestamps_doc.split("----------------------------------------------------------")[1].split())},
         "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],

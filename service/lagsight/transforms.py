@@ -1,0 +1,131 @@
+"""Transforms applied before the analysis, in one stated order.
+
+Order (``options.TRANSFORM_ORDER``): ``log`` -> ``box_cox`` -> ``difference`` (order d)
+-> ``seasonal_difference`` (order D at the period m) -> ``detrend`` (linear).
+
+- log: natural logarithm; every observed value must be > 0.
+- box_cox: (x**lambda - 1) / lambda, log x at lambda = 0 [1]_ (``scipy.special.boxcox``);
+  lambda is the request's number, or with ``"estimate"`` the maximum-likelihood value
+  (``scipy.stats.boxcox_normmax(method="mle")``) on the observed values. Values must be > 0.
+  log and box_cox exclude each other (log is box_cox at lambda 0).
+- difference: x_t - x_{t-1}, d times; each pass drops the first point.
+- seasonal_difference: x_t - x_{t-m}, D times; each pass drops the first m points.
+- detrend: the least-squares straight line in time is subtracted (fitted on the
+  observed points when some are missing).
+
+Missing values (NaN, kept by ``missing = pairwise``) propagate: a difference is
+missing when either of its terms is. Problems point into the ``transform`` object.
+
+References
+----------
+.. [1] Box, G. E. P. and Cox, D. R. (1964). An analysis of transformations.
+   JRSS B 26(2), 211-252.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import special, stats
+
+from . import options
+from .problems import invalid
+
+
+def _step(name: str, *, order=None, lag=None, lambda_=None, lambda_source=None, n_after: int) -> dict:
+    return {"step": name, "order": order, "lag": lag, "lambda": lambda_, "lambda_source": lambda_source,
+            "n_after": n_after}
+
+
+def _observed(x: np.ndarray) -> int:
+    return int(np.count_nonzero(~np.isnan(x)))
+
+
+def _require_positive(x: np.ndarray, what: str, pointer: str) -> None:
+    bad = ~(x > 0) & ~np.isnan(x)
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise invalid(pointer, f"{what} needs every value to be positive; {int(bad.sum())} are not, the first "
+                               f"at position {i} of the series ({x[i]:g}).")
+
+
+def linear_detrend(x: np.ndarray) -> np.ndarray:
+    """Subtract the least-squares line a + b t, fitted on the observed (non-NaN) points."""
+    t = np.arange(x.size, dtype=np.float64)
+    ok = ~np.isnan(x)
+    tc = t[ok] - t[ok].mean()
+    xc = x[ok] - x[ok].mean()
+    slope = float(tc @ xc / (tc @ tc))
+    return x - (x[ok].mean() + slope * (t - t[ok].mean()))
+
+
+def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "/transform"):
+    """Apply the requested transforms to one series.
+
+    Parameters
+    ----------
+    x : ndarray, shape (n,)
+        Values, NaN where missing.
+    spec : dict or None
+        The validated ``transform`` object.
+    period : int or None
+        Seasonal period, required by ``seasonal_difference``.
+    pointer : str
+        JSON pointer of the transform object, for problems.
+
+    Returns
+    -------
+    y : ndarray
+        The transformed series (shorter after differencing).
+    steps : list of dict
+        What was applied, in order, with the resulting number of points.
+    dropped : int
+        Points removed from the front by differencing.
+    """
+    spec = spec or {}
+    steps: list[dict] = []
+    dropped = 0
+    if spec.get("log") and spec.get("box_cox") is not None:
+        raise invalid(f"{pointer}/box_cox", "Choose log or box_cox, not both (log is box_cox with lambda 0).")
+    if spec.get("log"):
+        _require_positive(x, "The log transform", f"{pointer}/log")
+        x = np.log(x)
+        steps.append(_step("log", n_after=_observed(x)))
+    lam = spec.get("box_cox")
+    if lam is not None:
+        _require_positive(x, "The Box-Cox transform", f"{pointer}/box_cox")
+        source = "request"
+        if lam == options.BOX_COX_ESTIMATE:
+            obs = x[~np.isnan(x)]
+            if np.ptp(obs) == 0:
+                raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series.")
+            lam, source = float(stats.boxcox_normmax(obs, method="mle")), "estimated"
+        x = special.boxcox(x, lam)
+        steps.append(_step("box_cox", lambda_=float(lam), lambda_source=source, n_after=_observed(x)))
+    d = spec.get("difference") or 0
+    for _ in range(d):
+        if x.size - 1 < options.MIN_POINTS:
+            raise invalid(f"{pointer}/difference", f"Differencing {d} time(s) leaves fewer than {options.MIN_POINTS} points.")
+        x = x[1:] - x[:-1]
+        dropped += 1
+    if d:
+        steps.append(_step("difference", order=d, lag=1, n_after=_observed(x)))
+    D = spec.get("seasonal_difference") or 0
+    if D:
+        if period is None:
+            raise invalid(f"{pointer}/seasonal_difference", "A seasonal difference needs a period: send period, "
+                                                            "or timestamps whose regular spacing implies one.")
+        for _ in range(D):
+            if x.size - period < options.MIN_POINTS:
+                raise invalid(f"{pointer}/seasonal_difference",
+                              f"Seasonal differencing (order {D} at period {period}) leaves fewer than "
+                              f"{options.MIN_POINTS} points of the {x.size + dropped} sent.")
+            x = x[period:] - x[:-period]
+            dropped += period
+        steps.append(_step("seasonal_difference", order=D, lag=period, n_after=_observed(x)))
+    if spec.get("detrend"):
+        if _observed(x) < options.MIN_POINTS:
+            raise invalid(f"{pointer}/detrend", f"Too few points left to fit a line ({_observed(x)}).")
+        x = linear_detrend(x)
+        steps.append(_step("detrend", n_after=_observed(x)))
+    if steps and _observed(x) < options.MIN_POINTS:
+        raise invalid(pointer, f"The transforms leave {_observed(x)} observed points; at least {options.MIN_POINTS} are needed.")
+    return x, steps, dropped
