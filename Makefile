@@ -26,7 +26,9 @@ serve: $(STAMP)
 test: $(STAMP)
 	$(BIN)/python -m pytest
 
+# Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.
 bench: $(STAMP)
+	command -v wrk >/dev/null || (apt-get install -y wrk >/dev/null 2>&1 || true)
 	$(BIN)/python -m benchmarks.run
 
 # Refresh constraints.txt from a fresh resolution of pyproject.toml's ranges.

@@ -40,15 +40,18 @@ def pacf(r: np.ndarray) -> np.ndarray:
     m, K = r.shape
     out = np.zeros((m, K))
     phi = np.zeros((m, K))
+    backwards = r[:, ::-1]  # backwards[:, K - k:] is r_k-1, ..., r_1 (a view, no copy)
     out[:, 0] = phi[:, 0] = r[:, 0]
     err = 1.0 - r[:, 0] ** 2  # normalised prediction error variance
-    for k in range(1, K):
-        num = r[:, k] - np.einsum("ij,ij->i", phi[:, :k], r[:, k - 1 :: -1][:, :k])
-        with np.errstate(divide="ignore", invalid="ignore"):
+    # One errstate and plain ufuncs per step: with few series the per-call overhead is the cost.
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for k in range(1, K):
+            num = r[:, k] - np.einsum("ij,ij->i", phi[:, :k], backwards[:, K - k :])
             kk = np.where(err > 1e-15, num / err, 0.0)
-        kk = np.clip(kk, -1.0, 1.0)
-        phi[:, :k] -= kk[:, None] * phi[:, k - 1 :: -1][:, :k]
-        phi[:, k] = kk
-        out[:, k] = kk
-        err = err * (1.0 - kk**2)
+            np.maximum(kk, -1.0, out=kk)
+            np.minimum(kk, 1.0, out=kk)
+            phi[:, :k] -= kk[:, None] * phi[:, k - 1 :: -1]
+            phi[:, k] = kk
+            out[:, k] = kk
+            err = err * (1.0 - kk**2)
     return out

@@ -1,0 +1,122 @@
+"""In-process measurements: the engine and the full report against a statsmodels loop and a bare NumPy floor
+(measurement 1), and how time grows with series length and batch size (measurement 5)."""
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+from scipy import fft as sp_fft
+from scipy.special import chdtrc
+
+from lagsight import options
+from lagsight.engine.analysis import analyse
+from lagsight.pipeline import plan_for, run
+from lagsight.series import PreparedSeries
+
+from . import timing, workloads
+
+
+def prepared(x: np.ndarray, period: int | None) -> list[PreparedSeries]:
+    n = x.shape[1]
+    return [PreparedSeries(row, n, 0, period, "request" if period else None, None, f"sensor-{i}")
+            for i, row in enumerate(x)]
+
+
+def full_reports(x: np.ndarray, max_lag: int, period: int | None) -> list[dict]:
+    """What the service does after validation: plan, engine, reports, interpretation."""
+    opts = {"max_lag": max_lag, "confidence": options.DEFAULT_CONFIDENCE, "model_df": 0}
+    series = prepared(x, period)
+    return run([(s, plan_for(s, opts, max_lag)) for s in series])
+
+
+def engine_only(x: np.ndarray, max_lag: int, period: int | None):
+    n = x.shape[1]
+    lags = options.portmanteau_lags(n, max_lag, period, 0)
+    return analyse(x, max_lag, options.DEFAULT_CONFIDENCE, 0, lags)
+
+
+def numpy_floor(x: np.ndarray, max_lag: int, lags: list[int]):
+    """The least a batched ACF + Ljung-Box can cost: centre, one real FFT pair, a cumulative sum, chi-square tails.
+
+    No accuracy safeguards (no rescaling, one-pass mean), no PACF, no Box-Pierce, no bands, no report.
+    """
+    m, n = x.shape
+    d = x - x.mean(axis=1, keepdims=True)
+    size = sp_fft.next_fast_len(n + max_lag, real=True)
+    spec = sp_fft.rfft(d, n=size, axis=1)
+    c = sp_fft.irfft(spec.real**2 + spec.imag**2, n=size, axis=1)[:, : max_lag + 1]
+    r = c[:, 1:] / c[:, :1]
+    k = np.arange(1, max_lag + 1)
+    q = n * (n + 2.0) * np.cumsum(r**2 / (n - k), axis=1)[:, np.asarray(lags) - 1]
+    return r, chdtrc(np.asarray(lags), q)
+
+
+def statsmodels_loop(x: np.ndarray, max_lag: int, lags: list[int], pacf_method: str = "ldb"):
+    """What a Python user writes: acf, pacf and acorr_ljungbox (with Box-Pierce) per series.
+
+    ``pacf_method="ldb"`` (Levinson-Durbin on the biased autocovariance) is the estimator the service reports;
+    statsmodels' default ``"ywadjusted"`` is a different, slower estimator, measured as a second loop.
+    """
+    from statsmodels.stats.diagnostic import acorr_ljungbox
+    from statsmodels.tsa.stattools import acf, pacf
+
+    out = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for row in x:
+            out.append((acf(row, nlags=max_lag, fft=True), pacf(row, nlags=max_lag, method=pacf_method),
+                        acorr_ljungbox(row, lags=lags, boxpierce=True)))
+    return out
+
+
+def measure_batch(m: int, n: int, max_lag: int, period: int, repeats: int, default_loop_rows: int) -> dict:
+    """Measurement 1: side by side, medians over ``repeats`` rounds."""
+    x = workloads.batch(m, n)
+    lags = options.portmanteau_lags(n, max_lag, period, 0)
+    sub = x[:default_loop_rows]
+    cases = {
+        "numpy_floor": lambda: numpy_floor(x, max_lag, lags),
+        "engine": lambda: engine_only(x, max_lag, period),
+        "full_report": lambda: full_reports(x, max_lag, period),
+        "statsmodels_loop": lambda: statsmodels_loop(x, max_lag, lags),
+        "statsmodels_loop_default_pacf_subset": lambda: statsmodels_loop(sub, max_lag, lags, "ywadjusted"),
+    }
+    times = timing.interleaved(cases, repeats)
+    check = engine_only(x[:50], max_lag, period)
+    ref = statsmodels_loop(x[:50], max_lag, lags)
+    agreement = max(float(np.max(np.abs(check.acf[i] - ref[i][0][1:]))) for i in range(50))
+    pacf_agreement = max(float(np.max(np.abs(check.pacf[i] - ref[i][1][1:]))) for i in range(50))
+    return {"m": m, "n": n, "max_lag": max_lag, "period": period, "lags": lags, "repeats": repeats,
+            "default_loop_rows": default_loop_rows, "times": times,
+            "max_abs_diff_acf_vs_statsmodels": agreement, "max_abs_diff_pacf_vs_statsmodels": pacf_agreement}
+
+
+def _slope(sizes: list[int], seconds: list[float]) -> float:
+    """Least-squares slope of log(time) on log(size)."""
+    return float(np.polyfit(np.log(sizes), np.log(seconds), 1)[0])
+
+
+def measure_scaling(lengths: list[int], batch_sizes: list[int], max_lag: int, batch_n: int, batch_lag: int,
+                    repeats: int) -> dict:
+    """Measurement 5: one series of growing length; growing batches of short series."""
+    by_length = {}
+    for n in lengths:
+        x = workloads.long_series(n)[None, :]
+        t = timing.interleaved({"engine": lambda: engine_only(x, max_lag, None),
+                                "full_report": lambda: full_reports(x, max_lag, None)}, repeats)
+        by_length[n] = {k: v["median"] for k, v in t.items()}
+    by_batch = {}
+    for m in batch_sizes:
+        x = workloads.batch(m, batch_n)
+        t = timing.interleaved({"engine": lambda: engine_only(x, batch_lag, 12),
+                                "full_report": lambda: full_reports(x, batch_lag, 12)}, repeats)
+        by_batch[m] = {k: v["median"] for k, v in t.items()}
+    nlogn = [n * math.log(n) for n in lengths]
+    return {
+        "max_lag": max_lag, "batch_n": batch_n, "batch_lag": batch_lag, "repeats": repeats,
+        "by_length": by_length, "by_batch": by_batch,
+        "slope_length": {k: _slope(lengths, [by_length[n][k] for n in lengths]) for k in ("engine", "full_report")},
+        "slope_length_nlogn": {k: _slope(nlogn, [by_length[n][k] for n in lengths]) for k in ("engine", "full_report")},
+        "slope_batch": {k: _slope(batch_sizes, [by_batch[m][k] for m in batch_sizes]) for k in ("engine", "full_report")},
+    }

@@ -1,0 +1,83 @@
+"""Run the five measurements and write BENCHMARKS.md: ``python -m benchmarks.run`` (``make bench``).
+
+Options: ``--quick`` (tiny sizes, a minute or less; used by the test suite), ``--repeats N``,
+``--out PATH`` (default BENCHMARKS.md at the repository root), ``--load {wrk,python}``.
+The hand-written analysis between the ``notes`` markers of an existing report is kept.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import time
+from pathlib import Path
+
+from . import engine_bench, http_bench, load, machine, workloads
+from .report import render
+from .server import Server
+
+ROOT = Path(__file__).resolve().parents[1]
+
+FULL = {
+    "batch": {"m": 10_000, "n": 120, "max_lag": 24, "period": 12, "default_loop_rows": 1_000},
+    "scaling": {"lengths": [1_000, 10_000, 100_000, 1_000_000], "batch_sizes": [100, 1_000, 10_000],
+                "max_lag": 100, "batch_n": 120, "batch_lag": 24},
+    "throughput": {"n": 120, "seconds": 10, "connections": 16},
+    "long": {"n": 1_000_000, "max_lag": 100},
+}
+QUICK = {
+    "batch": {"m": 60, "n": 120, "max_lag": 24, "period": 12, "default_loop_rows": 10},
+    "scaling": {"lengths": [1_000, 4_000], "batch_sizes": [10, 40], "max_lag": 100, "batch_n": 120, "batch_lag": 24},
+    "throughput": {"n": 120, "seconds": 1, "connections": 2},
+    "long": {"n": 5_000, "max_lag": 100},
+}
+
+
+def measure(sizes: dict, repeats: int, tool: str, log=print) -> dict:
+    started = time.time()
+    results: dict = {"machine": machine.describe(), "repeats": repeats, "load_tool": tool}
+    b = sizes["batch"]
+    log(f"1. batch of {b['m']} x {b['n']}: engine, full report, NumPy floor, statsmodels loops")
+    results["batch"] = engine_bench.measure_batch(b["m"], b["n"], b["max_lag"], b["period"], repeats,
+                                                  b["default_loop_rows"])
+    s = sizes["scaling"]
+    log("5. scaling with length and batch size")
+    results["scaling"] = engine_bench.measure_scaling(s["lengths"], s["batch_sizes"], s["max_lag"], s["batch_n"],
+                                                      s["batch_lag"], repeats)
+    with Server(workers=2) as server:
+        log("2. the batch through HTTP")
+        x = workloads.batch(b["m"], b["n"])
+        results["http_batch"] = http_bench.measure_batch(server, x, b["max_lag"], b["period"], repeats)
+        t = sizes["throughput"]
+        log(f"3. single {t['n']}-point requests against the no-op ({tool})")
+        results["throughput"] = http_bench.measure_single_throughput(server, t["n"], t["seconds"], repeats,
+                                                                     t["connections"], tool)
+        lg = sizes["long"]
+        log(f"4. one series of {lg['n']} points")
+        results["long"] = http_bench.measure_long(server, lg["n"], lg["max_lag"], repeats)
+    results["long_memory"] = http_bench.measure_long_memory(lg["n"], lg["max_lag"], repeats)
+    results["machine"]["load_average_at_end"] = machine.load_average()
+    results["wall_seconds"] = time.time() - started
+    return results
+
+
+def main(argv=None) -> dict:
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.run", description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="tiny sizes, to check the code runs")
+    parser.add_argument("--repeats", type=int, default=None, help="rounds per measurement (default 5, quick 1)")
+    parser.add_argument("--out", type=Path, default=ROOT / "BENCHMARKS.md")
+    parser.add_argument("--load", choices=("wrk", "python"), default="wrk",
+                        help="load generator for measurement 3 (wrk falls back to python when not installed)")
+    ns = parser.parse_args(argv)
+    repeats = ns.repeats or (1 if ns.quick else 5)
+    tool = load.available_tool(ns.load)
+    results = measure(QUICK if ns.quick else FULL, repeats, tool)
+    results["quick"] = ns.quick
+    previous = ns.out.read_text() if ns.out.exists() else ""
+    ns.out.write_text(render(results, previous))
+    ns.out.with_suffix(".json").write_text(json.dumps(results, indent=1, default=float) + "\n")
+    print(f"wrote {ns.out} and {ns.out.with_suffix('.json')}")
+    return results
+
+
+if __name__ == "__main__":
+    main()
