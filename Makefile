@@ -7,7 +7,9 @@ PORT   ?= 8000
 WORKERS ?= 2
 STAMP  := $(VENV)/.installed
 
-.PHONY: serve test install lock clean bench
+CHROMIUM := /usr/bin/chromium
+
+.PHONY: serve test install lock clean bench screenshots
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -23,8 +25,17 @@ install: $(STAMP)
 serve: $(STAMP)
 	$(BIN)/lagsight serve --host $(HOST) --port $(PORT) --workers $(WORKERS)
 
-test: $(STAMP)
+# The browser tests drive Debian's chromium; install it once when it is missing (needs root and apt).
+$(CHROMIUM):
+	apt-get update -qq
+	DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends chromium
+
+test: $(STAMP) $(CHROMIUM)
 	$(BIN)/python -m pytest
+
+# Refresh the page screenshots in docs/ (the browser tests write them there).
+screenshots: $(STAMP) $(CHROMIUM)
+	LAGSIGHT_SCREENSHOTS=docs $(BIN)/python -m pytest tests/test_page_browser.py -q
 
 # Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.
 bench: $(STAMP)

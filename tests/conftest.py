@@ -50,3 +50,12 @@ def white_noise(n: int, seed: int, m: int | None = None) -> np.ndarray:
     """Seeded i.i.d. standard normal values (a simulated null, not a reference)."""
     rng = np.random.default_rng(seed)
     return rng.standard_normal(n if m is None else (m, n))
+
+
+@pytest.fixture(scope="session")
+def live_server(tmp_path_factory):
+    """Base URL of a real gunicorn on a free loopback port, shared by the tests that need one."""
+    from .live_server import gunicorn
+
+    with gunicorn(tmp_path_factory.mktemp("live") / "gunicorn.log") as base:
+        yield base

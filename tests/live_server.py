@@ -1,13 +1,14 @@
-"""Start a real gunicorn (the production config file) on a free loopback port for a test."""
+"""A real gunicorn serving lagsight on a free loopback port, for tests that call it over HTTP."""
 from __future__ import annotations
 
-import contextlib
 import os
 import signal
 import socket
 import subprocess
 import sys
 import time
+from contextlib import contextmanager
+from pathlib import Path
 
 import requests
 
@@ -18,17 +19,53 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
-@contextlib.contextmanager
-def live_gunicorn(tmp_path, env: dict | None = None, workers: int = 1, start_timeout: float = 60.0):
-    """Yield the base URL of gunicorn -c python:lagsight.gunicorn_conf on 127.0.0.1; stop it with SIGTERM."""
+@contextmanager
+def gunicorn(log_path: Path, workers: int = 2, env: dict | None = None, start_timeout: float = 60.0):
+    """Start gunicorn on 127.0.0.1:<free port>, wait for /healthz, yield the base URL, stop it with SIGTERM."""
+    port = free_port()
+    log = open(log_path, "wb")
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "gunicorn", "lagsight.wsgi:app", "--bind", f"127.0.0.1:{port}",
+         "--workers", str(workers), "--no-control-socket", "--timeout", "60"],
+        stdout=subprocess.DEVNULL, stderr=log, env={**os.environ, **(env or {})},
+    )
+    base = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + start_timeout
+        while True:
+            try:
+                if requests.get(base + "/healthz", timeout=2).status_code == 200:
+                    break
+            except (requests.ConnectionError, requests.Timeout):
+                pass
+            if proc.poll() is not None or time.monotonic() > deadline:
+                raise RuntimeError("gunicorn did not start:\n" + log_path.read_text(errors="replace"))
+            time.sleep(0.2)
+        yield base
+    finally:
+        proc.send_signal(signal.SIGTERM)
+        try:
+            proc.wait(timeout=30)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+            proc.wait(timeout=10)
+        log.close()
+
+
+@contextmanager
+def live_gunicorn(tmp_path: Path, env: dict | None = None, workers: int = 1, start_timeout: float = 60.0):
+    """Like :func:`gunicorn`, but with the production config file (lagsight.gunicorn_conf, LAGSIGHT_* settings),
+    ready only when /readyz passes, and failing the test if the server died while it ran."""
     port = free_port()
     environ = {**os.environ, "LAGSIGHT_HOST": "127.0.0.1", "LAGSIGHT_PORT": str(port),
                "LAGSIGHT_WORKERS": str(workers), **(env or {})}
     environ.pop("PROMETHEUS_MULTIPROC_DIR", None)
     log_path = tmp_path / f"gunicorn-{port}.log"
     with open(log_path, "wb") as log:
-        proc = subprocess.Popen([sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"],
-                                stdout=log, stderr=log, env=environ)
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"],
+            stdout=log, stderr=log, env=environ,
+        )
     base = f"http://127.0.0.1:{port}"
     try:
         deadline = time.monotonic() + start_timeout
@@ -36,13 +73,13 @@ def live_gunicorn(tmp_path, env: dict | None = None, workers: int = 1, start_tim
             try:
                 if requests.get(base + "/readyz", timeout=2).status_code == 200:
                     break
-            except requests.ConnectionError:
+            except (requests.ConnectionError, requests.Timeout):
                 pass
-            assert proc.poll() is None, log_path.read_text()
-            assert time.monotonic() < deadline, f"gunicorn did not become ready in {start_timeout} s"
+            if proc.poll() is not None or time.monotonic() > deadline:
+                raise RuntimeError("gunicorn did not become ready:\n" + log_path.read_text(errors="replace"))
             time.sleep(0.2)
         yield base
-        assert proc.poll() is None, "gunicorn died during the test:\n" + log_path.read_text()[-3000:]
+        assert proc.poll() is None, "gunicorn died during the test:\n" + log_path.read_text(errors="replace")[-3000:]
     finally:
         if proc.poll() is None:
             proc.send_signal(signal.SIGTERM)
@@ -50,4 +87,4 @@ def live_gunicorn(tmp_path, env: dict | None = None, workers: int = 1, start_tim
                 proc.wait(timeout=30)
             except subprocess.TimeoutExpired:
                 proc.kill()
-                proc.wait()
+                proc.wait(timeout=10)

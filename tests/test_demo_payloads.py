@@ -29,14 +29,7 @@ PENDING = {
 
 #: Payloads whose stated conclusion the service does not reach yet, for a reason other than a missing feature.
 #: Remove an entry when the cause is settled; the strict xfail turns into a failure until you do.
-KNOWN = {
-    "retail_weekly_batch_500": (
-        "63 of the 459 white-noise stores are flagged (over the 10% bound): the stores' values are simulated "
-        "i.i.d. yet sent with model_df 2, which makes the chi-square degrees of freedom too small for them, and "
-        "the default max_lag at n = 104, period 52 is 103 = n - 1, where Ljung-Box over-rejects "
-        "(same verdicts one by one on POST /v1/diagnostics)"
-    ),
-}
+KNOWN: dict[str, str] = {}
 
 
 def _sidecars() -> list[Path]:

@@ -15,17 +15,18 @@ def load_spec(path: str) -> dict:
 
 def create_app(config: dict | None = None) -> Flask:
     """Build the Flask app; ``config`` overrides settings (tests pass a dict)."""
-    app = Flask("lagsight")
+    app = Flask("lagsight", static_folder=None)  # the page blueprint serves the static files
     app.config.update(settings.load(config))
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])
     observability.init_app(app)  # first: the request id and clock start before anything can fail
     security.init_app(app)
     errors.init_app(app)
-    from .views import batch, diagnostics, meta, operations
+    from .views import batch, diagnostics, meta, operations, page
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(operations.bp)
     app.register_blueprint(diagnostics.bp)
     app.register_blueprint(batch.bp)
+    app.register_blueprint(page.bp)
     return app

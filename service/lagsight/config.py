@@ -33,6 +33,14 @@ def word_list(raw: str) -> tuple[str, ...]:
     return tuple(w for w in raw.replace(",", " ").split() if w)
 
 
+def csp_sources(raw: str) -> str:
+    """A CSP source list (for frame-ancestors): space-separated sources, no directive separators."""
+    value = " ".join(raw.split())
+    if not value or any(ch in value for ch in ";,\""):
+        raise ValueError("must be space-separated CSP sources such as 'self' https://portal.example")
+    return value
+
+
 def log_level(raw: str) -> str:
     level = raw.strip().upper()
     if level not in {"DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"}:
@@ -85,7 +93,7 @@ SETTINGS: dict[str, Setting] = {
     "CORS_ORIGINS": Setting("LAGSIGHT_CORS_ORIGINS", (), word_list,
                             "Origins allowed to call from a browser (comma-separated, exact match; * for any). "
                             "Empty: no CORS headers, so browsers on other origins are refused."),
-    "FRAME_ANCESTORS": Setting("LAGSIGHT_FRAME_ANCESTORS", "'self'", str,
+    "FRAME_ANCESTORS": Setting("LAGSIGHT_FRAME_ANCESTORS", "'self'", csp_sources,
                                "CSP frame-ancestors sources allowed to embed the page in an iframe, e.g. "
                                "\"'self' https://portal.example\"; 'none' forbids embedding."),
     "AUTH_TOKENS": Setting("LAGSIGHT_AUTH_TOKENS", (), word_list,

@@ -1,0 +1,218 @@
+"""The page, end to end in a real browser: Playwright driving Debian's chromium against gunicorn.
+
+`make test` installs chromium with apt-get when /usr/bin/chromium is missing. Screenshots go to a
+temporary folder, or to the folder named by LAGSIGHT_SCREENSHOTS (`make screenshots` uses docs/).
+"""
+from __future__ import annotations
+
+import json
+import os
+import threading
+from contextlib import contextmanager
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+from pathlib import Path
+
+import pytest
+
+from .live_server import gunicorn
+
+pytestmark = pytest.mark.slow
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_payloads"
+CHROMIUM = "/usr/bin/chromium"
+LAUNCH_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+               "--disable-sync", "--no-first-run"]
+
+
+@pytest.fixture(scope="module")
+def browser():
+    assert Path(CHROMIUM).exists(), f"{CHROMIUM} is missing: `make test` installs it (apt-get install chromium)"
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=CHROMIUM, args=LAUNCH_ARGS, headless=True)
+        yield b
+        b.close()
+
+
+@pytest.fixture
+def page(browser):
+    context = browser.new_context(viewport={"width": 1200, "height": 900})
+    pg = context.new_page()
+    errors: list[str] = []
+    pg.on("pageerror", lambda exc: errors.append(str(exc)))
+    pg.on("console", lambda msg: errors.append(msg.text) if msg.type == "error" else None)
+    yield pg
+    context.close()
+    # no script errors and no CSP violations; a 422 answer is logged by the browser and is expected
+    assert [e for e in errors if "status of 422" not in e] == []
+
+
+@pytest.fixture(scope="module")
+def shots(tmp_path_factory) -> Path:
+    target = os.environ.get("LAGSIGHT_SCREENSHOTS")
+    folder = Path(target) if target else tmp_path_factory.mktemp("screenshots")
+    folder.mkdir(parents=True, exist_ok=True)
+    return folder
+
+
+def _demo(name: str) -> dict:
+    return json.loads((DEMO / f"{name}.json").read_text())
+
+
+def _check(page, payload: dict) -> None:
+    page.fill("#values", "\n".join(str(v) for v in payload["values"]))
+    if payload.get("period"):
+        page.fill("#period", str(payload["period"]))
+    page.fill("#model-df", str(payload.get("model_df", 0)))
+    page.click("#submit")
+    page.wait_for_selector("#result:not([hidden])")
+
+
+def test_pasted_white_noise_series_shows_verdict_and_both_charts(page, live_server, shots):
+    payload = _demo("bakery_daily_residuals")
+    page.goto(live_server + "/")
+    assert page.title().startswith("Lagsight")
+    _check(page, payload)
+    assert page.inner_text("#verdict").startswith("Consistent with white noise")
+    assert "n = 56" in page.inner_text("#facts") and "period 7" in page.inner_text("#facts")
+    for chart in ("#acf-chart", "#pacf-chart"):
+        assert page.locator(f"{chart} svg polygon.band").count() == 1  # the band is one shaded region
+        assert page.locator(f"{chart} svg rect.spike").count() == 17  # one spike per lag 1..max_lag
+        assert page.locator(f"{chart} svg .mark").count() == 2  # seasonal lags 7 and 14
+    assert page.locator("#acf-chart rect.spike.outside").count() == 0
+    assert page.locator("#cautions li").count() >= 2
+    assert page.locator("#tests-table tbody tr").count() >= 4
+    page.screenshot(path=str(shots / "page-white-noise.png"), full_page=True)
+
+
+def test_seasonal_residuals_show_spikes_outside_the_band_and_advice(page, live_server, shots):
+    page.goto(live_server + "/")
+    _check(page, _demo("ice_cream_kiosk_daily_residuals"))
+    assert page.inner_text("#verdict").startswith("Not white noise")
+    outside = page.locator("#acf-chart rect.spike.outside")
+    lags = {int(outside.nth(i).get_attribute("data-lag")) for i in range(outside.count())}
+    assert {7, 14} <= lags
+    assert "seasonal" in page.inner_text("#advice").lower()
+    page.screenshot(path=str(shots / "page-seasonal.png"), full_page=True)
+
+
+def test_dropped_csv_with_semicolons_and_decimal_commas_is_read_with_its_timestamps(page, live_server, shots):
+    page.goto(live_server + "/")
+    page.set_input_files("#csv-file", str(DEMO / "cold_store_hourly_temperature.csv"))
+    page.wait_for_selector("#csv-columns:not([hidden])")
+    assert page.input_value("#csv-value-column") == "1"  # temperatur_c, not the time or door columns
+    assert page.input_value("#csv-time-column") == "0"
+    assert "decimal commas" in page.inner_text("#csv-status")
+    assert page.input_value("#values").split("\n")[0] == "-18.49"  # the first reading, "-18,49" in the file
+    page.click("#submit")
+    page.wait_for_selector("#result:not([hidden])")
+    facts = page.inner_text("#facts")
+    assert "n = 168" in facts and "period 24 (from timestamps)" in facts
+    page.screenshot(path=str(shots / "page-csv.png"), full_page=True)
+
+
+def test_bad_input_from_the_service_shows_its_problem_detail(page, live_server, shots):
+    page.goto(live_server + "/")
+    page.fill("#values", "5\n5\n5\n5\n5\n5")
+    page.click("#submit")
+    alert = page.locator("#problem[role=alert]")
+    alert.wait_for(state="visible")
+    assert "constant" in alert.inner_text()  # the service's 422 detail, pointing at the values
+    assert page.locator("#result").is_hidden()
+    page.screenshot(path=str(shots / "page-error.png"), full_page=True)
+
+
+def test_text_that_is_not_a_number_is_named_before_anything_is_sent(page, live_server):
+    page.goto(live_server + "/")
+    sent = []
+    page.on("request", lambda r: sent.append(r.url) if r.method == "POST" else None)
+    page.fill("#values", "1.5\n2.25\nabc\n3")
+    page.click("#submit")
+    page.locator("#problem").wait_for(state="visible")
+    assert 'Value 3 ("abc") is not a number' in page.inner_text("#problem")
+    assert sent == []
+
+
+def test_keyboard_alone_can_fill_the_form_and_submit(page, live_server):
+    page.goto(live_server + "/")
+    unlabelled = page.evaluate("""() => [...document.querySelectorAll('input, select, textarea')]
+        .filter(e => !e.labels || e.labels.length === 0).map(e => e.id)""")
+    assert unlabelled == []
+    page.keyboard.press("Tab")  # the skip link
+    page.keyboard.press("Tab")
+    assert page.evaluate("document.activeElement.id") == "values"
+    page.keyboard.type("\n".join(str(v) for v in _demo("farm_shop_short_monthly_residuals")["values"]))
+    for _ in range(12):  # tab on to the submit button
+        page.keyboard.press("Tab")
+        if page.evaluate("document.activeElement.id") == "submit":
+            break
+    assert page.evaluate("document.activeElement.id") == "submit"
+    page.keyboard.press("Enter")
+    page.wait_for_selector("#result:not([hidden])")
+    assert page.evaluate("document.activeElement.id") == "result"  # focus moves to the result
+    assert "n = 24" in page.inner_text("#facts")
+
+
+@contextmanager
+def portal(target: dict):
+    """A stand-in portal on its own loopback origin (another port); its page frames ``target["src"]``,
+    read at request time so the portal can be started before the service it frames."""
+
+    class Handler(BaseHTTPRequestHandler):
+        def do_GET(self):
+            html = (f'<!doctype html><title>portal</title><iframe id="f" src="{target["src"]}" width="900" '
+                    'height="600"></iframe>').encode()
+            self.send_response(200)
+            self.send_header("Content-Type", "text/html; charset=utf-8")
+            self.send_header("Content-Length", str(len(html)))
+            self.end_headers()
+            self.wfile.write(html)
+
+        def log_message(self, *args):
+            pass
+
+    server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        yield f"http://127.0.0.1:{server.server_address[1]}"
+    finally:
+        server.shutdown()
+        server.server_close()
+        thread.join(timeout=10)
+
+
+def test_page_refuses_to_be_framed_by_an_origin_not_allowed(browser, live_server):
+    context = browser.new_context()
+    page = context.new_page()
+    with portal({"src": live_server + "/"}) as origin:
+        page.goto(origin + "/reports")
+        with pytest.raises(Exception, match="Timeout"):
+            page.frame_locator("#f").locator("#series-form").wait_for(state="attached", timeout=3000)
+        assert page.frames[1].url.startswith("chrome-error:")  # refused by the default frame-ancestors 'self'
+    context.close()
+
+
+def test_page_can_be_framed_by_an_allowed_portal_and_sends_the_token(browser, tmp_path):
+    target: dict = {}
+    context = browser.new_context()
+    page = context.new_page()
+    with portal(target) as origin:
+        env = {"LAGSIGHT_FRAME_ANCESTORS": f"'self' {origin}", "LAGSIGHT_AUTH_TOKENS": "portal-secret-1"}
+        with gunicorn(tmp_path / "framed.log", workers=1, env=env) as base:
+            target["src"] = base + "/"
+            page.goto(origin + "/reports")
+            frame = page.frame_locator("#f")
+            frame.locator("#series-form").wait_for(state="attached", timeout=10000)
+            frame.locator("#values").fill("1\n3\n2\n5\n4\n6\n5\n8\n7\n9\n8\n11")
+            frame.locator("#submit").click()  # this deployment requires a token: the 401 is shown
+            frame.locator("#problem").wait_for(state="visible", timeout=10000)
+            assert "bearer token" in frame.locator("#problem").inner_text().lower()
+            frame.locator("details.access summary").click()
+            frame.locator("#token").fill("portal-secret-1")
+            frame.locator("#submit").click()
+            frame.locator("#result:not([hidden])").wait_for(timeout=10000)
+            assert frame.locator("#acf-chart svg rect.spike").count() >= 1
+    context.close()
