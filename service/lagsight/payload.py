@@ -66,7 +66,7 @@ def read_json_object(request: Request) -> dict:
     if not is_json(request):
         raise Problem(
             "unsupported-media-type",
-            f"Send the body as application/json (got {request.mimetype or 'no Content-Type'}).",
+            f"Send the body as application/json, or text/csv on /v1/diagnostics (got {request.mimetype or 'no Content-Type'}).",
         )
     body = read_body(request)
     if not body.strip():

@@ -44,13 +44,19 @@ def pointer(*tokens) -> str:
 class FieldError:
     pointer: str
     detail: str
+    line: int | None = None  # 1-based line of a text/csv body, when the error is in one
+    column: int | None = None  # 1-based field number on that line
 
     def as_dict(self) -> dict:
-        return {"pointer": self.pointer, "detail": self.detail}
+        out = {"pointer": self.pointer, "detail": self.detail}
+        if self.line is not None:
+            out["line"] = self.line
+            out["column"] = self.column
+        return out
 
     def under(self, prefix: str) -> "FieldError":
         """The same error, its pointer moved below ``prefix`` (for batch items)."""
-        return FieldError(prefix + self.pointer, self.detail)
+        return FieldError(prefix + self.pointer, self.detail, self.line, self.column)
 
 
 @dataclass

@@ -14,6 +14,7 @@ import math
 
 import numpy as np
 
+from .charts import chart_data
 from .engine.analysis import GroupAnalysis
 from .series import PreparedSeries
 
@@ -122,6 +123,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "missing": _missing(s, analysis, row),
             "transform": s.transform,
         })
+        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1])
     return reports
 
 

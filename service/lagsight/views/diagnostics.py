@@ -1,18 +1,28 @@
-"""POST /v1/diagnostics: the single-series diagnosis."""
+"""GET or POST /v1/diagnostics: the single-series diagnosis, as JSON, CSV, SVG or PNG.
+
+Bodies: application/json (the request schema) or text/csv (csv_input.py, with the
+options as query parameters). GET takes the series from the query string
+(``values=1.2,3.4,,5``; an empty item is missing) for short series and image links.
+The response format is ``format`` if given, else the best match of ``Accept``.
+"""
 from __future__ import annotations
 
-from flask import Blueprint, current_app, request
+from flask import Blueprint, Response, current_app, request
 from marshmallow import Schema, ValidationError
 
+from .. import csv_input, options, query, vega_lite
 from ..payload import read_json_object
 from ..pipeline import plan_for, run
 from ..problems import Problem, flatten_messages
 from ..schema import DiagnosticsRequest
 from ..serialisation import json_response
+from ..serialisation_csv import correlogram_table
 from ..series import prepare
 
 bp = Blueprint("diagnostics", __name__)
 _SCHEMA = DiagnosticsRequest()
+CSV_TYPES = ("text/csv", "application/csv")
+_ANALYSIS = (*query.ANALYSIS_PARAMS, *query.TRANSFORM_PARAMS)
 
 
 def load(schema: Schema, body: dict) -> dict:
@@ -24,11 +34,87 @@ def load(schema: Schema, body: dict) -> dict:
         raise Problem("invalid-content", f"{len(errors)} field(s) are invalid; see errors.", errors) from None
 
 
-@bp.post("/v1/diagnostics")
+def _negotiate(requested: str | None) -> str:
+    if requested is not None:
+        return requested
+    accept = request.accept_mimetypes
+    if not accept:
+        return options.DEFAULT_FORMAT
+    media = accept.best_match(list(options.FORMATS.values()) + ["application/problem+json"])
+    if media is None:
+        raise Problem("not-acceptable", f"Cannot answer in {request.headers.get('Accept')!r}; this route answers "
+                                        f"{', '.join(options.FORMATS.values())} (or choose with format=).")
+    return next((k for k, v in options.FORMATS.items() if v == media), options.DEFAULT_FORMAT)
+
+
+def _from_query(args) -> dict:
+    body = query.analysis_fields(args)
+    if "values" in args:
+        body["values"] = [None if v.strip().lower() in ("", "null") else _number(v) for v in args["values"].split(",")]
+    if "timestamps" in args:
+        body["timestamps"] = [s.strip() for s in args["timestamps"].split(",")]
+    return body
+
+
+def _number(text: str):
+    try:
+        return float(text)
+    except ValueError:
+        return text  # the schema points at it
+
+
+def _with_lines(problem: Problem, raw: dict) -> Problem:
+    """Add the CSV line and column to errors that point at a value or timestamp of a CSV body."""
+    for prefix, key in (("/timestamps/", "_stamp"), ("/values/", "_value")):
+        lines, column = raw.get(key + "_lines"), raw.get(key + "_column")
+        if not lines:
+            continue
+        for e in problem.errors:
+            index = e.pointer[len(prefix):]
+            if e.pointer.startswith(prefix) and index.isdigit() and int(index) < len(lines) and e.line is None:
+                e.line, e.column = lines[int(index)], column
+                e.detail = f"Line {e.line}, column {column}: {e.detail}"
+    return problem
+
+
+def _read_request() -> dict:
+    args = request.args
+    if request.method == "GET":
+        query.check_known(args, (*query.OUTPUT_PARAMS, *_ANALYSIS, "values", "timestamps"))
+        return _from_query(args)
+    if (request.mimetype or "").lower() in CSV_TYPES:
+        query.check_known(args, (*query.OUTPUT_PARAMS, *query.CSV_PARAMS, *_ANALYSIS))
+        raw = csv_input.read_series(request.get_data(cache=True), args)
+        fields = {k: v for k, v in raw.items() if not k.startswith("_")}
+        return {**fields, **query.analysis_fields(args), "_raw": raw}
+    query.check_known(args, query.OUTPUT_PARAMS)
+    return read_json_object(request)
+
+
+@bp.route("/v1/diagnostics", methods=["GET", "POST"])
 def diagnose():
-    """Diagnose one series and answer with its report."""
-    data = load(_SCHEMA, read_json_object(request))
+    """Diagnose one series and answer with its report (JSON), its correlogram table (CSV) or a chart."""
+    out = query.output_options(request.args)
+    fmt = _negotiate(out["format"])
+    body = _read_request()
+    raw = body.pop("_raw", {})
     cfg = current_app.config
-    series = prepare(data, cfg["MAX_POINTS"])
-    plan = plan_for(series, data, cfg["MAX_LAG"])
-    return json_response(run([(series, plan)])[0])
+    try:
+        data = load(_SCHEMA, body)
+        series = prepare(data, cfg["MAX_POINTS"])
+        plan = plan_for(series, data, cfg["MAX_LAG"])
+    except Problem as problem:
+        raise _with_lines(problem, raw) from None
+    report = run([(series, plan)])[0]
+    if fmt == "csv":
+        return Response(correlogram_table(report), mimetype="text/csv",
+                        headers={"Content-Disposition": 'inline; filename="lagsight-correlogram.csv"'})
+    if fmt in ("svg", "png"):
+        from ..render import render
+
+        return Response(render(report, out["chart"], fmt), mimetype=options.FORMATS[fmt])
+    if out["vega_lite"]:
+        vega_lite.attach(report["charts"], report["name"])
+    return json_response(report)
+
+

@@ -1,0 +1,230 @@
+"""text/csv bodies: what spreadsheets and databases export, read into the fields of one series.
+
+Dialects read (query parameters, each optional)
+-----------------------------------------------
+- ``delimiter``: ``,`` ``;`` or a tab (also spelt ``comma``, ``semicolon``, ``tab``).
+  By default the first line decides: a tab if it has one, else a semicolon, else a comma.
+- ``decimal``: ``.`` or ``,``. By default a decimal comma is assumed when the delimiter
+  is not a comma and the value cells use commas and no points.
+- ``header``: ``true`` or ``false``. By default the first line is a header when none of
+  its cells is a number or an ISO 8601 date.
+- ``column``: the value column, by header name or 0-based index. By default the only
+  column other than the time column.
+- ``time_column``: the timestamp column, by name or 0-based index, or ``none``. By default
+  the first column when there are two or more and its first cell is an ISO 8601 date.
+- UTF-8 with or without a byte-order mark; LF or CRLF line ends; fields quoted with ``"``.
+- Empty cells and ``NA``, ``N/A``, ``NaN``, ``null``, ``None``, ``#N/A``, ``-`` (any case)
+  are missing values. Blank lines at the end are ignored.
+
+A file that cannot be read as a table (not UTF-8, a NUL byte, an unclosed quote, a row
+too short for the chosen columns) is a 400 ``malformed-csv``; a cell that is not a number
+or a date is a 422 pointing at ``/values/<i>`` or ``/timestamps/<i>``. Both give the
+1-based line and column (field number) in ``errors``.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import math
+import re
+
+from werkzeug.datastructures import MultiDict
+
+from . import options
+from .problems import FieldError, Problem
+
+_ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}")
+_DECIMAL_COMMA = re.compile(r"^[+-]?\d*,\d+$|^[+-]?\d+,?$")
+_MAX_LISTED = 10
+csv.field_size_limit(1 << 20)
+
+
+def _malformed(detail: str, line: int | None = None, column: int | None = None) -> Problem:
+    where = f"Line {line}" + (f", column {column}" if column else "") + ": " if line else ""
+    return Problem("malformed-csv", where + detail, [FieldError("", where + detail, line, column)])
+
+
+def _decode(body: bytes) -> str:
+    try:
+        text = body.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        line = body.count(b"\n", 0, err.start) + 1
+        column = err.start - (body.rfind(b"\n", 0, err.start) + 1) + 1
+        raise _malformed(f"byte 0x{body[err.start]:02x} is not UTF-8 (character {column} of the line); "
+                         "save the file as UTF-8.", line) from None
+    nul = text.find("\0")
+    if nul >= 0:
+        raise _malformed("the file contains a NUL character; is it a spreadsheet's binary format rather than CSV?",
+                         text.count("\n", 0, nul) + 1)
+    if not text.strip():
+        raise _malformed("The body is empty; send a CSV table with at least a value column.")
+    return text
+
+
+def _delimiter(args: MultiDict, text: str) -> str:
+    given = args.get("delimiter")
+    if given is not None:
+        chosen = options.CSV_DELIMITERS.get(given.lower(), given)
+        if chosen not in options.CSV_DELIMITERS.values():
+            raise Problem("invalid-content", "Unknown delimiter.", [FieldError(
+                "/delimiter", f"Must be ',', ';' or a tab (or comma, semicolon, tab), got {given!r}.")])
+        return chosen
+    first = text.lstrip("\r\n").split("\n", 1)[0]
+    for candidate in ("\t", ";", ","):
+        if candidate in first:
+            return candidate
+    return ","
+
+
+def _rows(text: str, delimiter: str) -> list[tuple[int, list[str]]]:
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"', strict=True)
+    rows, line = [], 1
+    try:
+        for row in reader:
+            rows.append((line, row))
+            line = reader.line_num + 1
+    except csv.Error as err:
+        raise _malformed(f"{err}; check the quotes on this line.", line) from None
+    while rows and not any(cell.strip() for cell in rows[-1][1]):
+        rows.pop()
+    return rows
+
+
+def _is_number(cell: str) -> bool:
+    try:
+        float(cell.replace(",", "."))
+        return True
+    except ValueError:
+        return False
+
+
+def _pick(spec: str | None, header: list[str] | None, width: int, param: str) -> int | None:
+    if spec is None:
+        return None
+    if header is not None:
+        names = [h.strip() for h in header]
+        if spec in names:
+            return names.index(spec)
+        folded = [h.casefold() for h in names]
+        if spec.strip().casefold() in folded:
+            return folded.index(spec.strip().casefold())
+    if spec.strip().isdigit() and int(spec) < width:
+        return int(spec)
+    listing = ", ".join(repr(h) for h in header) if header is not None else f"indexes 0 to {width - 1}"
+    raise Problem("invalid-content", f"No column {spec!r} in the file.", [FieldError(
+        f"/{param}", f"No column {spec!r}: the file has {width} column(s) ({listing}); give a name or a 0-based index.")])
+
+
+def _flag(args: MultiDict, name: str) -> bool | None:
+    raw = args.get(name)
+    if raw is None or raw.lower() == "auto":
+        return None
+    if raw.lower() in ("true", "false"):
+        return raw.lower() == "true"
+    raise Problem("invalid-content", f"Invalid {name}.", [FieldError(f"/{name}", "Must be true, false or auto.")])
+
+
+def read_series(body: bytes, args: MultiDict) -> dict:
+    """Read a CSV body into ``values`` (floats, None for missing) and ``timestamps`` (or None)."""
+    text = _decode(body)
+    delimiter = _delimiter(args, text)
+    rows = _rows(text, delimiter)
+    header_flag = _flag(args, "header")
+    first = rows[0][1] if rows else []
+    if header_flag is None:
+        header_flag = bool(first) and not any(_is_number(c.strip()) or _ISO_DATE.match(c.strip()) for c in first)
+    header = [c.strip() for c in first] if header_flag else None
+    data = rows[1:] if header_flag else rows
+    width = len(header) if header is not None else max((len(r) for _, r in data), default=1)
+    time_spec = args.get("time_column")
+    if time_spec is not None and time_spec.strip().lower() == "none":
+        tcol = None
+    elif time_spec is not None:
+        tcol = _pick(time_spec, header, width, "time_column")
+    else:
+        sample = next((r for _, r in data if r), [])
+        tcol = 0 if width >= 2 and sample and _ISO_DATE.match(sample[0].strip()) else None
+    vcol = _pick(args.get("column"), header, width, "column")
+    if vcol is None:
+        others = [i for i in range(width) if i != tcol]
+        if len(others) != 1:
+            names = ", ".join(repr(h) for h in header) if header is not None else f"{width} columns"
+            raise Problem("invalid-content", "Choose the value column.", [FieldError(
+                "/column", f"The file has {width} columns ({names}); choose the value column with column=<name or "
+                           "0-based index>.")])
+        vcol = others[0]
+    if vcol == tcol:
+        raise Problem("invalid-content", "The value and time columns are the same.",
+                      [FieldError("/column", f"column and time_column name the same column ({vcol}).")])
+    need = max(vcol, tcol if tcol is not None else 0) + 1
+    cells, stamps = [], [] if tcol is not None else None
+    for line, row in data:
+        if not row and width == 1:
+            row = [""]
+        if len(row) < need:
+            raise _malformed(f"the row has {len(row)} field(s) but column {need} is needed"
+                             + (f" (the header has {width})" if header is not None else "")
+                             + f"; is the delimiter {delimiter!r} right?", line)
+        if header is not None and len(row) > width and any(c.strip() for c in row[width:]):
+            raise _malformed(f"the row has {len(row)} fields but the header has {width}; a decimal comma in a "
+                             "comma-separated file must be quoted (or use ';' between fields).", line, width + 1)
+        cells.append((line, row[vcol].strip()))
+        if stamps is not None:
+            stamps.append((line, row[tcol].strip()))
+    decimal = _decimal(args, delimiter, [c for _, c in cells])
+    values = _numbers(cells, decimal, vcol + 1)
+    out = {"values": values, "_value_lines": [line for line, _ in cells], "_value_column": vcol + 1}
+    if stamps is not None:
+        empty = [(i, line) for i, (line, s) in enumerate(stamps) if not s]
+        if empty:
+            i, line = empty[0]
+            raise Problem("invalid-content", "A timestamp is empty.", [FieldError(
+                f"/timestamps/{i}", f"Line {line}, column {tcol + 1}: the timestamp is empty.", line, tcol + 1)])
+        out["timestamps"] = [s for _, s in stamps]
+        out["_stamp_lines"] = [line for line, _ in stamps]
+        out["_stamp_column"] = tcol + 1
+    if header is not None and "name" not in args:
+        out["name"] = header[vcol][:200] or None
+    return out
+
+
+def _decimal(args: MultiDict, delimiter: str, cells: list[str]) -> str:
+    given = args.get("decimal")
+    if given is not None:
+        chosen = options.CSV_DECIMALS.get(given.lower(), given)
+        if chosen not in options.CSV_DECIMALS.values():
+            raise Problem("invalid-content", "Unknown decimal mark.", [FieldError(
+                "/decimal", f"Must be '.' or ',' (or point, comma), got {given!r}.")])
+        return chosen
+    if delimiter == ",":
+        return "."
+    sample = [c for c in cells if c and c.lower() not in options.CSV_MISSING_TOKENS][:1000]
+    commas = any("," in c for c in sample)
+    points = any("." in c for c in sample)
+    return "," if commas and not points and all(_DECIMAL_COMMA.match(c) for c in sample) else "."
+
+
+def _numbers(cells: list[tuple[int, str]], decimal: str, column: int) -> list:
+    missing = options.CSV_MISSING_TOKENS
+    values, errors = [], []
+    for i, (line, cell) in enumerate(cells):
+        if cell.lower() in missing:
+            values.append(None)
+            continue
+        text = cell.replace(",", ".") if decimal == "," and "." not in cell else cell
+        try:
+            number = float(text) if (decimal == "." and "," not in cell) or decimal == "," else None
+        except ValueError:
+            number = None
+        if number is None or not math.isfinite(number):
+            if len(errors) < _MAX_LISTED:
+                hint = " (decimal mark is ',')" if decimal == "," else ""
+                errors.append(FieldError(f"/values/{i}", f"Line {line}, column {column}: {cell[:40]!r} is not a "
+                                                         f"finite number{hint}.", line, column))
+            values.append(None)
+            continue
+        values.append(number)
+    if errors:
+        raise Problem("invalid-content", f"{len(errors)} cell(s) of the value column are not numbers; see errors.",
+                      errors)
+    return values
