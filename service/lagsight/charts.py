@@ -33,7 +33,7 @@ def zones(values: list, upper: list, confidence: float) -> list:
             out.append(None)
         elif abs(v) <= u:
             out.append("inside")
-        elif abs(v) <= options.FAR_OUTSIDE_SE * u / z:
+        elif z > 0 and abs(v) <= options.FAR_OUTSIDE_SE * u / z:  # z == 0: confidence below float resolution
             out.append("marginal")
         else:
             out.append("far")
