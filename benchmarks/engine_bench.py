@@ -23,17 +23,25 @@ def prepared(x: np.ndarray, period: int | None) -> list[PreparedSeries]:
             for i, row in enumerate(x)]
 
 
+def _limits(max_lag: int) -> dict:
+    return {"MAX_LAG": max_lag, "MAX_REPLICATES": options.DEFAULT_LIMITS["max_replicates"],
+            "MAX_SIMULATED_VALUES": options.DEFAULT_LIMITS["max_simulated_values"]}
+
+
+_OPTS = {"confidence": options.DEFAULT_CONFIDENCE, "model_df": 0}
+
+
 def full_reports(x: np.ndarray, max_lag: int, period: int | None) -> list[dict]:
     """What the service does after validation: plan, engine, reports, interpretation."""
-    opts = {"max_lag": max_lag, "confidence": options.DEFAULT_CONFIDENCE, "model_df": 0}
+    opts = {**_OPTS, "max_lag": max_lag}
     series = prepared(x, period)
-    return run([(s, plan_for(s, opts, max_lag)) for s in series])
+    return run([(s, plan_for(s, opts, _limits(max_lag))) for s in series])
 
 
 def engine_only(x: np.ndarray, max_lag: int, period: int | None):
-    n = x.shape[1]
-    lags = options.portmanteau_lags(n, max_lag, period, 0)
-    return analyse(x, max_lag, options.DEFAULT_CONFIDENCE, 0, lags)
+    """The engine pass alone, with the service's default analyses (every test, bands, periodogram)."""
+    spec = plan_for(prepared(x[:1], period)[0], {**_OPTS, "max_lag": max_lag}, _limits(max_lag)).spec
+    return analyse(x, spec)
 
 
 def numpy_floor(x: np.ndarray, max_lag: int, lags: list[int]):

@@ -300,3 +300,43 @@ def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, 
     assert lines[-1]["kind"] == "error" and lines[-1]["error"]["status"] == 500
     assert 0 < len(lines) - 1 < 20 and "secret" not in r.get_data(as_text=True)
     assert any("streaming" in rec.message for rec in caplog.records)
+
+
+DIRECT_ITEMS = [
+    {"id": "a", "values": [1, 2.5, 3, 4]},
+    {"id": 7, "values": [1, 2, 3, 4], "name": "kiosk", "period": 2, "max_lag": None},
+    {"id": "b", "values": [1, 2, 3, 4], "name": None, "period": None, "max_lag": 2, "confidence": 0.9, "model_df": 1},
+    {"id": "c", "values": [1, None, 3, 4]},
+]
+FULL_ONLY_ITEMS = [
+    {"id": "t", "values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02", "2024-01-03"]},
+    {"id": "u", "values": [1, 2, 3], "colour": "red"},
+    {"id": "v", "values": [1, 2, "3"]},
+    {"id": True, "values": [1, 2, 3]},
+    {"id": "w", "values": [1, 2, 3], "period": 1},
+    {"values": [1, 2, 3]},
+]
+
+
+@pytest.mark.parametrize("item", DIRECT_ITEMS + FULL_ONLY_ITEMS)
+def test_direct_item_load_agrees_with_the_schema(item):
+    from marshmallow import ValidationError
+
+    from lagsight.schema import BatchSeries
+    from lagsight.views.batch import load_item
+
+    try:
+        expected = BatchSeries().load(item)
+    except ValidationError as err:
+        with pytest.raises(ValidationError) as got:
+            load_item(item)
+        assert got.value.messages == err.messages
+        return
+    got = load_item(item)
+    assert set(got) == set(expected)
+    for key, value in expected.items():
+        if isinstance(value, np.ndarray):
+            np.testing.assert_array_equal(got[key], value)
+            assert got[key].dtype == value.dtype
+        else:
+            assert got[key] == value and type(got[key]) is type(value), key

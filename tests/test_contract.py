@@ -73,6 +73,13 @@ def test_request_schema_agrees_with_spec(schema_cls, component):
             assert set(types) == {"string", "integer"} and prop["maxLength"] == options.MAX_ID_LENGTH, name
         if isinstance(field, NumberArray):
             assert prop["type"] == "array" and set(prop["items"]["type"]) == {"number", "null"}
+        choices = next((v.choices for v in field.validators if isinstance(v, validate.OneOf)), None)
+        if choices is not None:
+            assert [c for c in prop["enum"] if c is not None] == list(choices), name
+        inner = getattr(field, "inner", None)
+        inner_choices = next((v.choices for v in getattr(inner, "validators", []) if isinstance(v, validate.OneOf)), None)
+        if inner_choices is not None:
+            assert list(prop["items"]["enum"]) == list(inner_choices), name
         rng = _range(field)
         if rng is not None:
             lo_key = "minimum" if rng.min_inclusive else "exclusiveMinimum"
@@ -157,3 +164,35 @@ def test_reports_match_spec_and_contain_no_nan(client, n, period, model_df):
                 walk(w)
 
     walk(body)
+
+
+def test_query_parameters_agree_with_the_spec():
+    """The query parameters the diagnostics route takes are the ones documented, with the same enums."""
+    from lagsight import query
+
+    paths = spec()["paths"]["/v1/diagnostics"]
+    params = spec()["components"]["parameters"]
+
+    def names(op):
+        return {params[p["$ref"].rsplit("/", 1)[1]]["name"] if "$ref" in p else p["name"] for p in op["parameters"]}
+
+    analysis = set(query.ANALYSIS_PARAMS) | set(query.TRANSFORM_PARAMS)
+    assert names(paths["post"]) == set(query.OUTPUT_PARAMS) | set(query.CSV_PARAMS) | analysis
+    assert names(paths["get"]) == set(query.OUTPUT_PARAMS) | analysis | {"values", "timestamps"}
+    assert params["format"]["schema"]["enum"] == list(options.FORMATS)
+    assert params["chart"]["schema"]["enum"] == list(options.CHART_KINDS)
+    assert params["chart"]["schema"]["default"] == options.DEFAULT_CHART
+    assert params["missing"]["schema"]["enum"] == list(options.MISSING_METHODS)
+    assert params["band"]["schema"]["enum"] == list(options.BAND_KINDS)
+    assert params["p_values"]["schema"]["enum"] == list(options.P_VALUE_METHODS)
+    assert params["replicates"]["schema"]["default"] == options.DEFAULT_REPLICATES
+    assert set(params["delimiter"]["schema"]["enum"]) == set(options.CSV_DELIMITERS) | set(
+        options.CSV_DELIMITERS.values())
+    assert set(params["decimal"]["schema"]["enum"]) == set(options.CSV_DECIMALS) | set(options.CSV_DECIMALS.values())
+    transform = spec()["components"]["schemas"]["Transform"]["properties"]
+    for name in query.TRANSFORM_PARAMS:
+        for bound in ("minimum", "maximum"):
+            if bound in transform[name]:
+                assert params[name]["schema"][bound] == transform[name][bound], name
+    media = set(spec()["components"]["responses"]["Diagnosis"]["content"])
+    assert media == set(options.FORMATS.values())

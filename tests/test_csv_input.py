@@ -170,3 +170,31 @@ def test_malformed_csv_gets_a_clear_4xx_with_line_and_column(client, raw, query,
 def test_other_text_media_types_are_415(client):
     r = client.post(URL, data=b"1\n2\n3\n", content_type="text/plain")
     assert r.status_code == 415 and "text/csv" in r.get_json()["detail"]
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+_CELLS = st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(repr), st.integers().map(str),
+                   st.sampled_from(["", "NA", "x", "2021-01-01", '"', "1,5", "-", " 3 "]), st.text(max_size=6))
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.lists(_CELLS, min_size=1, max_size=4), max_size=12),
+       delimiter=st.sampled_from([",", ";", "\t"]), newline=st.sampled_from(["\n", "\r\n"]),
+       query=st.dictionaries(st.sampled_from(["column", "time_column", "header", "decimal", "missing"]),
+                             st.sampled_from(["0", "1", "a", "true", "false", ",", "pairwise", "none"]), max_size=3))
+def test_any_table_gets_a_report_or_a_clear_4xx(client, rows, delimiter, newline, query):
+    """Fuzzing (hypothesis): whatever the table, the answer is 200 or a 400/422 problem, never a 500."""
+    text = newline.join(delimiter.join(r) for r in rows)
+    r = _post(client, text, **query)
+    assert r.status_code in (200, 400, 422), (r.status_code, r.get_data(as_text=True)[:300])
+    if r.status_code != 200:
+        assert r.mimetype == "application/problem+json" and r.get_json()["errors"]
+
+
+@settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.binary(max_size=200))
+def test_any_bytes_get_a_report_or_a_clear_4xx(client, data):
+    r = client.post(URL, data=data, content_type="text/csv")
+    assert r.status_code in (200, 400, 422), (r.status_code, r.get_data(as_text=True)[:300])

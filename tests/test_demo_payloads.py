@@ -22,7 +22,6 @@ FEATURES = {"batch", "missing", "csv", "mcleod_li"}
 #: Features a payload may need that are not in the service yet -> why the test is expected to fail.
 #: Remove an entry when the feature lands; the strict xfail turns into a failure until you do.
 PENDING = {
-    "mcleod_li": "the McLeod-Li test is not in the report yet",
 }
 
 

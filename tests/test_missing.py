@@ -8,7 +8,7 @@ import statsmodels.api as sm
 from statsmodels.tsa.stattools import acf as sm_acf
 from statsmodels.tsa.stattools import acovf
 
-from lagsight.engine.analysis import analyse
+from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.masked import masked_acf, pair_counts
 
 from .spec_tools import assert_valid
@@ -59,9 +59,10 @@ def test_masked_acf_with_nothing_missing_is_the_ordinary_acf():
     # statsmodels.tsa.stattools.acf(x, nlags=30, fft=False): the biased (divide-by-n) ACF.
     np.testing.assert_allclose(r[0], sm_acf(x, nlags=30, fft=False)[1:], rtol=0, atol=1e-13)
     assert (n_eff == x.size).all()
-    full = analyse(x[None], 30, 0.95, 0, [10, 30])
-    masked = analyse(x[None], 30, 0.95, 0, [10, 30], mask=np.ones((1, x.size), bool))
-    np.testing.assert_allclose(masked.acf_upper, full.acf_upper, rtol=1e-14)
+    spec = Spec(max_lag=30, confidence=0.95, model_df=0, test_lags=(10, 30), short_lag=10, period=None)
+    full = analyse(x[None], spec)
+    masked = analyse(x[None], spec, mask=np.ones((1, x.size), bool))
+    np.testing.assert_allclose(masked.acf_band.upper, full.acf_band.upper, rtol=1e-14)
     for a, b in zip(masked.tests, full.tests):
         np.testing.assert_allclose(a.statistic, b.statistic, rtol=1e-12)
 
@@ -85,16 +86,19 @@ def test_bands_and_ljung_box_keep_their_size_with_missing_values():
     x = rng.standard_normal((m, n))
     mask = rng.random((m, n)) > 0.3
     x[~mask] = np.nan
-    res = analyse(x, K, 0.95, 0, [K], mask=mask)
-    z = res.acf / (res.acf_upper / 1.959963984540054)
+    spec = Spec(max_lag=K, confidence=0.95, model_df=0, test_lags=(K,), short_lag=K, period=None,
+                tests=("ljung_box",))
+    res = analyse(x, spec, mask=mask)
+    upper = res.acf_band.upper
+    z = res.acf / (upper / 1.959963984540054)
     # Var of the standardised r_k is near 1 (slightly below, as for complete data: (n - k)/n).
     assert 0.88 < z.var() < 1.05
-    outside = (np.abs(res.acf) > res.acf_upper).mean()
+    outside = (np.abs(res.acf) > upper).mean()
     assert 0.03 < outside < 0.07  # nominal 5%
     p = res.tests[0].p_value[:, 0]
     assert 0.03 < (p < 0.05).mean() < 0.08
     # The naive band z / sqrt(n) would be far too narrow: check the effective size is used.
-    assert (res.acf_upper > 1.96 / np.sqrt(n) * 1.15).all()
+    assert (upper > 1.96 / np.sqrt(n) * 1.15).all()
 
 
 URL_CASES = [

@@ -110,7 +110,7 @@ def test_irregular_stamps_warn_and_imply_no_period(client):
     stamps = ["2024-01-01", "2024-01-02", "2024-01-05", "2024-01-17", "2024-02-01", "2024-02-03"]
     body = client.post(URL, json={"values": [1, 3, 2, 5, 4, 6], "timestamps": stamps}).get_json()
     assert body["frequency"] is None and body["period"] is None
-    assert [w["code"] for w in body["warnings"]] == ["irregular_timestamps"]
+    assert [w["code"] for w in body["warnings"]] == ["irregular_timestamps", "short_series"]
 
 
 GAPPED = [

@@ -89,6 +89,8 @@ SETTINGS: dict[str, Setting] = {
                                 "Most values in one batch request, all series together (413 beyond, before any validation)."),
     "MAX_REPLICATES": Setting("LAGSIGHT_MAX_REPLICATES", options.DEFAULT_LIMITS["max_replicates"], positive_int,
                               "Most Monte Carlo replicates a request may ask for (422 beyond)."),
+    "MAX_SIMULATED_VALUES": Setting("LAGSIGHT_MAX_SIMULATED_VALUES", options.DEFAULT_LIMITS["max_simulated_values"],
+                                    positive_int, "Most Monte Carlo replicates x series length in one request (422 beyond)."),
     # browsers and security
     "CORS_ORIGINS": Setting("LAGSIGHT_CORS_ORIGINS", (), word_list,
                             "Origins allowed to call from a browser (comma-separated, exact match; * for any). "

@@ -1,18 +1,45 @@
-"""Verdict, plain-language sentences, advice and cautions, read off a report.
+"""Verdict, plain-language sentences, advice and cautions, read off a numeric report.
 
-Decision rule (documented in /v1/methods and the README)
----------------------------------------------------------
-Let alpha = 1 - confidence and L the number of Ljung-Box lags that have
-degrees of freedom. The series is judged *not* white noise when any of those
-Ljung-Box p-values is below alpha / L (Bonferroni over the reported lags, so
-the rule's false-alarm rate stays near alpha however many lags are reported).
-When no Ljung-Box lag has degrees of freedom the verdict is ``null``.
-Individual spikes outside the band are described but do not decide alone:
-with K lags about alpha * K of them are expected by chance.
+Decision rule (documented in /v1/methods, the README and the OpenAPI file)
+--------------------------------------------------------------------------
+Let alpha = 1 - confidence. Up to three families of evidence are used, and each
+gets alpha / F, where F is the number of families available (Bonferroni), so
+the chance that an i.i.d. series is called "not white noise" stays at or below
+alpha whatever the number of lags:
+1. portmanteau: the Ljung-Box p-values at the reported lags that have degrees
+   of freedom (Box-Pierce if Ljung-Box was not requested), each compared with
+   alpha / (F L) for L lags;
+2. spikes: the largest |r_k - centre_k| / se_k over lags 1..K, compared with the
+   Sidak-corrected normal quantile for K lags at level alpha / F;
+3. seasonal (when a period is known and reached by max_lag): the largest
+   standardised autocorrelation at the seasonal lags m, 2m, 3m, Sidak-corrected
+   for those lags at level alpha / F.
+The series is judged not white noise when any family rejects; white noise
+(meaning: no evidence against it) when none does and the portmanteau family was
+available; otherwise the verdict is null. Volatility clustering (McLeod-Li at
+level alpha, counted only when no autocorrelation was found, because squares of
+an autocorrelated series are autocorrelated too) and the runs, turning-point and
+cumulative periodogram checks are reported in `verdict.structure` and the
+sentences but do not flip `white_noise`, which is about autocorrelation.
 """
 from __future__ import annotations
 
-from scipy.stats import binom
+import numpy as np
+from scipy.stats import norm
+
+from . import options
+
+MEANINGS = {
+    "ljung_box": "Are the first {lag} autocorrelations jointly larger than white noise would give?",
+    "box_pierce": "The original, less accurate form of the Ljung-Box test of the first {lag} autocorrelations.",
+    "seasonal_ljung_box": "Are the autocorrelations at the seasonal lags jointly larger than white noise would give?",
+    "mcleod_li": "Do large swings cluster in time (autocorrelation of the squared values up to lag {lag})?",
+    "runs": "Do values above and below the median alternate as often as chance would have them?",
+    "turning_points": "Are there as many local peaks and troughs as a random order would give?",
+    "cumulative_periodogram": "Is the spectrum flat, as white noise's is, or does some frequency dominate?",
+    "jarque_bera": "Are skewness and kurtosis those of a normal distribution? (Matters for prediction intervals, "
+                   "not for whiteness.)",
+}
 
 
 def fmt(x: float, digits: int = 3) -> str:
@@ -32,109 +59,352 @@ def _pct(confidence: float) -> str:
     return f"{confidence * 100:g}%"
 
 
+def _lag_list(lags: list[int], most: int = 8) -> str:
+    return ", ".join(str(v) for v in lags[:most]) + (" ..." if len(lags) > most else "")
+
+
+def _tests(report: dict, name: str) -> list[dict]:
+    return [t for t in report["tests"] if t["name"] == name]
+
+
+def _max_standardised(block: dict, lags: list[int]) -> tuple[float, int]:
+    best, where = -1.0, lags[0]
+    for lag in lags:
+        i = lag - 1
+        z = abs(block["values"][i] - block["centre"][i]) / block["standard_error"][i]
+        if z > best:
+            best, where = z, lag
+    return best, where
+
+
+def _sidak_p(z: float, count: int) -> float:
+    """Probability that the largest of `count` independent |N(0,1)| exceeds z."""
+    return float(-np.expm1(count * np.log1p(-2.0 * norm.sf(z))))
+
+
 def verdict(report: dict) -> dict:
-    """The verdict object: white_noise (true/false/null), summary, evidence, confidence."""
+    """The verdict object (see the module docstring for the rule)."""
     alpha = 1.0 - report["confidence"]
-    lb = [t for t in report["tests"] if t["name"] == "ljung_box" and t["p_value"] is not None]
-    if not lb:
-        return {"white_noise": None, "summary": "No judgement: no Ljung-Box lag has degrees of freedom left "
-                "after model_df; raise max_lag or check model_df.", "evidence": [], "confidence": "none"}
-    threshold = alpha / len(lb)
-    rejecting = [t for t in lb if t["p_value"] < threshold]
-    evidence = [
-        {"source": "ljung_box", "lag": t["lag"], "p_value": t["p_value"], "threshold": threshold,
-         "against_white_noise": t["p_value"] < threshold}
-        for t in lb
-    ]
-    if rejecting:
-        worst = min(rejecting, key=lambda t: t["p_value"])
-        strength = "strong" if worst["p_value"] < threshold / 10 else "moderate"
-        summary = (f"Not white noise: autocorrelation remains (Ljung-Box up to lag {worst['lag']}, "
-                   f"{fmt_p(worst['p_value'])}).")
-        return {"white_noise": False, "summary": summary, "evidence": evidence, "confidence": strength}
-    best = min(lb, key=lambda t: t["p_value"])
-    strength = "moderate" if best["p_value"] > 0.2 else "weak"
-    summary = (f"Consistent with white noise: no significant autocorrelation at the lags checked "
-               f"(smallest Ljung-Box {fmt_p(best['p_value'])}).")
-    return {"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength}
+    portmanteau = [t for t in _tests(report, "ljung_box") if t["p_value"] is not None] or \
+                  [t for t in _tests(report, "box_pierce") if t["p_value"] is not None]
+    seasonal_lags = [e["lag"] for e in report["seasonal"]["lags"]]
+    families = 1 + bool(portmanteau) + bool(seasonal_lags)
+    level = alpha / families
+    evidence = []
+    if portmanteau:
+        threshold = level / len(portmanteau)
+        for t in portmanteau:
+            evidence.append({"source": t["name"], "lag": t["lag"], "p_value": t["p_value"], "threshold": threshold,
+                             "against_white_noise": t["p_value"] < threshold})
+    K = report["max_lag"]
+    z, lag = _max_standardised(report["acf"], report["acf"]["lags"])
+    p_spike = _sidak_p(z, K)
+    evidence.append({"source": "largest_spike", "lag": lag, "p_value": p_spike, "threshold": level,
+                     "against_white_noise": p_spike < level})
+    if seasonal_lags:
+        zs, slag = _max_standardised(report["acf"], seasonal_lags)
+        p_seasonal = _sidak_p(zs, len(seasonal_lags))
+        evidence.append({"source": "seasonal_spike", "lag": slag, "p_value": p_seasonal, "threshold": level,
+                         "against_white_noise": p_seasonal < level})
+    against = [e for e in evidence if e["against_white_noise"]]
+    structure = _structure(report, against, alpha)
+    if against:
+        worst = min(against, key=lambda e: e["p_value"] / e["threshold"])
+        strength = "strong" if worst["p_value"] < worst["threshold"] / 10 else "moderate"
+        what = {"ljung_box": f"the Ljung-Box test up to lag {worst['lag']}",
+                "box_pierce": f"the Box-Pierce test up to lag {worst['lag']}",
+                "largest_spike": f"the spike at lag {worst['lag']}",
+                "seasonal_spike": f"the seasonal lag {worst['lag']}"}[worst["source"]]
+        summary = f"Not white noise: autocorrelation remains ({what}, {fmt_p(worst['p_value'])})."
+        return {"white_noise": False, "summary": summary, "evidence": evidence, "confidence": strength,
+                "structure": structure}
+    if not portmanteau:
+        return {"white_noise": None, "summary": "No judgement: no portmanteau lag has degrees of freedom left after "
+                "model_df, and no spike stands out; raise max_lag or check model_df.", "evidence": evidence,
+                "confidence": "none", "structure": structure}
+    smallest = min(e["p_value"] / e["threshold"] * alpha for e in evidence)  # on the scale of alpha
+    strength = "moderate" if smallest > 4 * alpha and report["n"] >= options.SMALL_SAMPLE_N else "weak"
+    best = min(portmanteau, key=lambda t: t["p_value"])
+    label = "Ljung-Box" if best["name"] == "ljung_box" else "Box-Pierce"
+    summary = (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
+               f"{label} {fmt_p(best['p_value'])}).")
+    if "volatility_clustering" in structure:
+        summary = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
+                   "independent noise.")
+    return {"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength,
+            "structure": structure}
+
+
+def _structure(report: dict, against: list[dict], alpha: float) -> list[str]:
+    kinds = []
+    sources = {e["source"] for e in against}
+    if sources & {"ljung_box", "box_pierce", "largest_spike"}:
+        kinds.append("autocorrelation")
+    if "seasonal_spike" in sources:
+        kinds.append("seasonal")
+    if any(t["reject"] for t in _tests(report, "mcleod_li")) and "autocorrelation" not in kinds:
+        # Squares of an autocorrelated series are autocorrelated too; McLeod-Li speaks of
+        # variance only once the linear dependence is gone.
+        kinds.append("volatility_clustering")
+    if any(t["reject"] for t in _tests(report, "runs") + _tests(report, "turning_points")):
+        kinds.append("non_random_order")
+    if any(t["reject"] for t in _tests(report, "cumulative_periodogram")):
+        kinds.append("uneven_spectrum")
+    return kinds
 
 
 def sentences(report: dict) -> list[str]:
     """Plain sentences with the numbers in them; none that the numbers do not support."""
     out = []
-    acf, K, conf = report["acf"], report["max_lag"], report["confidence"]
-    alpha = 1.0 - conf
-    k_out = len(acf["outside"])
-    expected = alpha * K
-    p_chance = float(binom.sf(k_out - 1, K, alpha)) if k_out else 1.0
-    lags = ", ".join(str(v) for v in acf["outside"][:8]) + (" ..." if k_out > 8 else "")
-    line = (f"{k_out} of {K} autocorrelations (lags 1 to {K}) fall outside the {_pct(conf)} band of "
-            f"±{fmt(report['band']['half_width'])}" + (f" (lags {lags})" if k_out else "") +
-            f"; about {fmt(expected, 2)} would be expected by chance if the series were white noise")
-    if k_out:
-        line += f", and {k_out} or more happen by chance with probability {fmt(p_chance, 2)}."
+    ex, K = report["exceedances"], report["max_lag"]
+    band = report["band"]
+    width = f" of ±{fmt(band['half_width'])}" if band["half_width"] is not None else ""
+    label = {"white_noise": "", "small_sample": " small-sample", "bartlett": " Bartlett",
+             "simultaneous": " simultaneous"}[band["kind"]]
+    conf = _pct(report["confidence"])
+    line = (f"{ex['count']} of {K} autocorrelations (lags 1 to {K}) fall outside the {conf}{label} band{width}"
+            + (f" (lags {_lag_list(report['acf']['outside'])})" if ex["count"] else "")
+            + f"; about {fmt(ex['expected'], 2)} would be expected by chance if the series were white noise")
+    if ex["count"]:
+        line += f", and {ex['count']} or more happen by chance with probability {fmt(ex['chance_probability'], 2)}."
     else:
         line += "."
     out.append(line)
-    for t in report["tests"]:
-        if t["name"] != "ljung_box":
-            continue
+    if ex["far"]:
+        out.append(f"Far outside the band (beyond 3 standard errors): lag{'s' if len(ex['far']) > 1 else ''} "
+                   f"{_lag_list(ex['far'])}; chance alone rarely produces such spikes.")
+    if ex["marginal"]:
+        out.append(f"Just outside the band: lag{'s' if len(ex['marginal']) > 1 else ''} {_lag_list(ex['marginal'])}; "
+                   "single marginal spikes like these are often chance.")
+    alpha = 1.0 - report["confidence"]
+    for t in _tests(report, "ljung_box"):
         if t["p_value"] is None:
             out.append(f"The Ljung-Box test up to lag {t['lag']} could not be computed: {t['note']}")
             continue
         verb = "rejects" if t["reject"] else "does not reject"
-        out.append(f"The Ljung-Box test of the first {t['lag']} autocorrelations jointly {verb} white noise "
-                   f"at the {fmt(alpha * 100, 2)}% level (Q = {fmt(t['statistic'])} on {t['df']} degrees of "
-                   f"freedom, {fmt_p(t['p_value'])}).")
-    seasonal = report["seasonal"]
-    for entry in seasonal["lags"]:
+        mc = " (Monte Carlo p-value)" if t["method"] == "monte_carlo" else ""
+        out.append(f"Taken together, the first {t['lag']} autocorrelations: the Ljung-Box test {verb} white noise at "
+                   f"the {fmt(alpha * 100, 2)}% level (Q = {fmt(t['statistic'])} on {t['df']} degrees of freedom, "
+                   f"{fmt_p(t['p_value'])}{mc}).")
+    out.extend(_seasonal_sentences(report))
+    for t in _tests(report, "mcleod_li"):
+        if t["reject"] and "volatility_clustering" in report["verdict"]["structure"]:
+            out.append(f"Large and small values come in clusters: the McLeod-Li test on the squared values rejects "
+                       f"({fmt_p(t['p_value'])}), a sign of changing variance (volatility clustering).")
+        elif t["reject"]:
+            out.append(f"The McLeod-Li test on the squared values also rejects ({fmt_p(t['p_value'])}), but squares of "
+                       "an autocorrelated series are autocorrelated too: check it again on the residuals once the "
+                       "autocorrelation is modelled.")
+    out.extend(_randomness_sentences(report))
+    ur = report["unit_root"]
+    if ur is not None:
+        if ur["p_value"] > alpha:
+            out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller test cannot rule out a unit "
+                       f"root ({fmt_p(ur['p_value'])}): the level of the series wanders.")
+        else:
+            out.append(f"The autocorrelation decays slowly, but the augmented Dickey-Fuller test rejects a unit root "
+                       f"({fmt_p(ur['p_value'])}): strong but stationary persistence.")
+    return out
+
+
+def _seasonal_sentences(report: dict) -> list[str]:
+    out = []
+    s = report["seasonal"]
+    for entry in s["lags"]:
         if entry["outside"]:
-            out.append(f"At the seasonal lag {entry['lag']} (period {seasonal['period']}) the autocorrelation is "
-                       f"{fmt(entry['value'])}, outside the band: a seasonal pattern may remain.")
+            out.append(f"At the seasonal lag {entry['lag']} (period {s['period']}) the autocorrelation is "
+                       f"{fmt(entry['value'])}, outside the band.")
+    for t in _tests(report, "seasonal_ljung_box"):
+        if t["p_value"] is not None:
+            verb = "reject" if t["reject"] else "do not reject"
+            out.append(f"The seasonal lags {', '.join(map(str, t['details']['seasonal_lags']))} taken together "
+                       f"{verb} white noise ({fmt_p(t['p_value'])}).")
+    if s["strength"] and s["strength"]["value"] is not None:
+        out.append(f"Seasonal strength from an STL decomposition is {fmt(s['strength']['value'], 2)} on a 0-to-1 "
+                   "scale.")
+    if s["leftover_likely"] is True:
+        out.append("Leftover seasonality is likely.")
+    elif s["leftover_likely"] is False:
+        out.append("Leftover seasonality is unlikely at this period.")
+    if s["suggested_period"]:
+        out.append(f"No period was given; the autocorrelation and periodogram suggest a cycle of about "
+                   f"{s['suggested_period']} observations (a suggestion to check, not a test result).")
     return out
 
 
-def cautions(report: dict) -> list[str]:
-    """The cautions that always apply, and those this report calls for."""
-    out = [
-        "A test that does not reject is not proof of white noise: it only says this sample gives no strong "
-        "evidence of autocorrelation at the lags checked.",
-        f"With {report['max_lag']} lags, about {fmt((1 - report['confidence']) * report['max_lag'], 2)} "
-        f"autocorrelations are expected outside a {_pct(report['confidence'])} band by chance alone; judge "
-        "single spikes with that in mind.",
-    ]
-    if report["model_df"] == 0:
-        out.append("If these values are residuals of a fitted ARMA model, set model_df to its number of "
-                   "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
-    if report["n"] < 50:
-        out.append(f"The series is short (n = {report['n']}): the bands and chi-square p-values are "
-                   "large-sample approximations and are only rough here.")
+def _randomness_sentences(report: dict) -> list[str]:
+    out, quiet = [], []
+    for t in _tests(report, "runs"):
+        if t["reject"]:
+            few = t["statistic"] < 0
+            out.append(f"The runs test finds {'fewer' if few else 'more'} runs above and below the median than chance "
+                       f"would give ({fmt_p(t['p_value'])}): "
+                       + ("values stay on one side for long stretches." if few else "values alternate too often."))
+        elif t["reject"] is False:
+            quiet.append("runs")
+    for t in _tests(report, "turning_points"):
+        if t["reject"]:
+            few = t["statistic"] < 0
+            out.append(f"There are {'fewer' if few else 'more'} turning points than a random order gives "
+                       f"({fmt_p(t['p_value'])}): the series is {'smoother' if few else 'more jagged'} than noise.")
+        elif t["reject"] is False:
+            quiet.append("turning points")
+    for t in _tests(report, "cumulative_periodogram"):
+        if t["reject"]:
+            out.append(f"The cumulative periodogram leaves its band ({fmt_p(t['p_value'])}): some frequencies carry "
+                       "more variance than white noise's flat spectrum allows.")
+        elif t["reject"] is False:
+            quiet.append("cumulative periodogram")
+    if quiet:
+        out.append(f"The {', '.join(quiet)} check{'s' if len(quiet) > 1 else ''} find{'' if len(quiet) > 1 else 's'} "
+                   "nothing unusual.")
+    for t in _tests(report, "jarque_bera"):
+        if t["reject"]:
+            out.append(f"The values are not normally distributed (Jarque-Bera {fmt_p(t['p_value'])}, skewness "
+                       f"{fmt(t['details']['skewness'], 2)}, kurtosis {fmt(t['details']['kurtosis'], 2)}); this matters "
+                       "for prediction intervals, not for whiteness.")
     return out
+
+
+def cutoff(block: dict, alpha: float) -> int | None:
+    """The lag q after which a correlogram "cuts off", or None.
+
+    q (1 to 3) is the run of lags 1..q outside the band; after it no lag may be far
+    outside (beyond 3 standard errors) and the count of later lags outside must be
+    within chance (binomial probability above alpha). Common practice for reading
+    correlograms (Box, Jenkins, Reinsel and Ljung 2015, section 6.2), made explicit here.
+    """
+    from scipy.stats import binom
+
+    outside, far = set(block["outside"]), set(block["far"])
+    q = 0
+    while q + 1 in outside:
+        q += 1
+    later = len(block["lags"]) - q
+    if not 1 <= q <= 3 or later < 3 or any(lag > q for lag in far):
+        return None
+    extra = sum(1 for lag in outside if lag > q)
+    if extra and binom.sf(extra - 1, later, alpha) <= alpha:
+        return None
+    return q
 
 
 def advice(report: dict) -> list[dict]:
     """Next steps that follow from the pattern, each with its reason."""
     out = []
-    seasonal_hits = [e for e in report["seasonal"]["lags"] if e["outside"]]
-    if seasonal_hits:
-        out.append({"action": "Add a seasonal term or take a seasonal difference at the period "
-                              f"{report['seasonal']['period']}.",
-                    "reason": f"The autocorrelation at seasonal lag {seasonal_hits[0]['lag']} is "
-                              f"{fmt(seasonal_hits[0]['value'])}, outside the band."})
-    if report["verdict"]["white_noise"] is False and not out:
-        out.append({"action": "Model the remaining short-term dependence (for example an AR or MA term) "
-                              "and test the new residuals with model_df set.",
-                    "reason": report["verdict"]["summary"]})
-    if report["seasonal"]["period"] is None:
+    v = report["verdict"]
+    s = report["seasonal"]
+    alpha = 1.0 - report["confidence"]
+    seasonal_hits = [e for e in s["lags"] if e["outside"]]
+    if "seasonal" in v["structure"] or seasonal_hits:
+        e = seasonal_hits[0] if seasonal_hits else s["lags"][0]
+        out.append({"action": f"Add a seasonal term (a seasonal AR or MA term at lag {s['period']}) or take a "
+                              f"seasonal difference at period {s['period']}.",
+                    "reason": f"The autocorrelation at seasonal lag {e['lag']} is {fmt(e['value'])}"
+                              + (", outside the band." if e["outside"] else ".")})
+    ur = report["unit_root"]
+    if ur is not None and ur["p_value"] > alpha:
+        out.append({"action": "Difference the series once (or model it in differences) and check again.",
+                    "reason": f"The autocorrelation decays slowly (r1 = {fmt(report['acf']['values'][0])}) and the "
+                              f"augmented Dickey-Fuller test cannot rule out a unit root ({fmt_p(ur['p_value'])})."})
+    elif v["white_noise"] is False and "autocorrelation" in v["structure"]:
+        p = cutoff(report["pacf"], 1.0 - report["band"]["per_lag_confidence"])
+        q = cutoff(report["acf"], 1.0 - report["band"]["per_lag_confidence"])
+        if p is not None and q is not None:  # both read as cut-offs: prefer the smaller order (parsimony)
+            if p < q:
+                q = None
+            elif q < p:
+                p = None
+        if p is not None and q is not None:
+            out.append({"action": f"Try an AR({p}) and an MA({q}) model and keep the one whose residuals pass (set "
+                                  "model_df to its parameter count).",
+                        "reason": f"Both the autocorrelation and the partial autocorrelation stop after lag {p}; the "
+                                  "correlograms alone cannot tell the two apart."})
+        elif p is not None:
+            out.append({"action": f"Add an AR({p}) term (autoregression on the last {p} value{'s' if p > 1 else ''}), "
+                                  f"then test the new residuals with model_df = {p + report['model_df']}.",
+                        "reason": f"The partial autocorrelation is outside the band at lag{'s' if p > 1 else ''} "
+                                  f"1{'' if p == 1 else ' to ' + str(p)} and not beyond it: the pattern of an AR({p})."})
+        elif q is not None:
+            out.append({"action": f"Add an MA({q}) term (a moving average of the last {q} shock{'s' if q > 1 else ''}), "
+                                  f"then test the new residuals with model_df = {q + report['model_df']}; band "
+                                  "'bartlett' shows whether the cut-off holds.",
+                        "reason": f"The autocorrelation is outside the band at lag{'s' if q > 1 else ''} "
+                                  f"1{'' if q == 1 else ' to ' + str(q)} and not beyond it: the pattern of an MA({q})."})
+        else:
+            out.append({"action": "Model the remaining short-term dependence (an AR or MA term at the lags that stand "
+                                  "out), then test the new residuals with model_df set; use band 'bartlett' to judge "
+                                  "where an MA cut-off lies.",
+                        "reason": v["summary"]})
+    if "volatility_clustering" in v["structure"]:
+        t = _tests(report, "mcleod_li")[0]
+        out.append({"action": "Model the changing variance (for example an ARCH or GARCH model), or stabilise it "
+                              "with a log or Box-Cox transform if the swings grow with the level.",
+                    "reason": f"The McLeod-Li test on the squared values rejects ({fmt_p(t['p_value'])}): volatility "
+                              "clusters."})
+    if any(t["reject"] for t in _tests(report, "jarque_bera")):
+        out.append({"action": "Do not rely on normal-theory prediction intervals; use bootstrap or empirical "
+                              "quantile intervals.",
+                    "reason": "The Jarque-Bera test rejects normality."})
+    if report["n"] < options.SMALL_SAMPLE_N and report["p_values"]["method"] == "asymptotic":
+        out.append({"action": "Ask for p_values: \"monte_carlo\" for p-values that hold at this length.",
+                    "reason": f"With n = {report['n']} the chi-square approximations are rough."})
+    if s["period"] is None and s["suggested_period"]:
+        out.append({"action": f"Check whether a cycle of {s['suggested_period']} observations is real and, if so, "
+                              "send it as period.",
+                    "reason": "The autocorrelation and the periodogram both peak there."})
+    elif s["period"] is None:
         out.append({"action": "If the data have a natural cycle (7 for daily, 12 for monthly), send it as period.",
                     "reason": "Without a period no seasonal lag is checked specifically."})
+    if v["white_noise"] is True and not out:
+        out.append({"action": "Nothing further to model in the autocorrelation; keep checking as new data arrive.",
+                    "reason": "No test or spike points to remaining structure at the lags checked."})
     return out
 
 
+def cautions(report: dict) -> list[str]:
+    """The cautions that always apply, and those this report calls for."""
+    ex = report["exceedances"]
+    out = [
+        "A test that does not reject is not proof of white noise: it only says this sample gives no strong "
+        "evidence of structure at the lags checked.",
+        f"With {report['max_lag']} lags, about {fmt(ex['expected'], 2)} autocorrelations are expected outside a "
+        f"{_pct(report['band']['per_lag_confidence'])} band by chance alone; judge single spikes with that in mind. "
+        "The verdict adjusts for this; the per-test reject flags do not.",
+    ]
+    if report["model_df"] == 0:
+        out.append("If these values are residuals of a fitted ARMA model, set model_df to its number of "
+                   "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
+    elif report["p_values"]["method"] == "monte_carlo":
+        out.append("Monte Carlo p-values simulate an i.i.d. series of the same length; they do not reflect the "
+                   f"estimation of the model's {report['model_df']} parameters, so they err on the large side.")
+    if report["n"] < options.SMALL_SAMPLE_N:
+        out.append(f"The series is short (n = {report['n']}): the bands are large-sample approximations and only "
+                   "rough here, and the tests have little power to detect weak structure.")
+    return out
+
+
+def _leftover_seasonality(report: dict) -> bool | None:
+    s = report["seasonal"]
+    if s["period"] is None or not s["lags"]:
+        return None
+    alpha = 1.0 - report["confidence"]
+    seasonal_test = [t for t in _tests(report, "seasonal_ljung_box") if t["p_value"] is not None]
+    return bool("seasonal" in report["verdict"]["structure"] or any(t["p_value"] < alpha for t in seasonal_test)
+                and any(e["outside"] for e in s["lags"]))
+
+
 def interpret(report: dict) -> dict:
-    """Fill the verdict, interpretation, advice and cautions of a numeric report (in place)."""
+    """Fill the verdict, sentences, advice, cautions and test meanings of a numeric report (in place)."""
+    for t in report["tests"]:
+        t["meaning"] = MEANINGS[t["name"]].format(lag=t["lag"])
     report["verdict"] = verdict(report)
+    report["seasonal"]["leftover_likely"] = _leftover_seasonality(report)
     report["interpretation"] = [report["verdict"]["summary"], *sentences(report)]
     report["advice"] = advice(report)
     report["cautions"] = cautions(report)
+    if report["n"] < options.SMALL_SAMPLE_N and report["p_values"]["method"] == "asymptotic":
+        report["warnings"].append({"code": "short_series", "message": (
+            f"n = {report['n']} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
+            "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")})
     return report

@@ -7,6 +7,9 @@ from __future__ import annotations
 
 import math
 
+from .engine.analysis import TEST_NAMES as _TEST_NAMES
+from .engine.bands import BAND_KINDS as _BAND_KINDS
+
 DEFAULT_CONFIDENCE = 0.95
 DEFAULT_MODEL_DF = 0
 MIN_POINTS = 3  # the smallest series with a defined lag-1 autocorrelation (NIST NumAcc1 has 3)
@@ -20,41 +23,63 @@ DEFAULT_LIMITS = {
     "max_body_bytes": 64 * 1024 * 1024,  # request body size
     "max_series": 20_000,  # series in one batch request
     "max_batch_points": 5_000_000,  # values in one batch request, all series together
-    "max_replicates": 10_000,  # Monte Carlo replicates one request may ask for
+    "max_replicates": 9_999,  # Monte Carlo replicates one request may ask for
+    "max_simulated_values": 50_000_000,  # Monte Carlo replicates x n per request
 }
 
 
 def default_max_lag(n: int, period: int | None) -> int:
-    """Default highest lag: min(max(floor(10 log10 n), 2 m), n - 1).
+    """Default highest lag: min(max(floor(10 log10 n), s), n - 1).
 
     ``floor(10 log10 n)`` is common practice (the default number of lags of
-    ``statsmodels.tsa.stattools.acf``); with a seasonal period m we reach at
-    least lag 2m so that two seasonal lags are shown (common practice, no source).
+    ``statsmodels.tsa.stattools.acf``). With a seasonal period m, s is 2m when
+    2m <= n/2, else m when m <= n/2, so that the seasonal lags are shown without
+    reaching lags where too few pairs of values remain (common practice, no source);
+    without a period, or when m > n/2, s is 0.
     """
     lag = int(math.floor(10.0 * math.log10(n)))
     if period is not None:
-        lag = max(lag, 2 * period)
+        reach = next((k * period for k in (2, 1) if k * period <= n // 2), 0)
+        lag = max(lag, reach)
     return max(1, min(lag, n - 1))
+
+
+def short_lag(n: int, max_lag: int, period: int | None) -> int:
+    """The short lag h = min(10, n // 5), or min(2 m, n // 5) with a period m, within max_lag.
+
+    A widely taught rule of thumb for portmanteau lags, recalled from forecasting
+    textbooks (no source checked here). It is also the McLeod-Li lag.
+    """
+    return max(1, min(10 if period is None else 2 * period, n // 5, max_lag))
 
 
 def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int) -> list[int]:
     """Lags at which the portmanteau tests are reported.
 
-    - a short lag h = min(10, n // 5) without a period, min(2 m, n // 5) with one
-      (a widely taught rule of thumb, recalled from forecasting textbooks; no
-      source checked here), raised to model_df + 1 so it has degrees of freedom
-      and kept within max_lag;
+    - the short lag (see :func:`short_lag`), raised to model_df + 1 so it has
+      degrees of freedom and kept within max_lag;
     - the seasonal lags m and 2 m when a period is known and they are within max_lag;
     - max_lag itself.
     """
-    short = min(10 if period is None else 2 * period, max(1, n // 5))
-    short = min(max(short, model_df + 1), max_lag)
+    short = min(max(short_lag(n, max_lag, period), model_df + 1), max_lag)
     lags = {short, max_lag}
     if period is not None:
         lags.update(h for h in (period, 2 * period) if h <= max_lag)
     return sorted(lags)
 
 
+# Analysis choices: the engine's names (the schema and the OpenAPI file list the same).
+BAND_KINDS = _BAND_KINDS
+DEFAULT_BAND = "white_noise"
+TEST_NAMES = _TEST_NAMES
+DEFAULT_TESTS = TEST_NAMES
+P_VALUE_METHODS = ("asymptotic", "monte_carlo")
+DEFAULT_P_VALUES = "asymptotic"
+DEFAULT_REPLICATES = 999
+MIN_REPLICATES = 99
+#: Below this length the chi-square p-values are noticeably off (simulated: Ljung-Box at
+#: n = 30 rejects about 7.4% of i.i.d. series at the 5% level); a warning suggests Monte Carlo.
+SMALL_SAMPLE_N = 50
 # --- data in: missing values, timestamps, transforms -------------------------------------------
 
 #: How missing observations (null values, or slots skipped by regular timestamps) are handled.

@@ -10,6 +10,7 @@ block, so the blocking changes no result.
 from __future__ import annotations
 
 import gc
+import secrets
 from collections import defaultdict
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -18,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import metrics, options
-from .engine.analysis import analyse
+from .engine.analysis import Spec, analyse
 from .interpretation import interpret
 from .problems import invalid
 from .report import build_reports
@@ -33,27 +34,58 @@ class Plan:
     """Everything that decides the arithmetic for one series; equal plans share one engine pass."""
 
     n: int
-    max_lag: int
-    confidence: float
-    model_df: int
-    test_lags: tuple[int, ...]
+    spec: Spec
     length: int = 0  # time-grid length; differs from n when observations are missing
     pairwise: bool = False  # missing observations analysed with the amplitude-modulated estimator
 
 
-def plan_for(series: PreparedSeries, opts: dict, max_lag_limit: int) -> Plan:
-    """Resolve the defaults that depend on the data (max_lag, portmanteau lags)."""
+def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
+    """Resolve the defaults that depend on the data and check the limits that depend on n.
+
+    ``opts`` holds the loaded analysis options; ``limits`` is a mapping with MAX_LAG,
+    MAX_REPLICATES and MAX_SIMULATED_VALUES (the deployment settings).
+    """
     n = series.n
     if opts["model_df"] >= n:  # also keeps absurd integers (beyond 64 bits) out of the arithmetic
         raise invalid("/model_df", f"model_df (parameters of the fitted model) must be less than the number of "
                                    f"usable values ({n}), got {opts['model_df']}.")
     mask = series.mask
     max_lag = resolve_max_lag(opts.get("max_lag"), series.length if mask is not None else n, series.period,
-                              max_lag_limit)
+                              limits["MAX_LAG"])
     if mask is not None:
         max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
-    lags = options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])
-    return Plan(n, max_lag, opts["confidence"], opts["model_df"], tuple(lags), series.length, mask is not None)
+    tests = tuple(t for t in options.TEST_NAMES if t in (opts.get("tests") or options.DEFAULT_TESTS))
+    monte_carlo = opts.get("p_values", options.DEFAULT_P_VALUES) == "monte_carlo"
+    replicates = opts.get("replicates", options.DEFAULT_REPLICATES) if monte_carlo else 0
+    seed = opts.get("seed")
+    if monte_carlo and mask is not None:
+        raise invalid("/p_values", "Monte Carlo p-values need a complete series; with missing values use "
+                                   "missing \"interpolate\", or asymptotic p-values.")
+    if monte_carlo:
+        if replicates > limits["MAX_REPLICATES"]:
+            raise invalid("/replicates", f"replicates must be at most {limits['MAX_REPLICATES']} "
+                                         f"(this deployment's limit), got {replicates}.")
+        if replicates * n > limits["MAX_SIMULATED_VALUES"]:
+            most = limits["MAX_SIMULATED_VALUES"] // n
+            raise invalid("/replicates", f"replicates x n = {replicates * n} exceeds this deployment's limit of "
+                                         f"{limits['MAX_SIMULATED_VALUES']} simulated values; use at most {most} "
+                                         "replicates for this series, or asymptotic p-values.")
+        if seed is None:
+            seed = secrets.randbits(63)  # reported back so the result can be reproduced
+    spec = Spec(
+        max_lag=max_lag,
+        confidence=opts["confidence"],
+        model_df=opts["model_df"],
+        test_lags=tuple(options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])),
+        short_lag=options.short_lag(n, max_lag, series.period),
+        period=series.period,
+        band=opts.get("band", options.DEFAULT_BAND),
+        tests=tests,
+        p_values="monte_carlo" if monte_carlo else "asymptotic",
+        replicates=replicates,
+        seed=seed,
+    )
+    return Plan(n, spec, series.length, mask is not None)
 
 
 def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
@@ -88,9 +120,12 @@ def gc_paused():
 def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[int, dict]]]:
     """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
     for plan, members in blocks(items):
-        x = np.stack([items[i][0].values for i in members])
+        if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
+            x = items[members[0]][0].values[None, :]
+        else:
+            x = np.stack([items[i][0].values for i in members])
         mask = ~np.isnan(x) if plan.pairwise else None
-        result = analyse(x, plan.max_lag, plan.confidence, plan.model_df, list(plan.test_lags), mask=mask)
+        result = analyse(x, plan.spec, mask=mask)
         metrics.record_analysed(len(members), plan.n * len(members))
         with gc_paused():
             reports = build_reports([items[i][0] for i in members], result)

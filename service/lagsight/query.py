@@ -20,7 +20,8 @@ CSV_PARAMS = ("column", "time_column", "header", "delimiter", "decimal")
 #: Analysis options with the JSON type each is converted to.
 ANALYSIS_PARAMS = {
     "period": "integer", "max_lag": "integer", "confidence": "number", "model_df": "integer", "name": "string",
-    "missing": "string",
+    "missing": "string", "band": "string", "tests": "list", "p_values": "string", "replicates": "integer",
+    "seed": "integer",
 }
 TRANSFORM_PARAMS = {"log": "boolean", "box_cox": "number_or_string", "difference": "integer",
                     "seasonal_difference": "integer", "detrend": "string"}
@@ -31,6 +32,8 @@ def _convert(text: str, kind: str):
     """Text to the JSON value it stands for; text that is not one is left for the schema to refuse."""
     if kind == "string":
         return text
+    if kind == "list":
+        return [part.strip() for part in text.split(",")]
     if text.strip().lower() in _NULL:
         return None
     if kind == "boolean":

@@ -1,7 +1,8 @@
 """The fixed-shape report for one series: numbers only, every key always present.
 
 Floats that are not defined are ``None`` with a reason beside them, never NaN.
-Sentences, the verdict and advice are added by :mod:`lagsight.interpretation`.
+Sentences, the verdict, advice and the one-line meaning of each test are added
+by :mod:`lagsight.interpretation`.
 
 Reports are built a group at a time: each array of the group analysis is turned
 into Python lists once (``ndarray.tolist`` runs at C speed), then every row's
@@ -13,10 +14,21 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.stats import binom
 
+from . import options
 from .charts import chart_data
 from .engine.analysis import GroupAnalysis
+from .engine.bands import Band, per_lag_confidence
 from .series import PreparedSeries
+
+FAR_SE = options.FAR_OUTSIDE_SE  # standard errors beyond which a spike is "far" outside
+
+_NOT_COMPUTABLE = {
+    "mcleod_li": "Not computable: the squared values do not vary.",
+    "runs": "Not computable: all values lie on one side of the median.",
+    "cumulative_periodogram": "Not computable: the series is too short for two Fourier frequencies.",
+}
 
 
 def _rows(a: np.ndarray) -> list[list]:
@@ -27,61 +39,117 @@ def _rows(a: np.ndarray) -> list[list]:
     return [[v if math.isfinite(v) else None for v in row] for row in rows]
 
 
+def _list(a: np.ndarray) -> list:
+    return _rows(np.asarray(a, dtype=np.float64)[None, :])[0]
+
+
 class _Correlograms:
     """One correlogram (ACF or PACF) of every row of a group, as lists."""
 
-    def __init__(self, lags: list[int], values: np.ndarray, lower: np.ndarray, upper: np.ndarray):
+    def __init__(self, lags: list[int], values: np.ndarray, band: Band):
         self.lags = lags
+        lower, upper = band.lower, band.upper
         self.values = _rows(values)
         self.lower = _rows(lower)
         self.upper = _rows(upper)
-        mask = ((values < lower) | (values > upper)).tolist()
-        self.outside = [[lag for lag, out in zip(lags, row) if out] for row in mask]
+        self.centre = _rows(band.centre)
+        self.se = _rows(band.se)
+        outside = (values < lower) | (values > upper)
+        far = outside & (np.abs(values - band.centre) > FAR_SE * band.se)
+        self.outside = [[lag for lag, o in zip(lags, row) if o] for row in outside.tolist()]
+        self.far = [[lag for lag, f in zip(lags, row) if f] for row in far.tolist()]
 
     def block(self, row: int) -> dict:
+        far = set(self.far[row])
         return {
             "lags": list(self.lags),
             "values": self.values[row],
             "lower": self.lower[row],
             "upper": self.upper[row],
+            "centre": self.centre[row],
+            "standard_error": self.se[row],
             "outside": self.outside[row],
+            "far": self.far[row],
+            "marginal": [lag for lag in self.outside[row] if lag not in far],
         }
 
 
 def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
-    """The portmanteau entries of every row: a list of test dicts per row."""
+    """The test entries of every row: a list of test dicts per row."""
     alpha = 1.0 - analysis.confidence
     m = analysis.acf.shape[0]
     out: list[list[dict]] = [[] for _ in range(m)]
     for t in analysis.tests:
-        stats = t.statistic.tolist()
-        pvals = t.p_value.tolist()
+        stats, pvals = _rows(t.statistic), _rows(t.p_value)
+        ses = _rows(t.mc_se) if t.mc_se is not None else None
+        per_row = {k: _list(v) for k, v in t.extras.items() if isinstance(v, np.ndarray)}
+        constant = {k: v for k, v in t.extras.items() if not isinstance(v, np.ndarray)}
         for j, lag in enumerate(t.lags):
-            df = int(t.df[j])
-            if df > 0:
-                for row in range(m):
-                    p = pvals[row][j]
-                    out[row].append({"name": t.name, "lag": lag, "df": df, "statistic": stats[row][j],
-                                     "p_value": p, "reject": p < alpha, "note": None})
-            else:
-                note = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
-                        f"{df} degrees of freedom; test at a lag above {analysis.model_df}.")
-                for row in range(m):
-                    out[row].append({"name": t.name, "lag": lag, "df": None, "statistic": stats[row][j],
-                                     "p_value": None, "reject": None, "note": note})
+            df = t.df[j]
+            no_df = t.name in ("ljung_box", "box_pierce") and df is None
+            for row in range(m):
+                stat, p = stats[row][j], pvals[row][j]
+                note = None
+                if no_df:
+                    note = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
+                            f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
+                elif stat is None or p is None:
+                    note = _NOT_COMPUTABLE.get(t.name, "Not computable for this series.")
+                    if t.name == "cumulative_periodogram" and analysis.n_effective is not None:
+                        note = ("Not computable with missing observations: the periodogram needs a complete, "
+                                "evenly spaced series (use missing \"interpolate\" to get it).")
+                out[row].append({
+                    "name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
+                    "reject": None if p is None else p < alpha,
+                    "method": t.method,
+                    "mc_standard_error": None if ses is None else ses[row][j],
+                    "details": {**constant, **{k: v[row] for k, v in per_row.items()}},
+                    "meaning": None,
+                    "note": note,
+                })
     return out
 
 
-def _seasonal(series: PreparedSeries, acf_block: dict) -> dict:
+def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...]) -> dict:
+    K, k_out = len(acf_block["lags"]), len(acf_block["outside"])
+    return {
+        "count": k_out,
+        "lags_tested": K,
+        "expected": alpha_per_lag * K,
+        "chance_probability": float(binom.sf(k_out - 1, K, alpha_per_lag)) if k_out else 1.0,
+        "far": list(acf_block["far"]),
+        "marginal": list(acf_block["marginal"]),
+        "seasonal": [lag for lag in acf_block["outside"] if lag in seasonal_lags],
+    }
+
+
+def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, row: int) -> dict:
     period = series.period
+    base = {"period": period, "period_source": series.period_source, "lags": [],
+            "suggested_period": analysis.suggested_period[row], "strength": None, "leftover_likely": None,
+            "note": None}
     if period is None:
-        return {"period": None, "period_source": None, "lags": [],
-                "note": "No seasonal period was given or implied by timestamps."}
-    lags = [period * j for j in range(1, 4) if period * j <= len(acf_block["lags"])]
-    outside = set(acf_block["outside"])
-    entries = [{"lag": lag, "value": acf_block["values"][lag - 1], "outside": lag in outside} for lag in lags]
-    note = None if lags else f"max_lag is below the period {period}; raise max_lag to at least {period} to check seasonal lags."
-    return {"period": period, "period_source": series.period_source, "lags": entries, "note": note}
+        base["note"] = "No seasonal period was given or implied by timestamps." + (
+            f" The autocorrelation and the periodogram both point to a cycle of about {base['suggested_period']} "
+            "observations: a suggestion to check, not a finding." if base["suggested_period"] else "")
+        return base
+    outside, far = set(acf_block["outside"]), set(acf_block["far"])
+    base["lags"] = [{"lag": lag, "value": acf_block["values"][lag - 1], "outside": lag in outside, "far": lag in far}
+                    for lag in analysis.spec.seasonal_lags]
+    if not base["lags"]:
+        base["note"] = f"max_lag is below the period {period}; raise max_lag to at least {period} to check seasonal lags."
+    strength = analysis.seasonal_strength[row]
+    base["strength"] = {
+        "value": strength,
+        "method": "stl",
+        "note": None if strength is not None else (
+            f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
+            if series.n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
+            "\"interpolate\" to get it)." if analysis.n_effective is not None
+            else "Not computed: no seasonal lag lies outside the band, so there is no seasonal pattern to "
+                 "measure (on noise the STL strength only describes noise)."),
+    }
+    return base
 
 
 def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
@@ -93,28 +161,56 @@ def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
 
 def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
     """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i."""
-    lags = list(range(1, analysis.max_lag + 1))
-    acf = _Correlograms(lags, analysis.acf, analysis.acf_lower, analysis.acf_upper)
-    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_lower, analysis.pacf_upper)
+    spec = analysis.spec
+    lags = list(range(1, spec.max_lag + 1))
+    acf = _Correlograms(lags, analysis.acf, analysis.acf_band)
+    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band)
     tests = _test_rows(analysis)
+    per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
+    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None
+    frequencies = _list(analysis.frequencies)
+    power, cumulative = _rows(analysis.power), _rows(analysis.cumulative)
+    crit = analysis.ks_critical
+    lower = None if crit is None else _list(analysis.expected_cumulative - crit)
+    upper = None if crit is None else _list(analysis.expected_cumulative + crit)
     reports = []
     for row, s in enumerate(series):
         acf_block = acf.block(row)
+        unit_root = analysis.unit_root[row]
         reports.append({
             "name": s.name,
             "n": s.n,
             "n_input": s.n_input,
             "n_missing": s.n_missing,
-            "max_lag": analysis.max_lag,
-            "confidence": analysis.confidence,
-            "model_df": analysis.model_df,
+            "max_lag": spec.max_lag,
+            "confidence": spec.confidence,
+            "model_df": spec.model_df,
             "period": s.period,
             "frequency": s.frequency,
-            "band": {"kind": "white_noise", "half_width": acf_block["upper"][0]},
+            "band": {
+                "kind": spec.band,
+                "per_lag_confidence": per_lag,
+                "z": analysis.acf_band.z,
+                "half_width": acf_block["upper"][0] if constant_width else None,
+            },
             "acf": acf_block,
             "pacf": pacf.block(row),
+            "exceedances": _exceedances(acf_block, 1.0 - per_lag, spec.seasonal_lags),
             "tests": tests[row],
-            "seasonal": _seasonal(s, acf_block),
+            "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
+            "seasonal": _seasonal(s, analysis, acf_block, row),
+            "periodogram": {
+                "frequencies": list(frequencies),
+                "power": power[row],
+                "cumulative": cumulative[row],
+                "lower": None if lower is None else list(lower),
+                "upper": None if upper is None else list(upper),
+                "binned": len(frequencies) < (s.n - 1) // 2,
+            },
+            "unit_root": None if unit_root is None else {
+                "test": "augmented_dickey_fuller", "statistic": unit_root[0], "p_value": unit_root[1],
+                "lags_used": unit_root[2],
+            },
             "verdict": None,
             "interpretation": [],
             "advice": [],
@@ -125,21 +221,3 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
         })
         reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1])
     return reports
-
-
-def build_report(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
-    """The numeric part of the report for row ``row`` of a group analysis."""
-    return build_reports([series], _one_row(analysis, row))[0]
-
-
-def _one_row(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
-    from dataclasses import replace
-
-    pick = slice(row, row + 1)
-    return replace(
-        analysis,
-        acf=analysis.acf[pick], acf_lower=analysis.acf_lower[pick], acf_upper=analysis.acf_upper[pick],
-        pacf=analysis.pacf[pick], pacf_lower=analysis.pacf_lower[pick], pacf_upper=analysis.pacf_upper[pick],
-        tests=[replace(t, statistic=t.statistic[pick], p_value=t.p_value[pick]) for t in analysis.tests],
-        n_effective=None if analysis.n_effective is None else analysis.n_effective[pick],
-    )

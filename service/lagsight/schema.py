@@ -162,6 +162,20 @@ class AnalysisOptions(Schema):
         validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False),
     )
     model_df = StrictInteger(load_default=options.DEFAULT_MODEL_DF, validate=validate.Range(min=0))
+    band = fields.String(load_default=options.DEFAULT_BAND, validate=validate.OneOf(options.BAND_KINDS))
+    tests = fields.List(
+        fields.String(validate=validate.OneOf(options.TEST_NAMES)),
+        load_default=None, allow_none=True, validate=validate.Length(min=1),
+    )
+    p_values = fields.String(load_default=options.DEFAULT_P_VALUES, validate=validate.OneOf(options.P_VALUE_METHODS))
+    replicates = StrictInteger(load_default=options.DEFAULT_REPLICATES, validate=validate.Range(min=options.MIN_REPLICATES))
+    seed = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=0, max=2**63 - 1))
+
+    @validates_schema
+    def _unique_tests(self, data, **kwargs):
+        tests = data.get("tests")
+        if tests and len(set(tests)) != len(tests):
+            raise ValidationError("Each test may be named once.", "tests")
 
 
 class DiagnosticsRequest(SeriesFields, AnalysisOptions):

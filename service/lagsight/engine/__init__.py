@@ -5,12 +5,20 @@ length n, rows already validated: finite, non-constant, n >= 3) and returns
 arrays with a leading axis of length m. A single series is a batch of one.
 """
 from .autocorrelation import acf, autocovariance, center
-from .bands import band_limits, normal_quantile
+from .analysis import TEST_NAMES, GroupAnalysis, Spec, analyse
+from .bands import BAND_KINDS, acf_band, band_limits, normal_quantile, pacf_band
 from .partial import pacf
 from .portmanteau import PORTMANTEAU_TESTS, portmanteau
 
 __all__ = [
+    "BAND_KINDS",
+    "GroupAnalysis",
+    "Spec",
+    "TEST_NAMES",
     "acf",
+    "acf_band",
+    "analyse",
+    "pacf_band",
     "autocovariance",
     "band_limits",
     "center",

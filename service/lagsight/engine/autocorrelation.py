@@ -46,10 +46,11 @@ def center(x: np.ndarray) -> np.ndarray:
         magnitude. Autocorrelations are invariant to both operations.
     """
     x = np.asarray(x, dtype=np.float64)
-    peak = np.max(np.abs(x), axis=1, keepdims=True)
+    # max |x| as max(max x, -min x): the same value without a temporary array the size of x
+    peak = np.maximum(np.max(x, axis=1, keepdims=True), -np.min(x, axis=1, keepdims=True))
     _, exponent = np.frexp(np.where(peak > 0, peak, 1.0))
-    scaled = np.ldexp(x, -exponent)  # exact: only the exponent changes
-    d = scaled - scaled.mean(axis=1, keepdims=True)
+    d = np.ldexp(x, -exponent)  # exact: only the exponent changes
+    d -= d.mean(axis=1, keepdims=True)  # in place: one working copy of the data
     d -= d.mean(axis=1, keepdims=True)  # second pass: removes the first pass's rounding
     return d
 
@@ -82,8 +83,10 @@ def autocovariance(d: np.ndarray, max_lag: int, method: str = "auto") -> np.ndar
     if use_fft:
         size = sp_fft.next_fast_len(n + max_lag, real=True)
         spectrum = sp_fft.rfft(d, n=size, axis=1)
-        power = spectrum.real**2 + spectrum.imag**2
-        c = sp_fft.irfft(power, n=size, axis=1)[:, : max_lag + 1]
+        power = spectrum.real**2
+        power += spectrum.imag**2
+        del spectrum  # free it before the inverse transform allocates its output
+        c = sp_fft.irfft(power, n=size, axis=1)[:, : max_lag + 1].copy()
     else:
         c = np.empty((m, max_lag + 1))
         c[:, 0] = np.einsum("ij,ij->i", d, d)

@@ -102,7 +102,7 @@ def diagnose():
     try:
         data = load(_SCHEMA, body)
         series = prepare(data, cfg["MAX_POINTS"])
-        plan = plan_for(series, data, cfg["MAX_LAG"])
+        plan = plan_for(series, data, cfg)
     except Problem as problem:
         raise _with_lines(problem, raw) from None
     report = run([(series, plan)])[0]

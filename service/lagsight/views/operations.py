@@ -20,10 +20,12 @@ _CHECK_R1 = -0.5
 
 def self_check() -> dict:
     """Run one tiny analysis through the engine and compare it with its certified value."""
-    from ..engine.analysis import analyse  # imported here so a broken engine fails readiness, not start-up
+    from ..engine.analysis import Spec, analyse  # imported here so a broken engine fails readiness, not start-up
 
     started = time.perf_counter()
-    result = analyse(_CHECK_SERIES, 1, 0.95, 0, [1])
+    spec = Spec(max_lag=1, confidence=0.95, model_df=0, test_lags=(1,), short_lag=1, period=None,
+                tests=("ljung_box", "box_pierce"))
+    result = analyse(_CHECK_SERIES, spec)
     r1 = float(result.acf[0, 0])
     p = [float(np.ravel(t.p_value)[0]) for t in result.tests]  # (m, L) arrays; one series, one lag here
     ok = abs(r1 - _CHECK_R1) <= 1e-12 and all(math.isfinite(v) and 0.0 <= v <= 1.0 for v in p)

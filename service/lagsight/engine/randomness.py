@@ -1,0 +1,112 @@
+"""Non-parametric and distributional checks, vectorised over rows.
+
+Each function returns the statistic and its asymptotic p-value per series;
+NaN marks a statistic that is undefined for that row (the report turns it into
+null with a reason).
+
+References
+----------
+.. [1] Wald, A. and Wolfowitz, J. (1940). On a test whether two samples are from
+   the same population. Annals of Mathematical Statistics 11, 147-162 (runs).
+.. [2] Brockwell, P. J. and Davis, R. A. (2016). Introduction to Time Series and
+   Forecasting, 3rd ed., Springer, section 1.6 (turning point test).
+.. [3] Jarque, C. M. and Bera, A. K. (1987). A test for normality of observations
+   and regression residuals. International Statistical Review 55, 163-172.
+.. [4] McLeod, A. I. and Li, W. K. (1983). Diagnostic checking ARMA time series
+   models using squared-residual autocorrelations. J. Time Series Analysis 4, 269-273.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy.stats import chi2, norm
+
+from .autocorrelation import acf
+from .portmanteau import portmanteau
+
+
+def _two_sided(z: np.ndarray) -> np.ndarray:
+    return 2.0 * norm.sf(np.abs(z))
+
+
+def runs_about_median(x: np.ndarray):
+    """Wald-Wolfowitz runs test of values at or above the row median versus below.
+
+    Values equal to the median count as above. With n1 above, n2 below and R runs,
+    E[R] = 2 n1 n2 / n + 1 and Var[R] = 2 n1 n2 (2 n1 n2 - n) / (n^2 (n - 1)); z = (R - E)/sd,
+    no continuity correction. Too few runs means trends or positive correlation,
+    too many means alternation.
+
+    Returns
+    -------
+    z, p_value, runs : ndarray (m,)
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = x.shape[1]
+    above = x >= np.median(x, axis=1, keepdims=True)
+    n1 = above.sum(axis=1).astype(np.float64)
+    n2 = n - n1
+    runs = 1.0 + (above[:, 1:] != above[:, :-1]).sum(axis=1)
+    expected = 2.0 * n1 * n2 / n + 1.0
+    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n * n * (n - 1.0))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        z = np.where(var > 0, (runs - expected) / np.sqrt(var), np.nan)
+    return z, _two_sided(z), runs
+
+
+def turning_points(x: np.ndarray):
+    """Turning point test: T counts interior points that are a strict local peak or trough.
+
+    Under i.i.d. continuous data E[T] = 2(n - 2)/3 and Var[T] = (16 n - 29)/90; z = (T - E)/sd.
+    Too few turning points means smooth, positively correlated data; too many
+    means rapid alternation.
+
+    Returns
+    -------
+    z, p_value, count : ndarray (m,)
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = x.shape[1]
+    left = x[:, 1:-1] - x[:, :-2]
+    right = x[:, 1:-1] - x[:, 2:]
+    count = ((left > 0) & (right > 0) | (left < 0) & (right < 0)).sum(axis=1).astype(np.float64)
+    z = (count - 2.0 * (n - 2) / 3.0) / np.sqrt((16.0 * n - 29.0) / 90.0)
+    return z, _two_sided(z), count
+
+
+def jarque_bera(d: np.ndarray):
+    """Jarque-Bera statistic n/6 (S^2 + (K - 3)^2 / 4) on centred rows; chi-square, 2 df.
+
+    Returns
+    -------
+    statistic, p_value, skewness, kurtosis : ndarray (m,)
+    """
+    n = d.shape[1]
+    m2 = np.einsum("ij,ij->i", d, d) / n
+    m3 = (d**3).sum(axis=1) / n
+    m4 = (d**4).sum(axis=1) / n
+    skew = m3 / m2**1.5
+    kurt = m4 / m2**2
+    stat = n / 6.0 * (skew**2 + (kurt - 3.0) ** 2 / 4.0)
+    return stat, chi2.sf(stat, 2), skew, kurt
+
+
+def mcleod_li(d: np.ndarray, lags: list[int]):
+    """McLeod-Li test: Ljung-Box on the autocorrelations of the squared centred values, df = lag.
+
+    Rows whose squares are constant (for example +-c alternating) get NaN.
+
+    Returns
+    -------
+    statistic, p_value : ndarray (m, len(lags))
+    """
+    m, n = d.shape
+    sq = d * d
+    constant = np.ptp(sq, axis=1) == 0
+    stat = np.full((m, len(lags)), np.nan)
+    p = np.full((m, len(lags)), np.nan)
+    ok = ~constant
+    if ok.any():
+        r = acf(sq[ok], max(lags))
+        s, _, pv = portmanteau(r, n, lags, 0, "ljung_box")
+        stat[ok], p[ok] = s, pv
+    return stat, p

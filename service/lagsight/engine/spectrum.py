@@ -1,0 +1,105 @@
+"""Periodogram and Bartlett's cumulative periodogram test of white noise.
+
+Notes
+-----
+At the Fourier frequencies f_j = j / n, j = 1..q with q = floor((n - 1) / 2)
+(zero and the Nyquist frequency left out), the periodogram of a centred series is
+
+    I(f_j) = |sum_t d_t exp(-2 pi i f_j t)|^2 / n.
+
+For Gaussian white noise the I(f_j) are i.i.d. exponential, so the normalised
+cumulative sums C_j = sum_{i<=j} I(f_i) / sum_{i<=q} I(f_i), j = 1..q-1, are
+distributed as the order statistics of q - 1 independent uniforms [1]_, [2]_.
+Bartlett's test compares them with the uniform distribution by the
+Kolmogorov-Smirnov statistic
+
+    D = max_j max(C_j - (j - 1)/(q - 1), j/(q - 1) - C_j),
+
+with the exact p-value of the one-sample KS distribution on q - 1 points
+(``scipy.stats.kstwo``). The chart band around the line j/q is +-D_crit where
+D_crit is that distribution's upper 1 - confidence quantile. White noise has
+a flat spectrum, so its cumulative periodogram stays near the diagonal.
+
+References
+----------
+.. [1] Bartlett, M. S. (1955). An Introduction to Stochastic Processes. Cambridge
+   University Press, section 9.2.
+.. [2] Durbin, J. (1969). Tests for serial correlation in regression analysis
+   based on the periodogram of least-squares residuals. Biometrika 56(1), 1-15.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import fft as sp_fft
+from scipy.stats import kstwo
+
+#: Charts get at most this many periodogram points; longer spectra are averaged in equal blocks.
+CHART_POINTS = 512
+
+
+def periodogram(d: np.ndarray) -> np.ndarray:
+    """Periodogram I(f_j), j = 1..q, of centred rows; shape (m, q)."""
+    n = d.shape[1]
+    q = (n - 1) // 2
+    spectrum = sp_fft.rfft(d, axis=1)[:, 1 : q + 1]
+    return (spectrum.real**2 + spectrum.imag**2) / n
+
+
+def cumulative_periodogram(power: np.ndarray) -> np.ndarray:
+    """Normalised cumulative periodogram C_j, j = 1..q (the last is 1); shape (m, q)."""
+    c = np.cumsum(power, axis=1)
+    total = c[:, -1:]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(total > 0, c / total, np.nan)
+
+
+def ks_statistic(cumulative: np.ndarray) -> np.ndarray:
+    """Kolmogorov-Smirnov distance of C_1..C_{q-1} from the uniform; shape (m,). NaN when q < 2."""
+    m, q = cumulative.shape
+    if q < 2:
+        return np.full(m, np.nan)
+    c = cumulative[:, :-1]
+    k = q - 1
+    j = np.arange(1, k + 1)
+    upper = j / k - c
+    lower = c - (j - 1) / k
+    return np.maximum(upper.max(axis=1), lower.max(axis=1))
+
+
+def ks_p_value(statistic: np.ndarray, q: int) -> np.ndarray:
+    """Exact p-value of the KS statistic on q - 1 points (scipy.stats.kstwo)."""
+    if q < 2:
+        return np.full(statistic.shape, np.nan)
+    return kstwo.sf(statistic, q - 1)
+
+
+def ks_critical(q: int, confidence: float) -> float | None:
+    """Half-width of the cumulative periodogram band at the given coverage."""
+    if q < 2:
+        return None
+    return float(kstwo.isf(1.0 - confidence, q - 1))
+
+
+def chart_blocks(power: np.ndarray, n: int, limit: int = CHART_POINTS):
+    """Frequencies, power and cumulative values for charts, averaged in blocks when q > limit.
+
+    Returns
+    -------
+    frequencies : ndarray (p,)
+        Block-centre frequencies in cycles per observation.
+    power : ndarray (m, p)
+        Mean periodogram within each block.
+    cumulative : ndarray (m, p)
+        Normalised cumulative periodogram at each block's last frequency.
+    expected : ndarray (p,)
+        The white-noise line j / q at each block's last frequency.
+    """
+    m, q = power.shape
+    freqs = np.arange(1, q + 1) / n
+    cum = cumulative_periodogram(power)
+    if q <= limit:
+        return freqs, power, cum, np.arange(1, q + 1) / q
+    edges = np.linspace(0, q, limit + 1).astype(int)
+    sums = np.add.reduceat(power, edges[:-1], axis=1)
+    counts = np.diff(edges)
+    return (np.add.reduceat(freqs, edges[:-1]) / counts, sums / counts, cum[:, edges[1:] - 1], edges[1:] / q)
