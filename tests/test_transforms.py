@@ -150,3 +150,19 @@ def test_invalid_transforms_are_422_with_pointer(client, data, transform, period
     errors = r.get_json()["errors"]
     assert pointer in [e["pointer"] for e in errors]
     assert phrase.lower() in next(e["detail"] for e in errors if e["pointer"] == pointer).lower()
+
+
+def test_batch_series_take_their_own_missing_and_transform_with_pointers_under_the_item(client):
+    series = [
+        {"id": "a", "values": [1, None, 3, 2, 5, 4, 3, 6, 2, 7, 3, 5], "missing": "pairwise"},
+        {"id": "b", "values": [1, 2, 3, 1, 5, 4, 3, 6, 2, 7, 3, 5], "transform": {"difference": 1}},
+        {"id": "c", "values": [1, None, 3, 4]},
+        {"id": "d", "values": [1, 2, 3, 4, 5], "transform": {"log": True, "box_cox": 1}},
+    ]
+    results = client.post("/v1/diagnostics/batch", json={"series": series}).get_json()["results"]
+    assert results[0]["missing"]["method"] == "pairwise" and results[0]["missing"]["effective_n"] is not None
+    assert results[1]["transform"]["steps"][0]["step"] == "difference" and results[1]["n"] == 11
+    assert results[2]["error"]["errors"][0]["pointer"] == "/series/2/values/1"
+    assert results[3]["error"]["errors"][0]["pointer"] == "/series/3/transform/box_cox"
+    single = client.post(URL, json={k: v for k, v in series[0].items() if k != "id"}).get_json()
+    assert single["acf"] == results[0]["acf"] and single["tests"] == results[0]["tests"]

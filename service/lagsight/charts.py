@@ -7,8 +7,8 @@ Every chart is a small table a plotting library can draw as is:
   ``MAX_TIME_POINTS`` by keeping each bucket's lowest and highest point, so peaks survive.
 - ``correlogram`` and ``pacf``: per lag the value, the band, a ``zone`` and whether the lag
   is seasonal. Zones: ``inside`` the band; ``marginal`` outside it but within
-  ``options.FAR_OUTSIDE_SE`` (3) standard errors of zero; ``far`` beyond that. The standard
-  error is the band's half-width divided by the normal quantile z of the confidence.
+  ``options.FAR_OUTSIDE_SE`` (3) standard errors of the band's centre; ``far`` beyond that
+  (the report's ``outside`` and ``far`` lags; the standard error is the band's, per lag).
 - ``periodogram``: frequencies (cycles per observation), power, the cumulative periodogram
   and its band, from the report's ``periodogram`` block.
 
@@ -24,20 +24,20 @@ from . import options
 MAX_TIME_POINTS = 2000
 
 
-def zones(values: list, upper: list, confidence: float) -> list:
-    """inside / marginal / far for each lag (None where the value is undefined)."""
+def zones(values, upper, confidence: float) -> list:
+    """inside / marginal / far for each lag (None where the value is undefined).
+
+    ``values`` and ``upper`` may be lists (None for undefined) or arrays of shape (K,) or (m, K);
+    the result is a list of the same nesting.
+    """
     z = float(norm.isf((1.0 - confidence) / 2.0))
-    out = []
-    for v, u in zip(values, upper):
-        if v is None or u is None:
-            out.append(None)
-        elif abs(v) <= u:
-            out.append("inside")
-        elif z > 0 and abs(v) <= options.FAR_OUTSIDE_SE * u / z:  # z == 0: confidence below float resolution
-            out.append("marginal")
-        else:
-            out.append("far")
-    return out
+    v = np.abs(np.array(values, dtype=np.float64))
+    u = np.array(upper, dtype=np.float64)
+    with np.errstate(invalid="ignore", divide="ignore"):  # z == 0 below float resolution of confidence
+        out = np.where(v <= u, "inside", np.where(v <= options.FAR_OUTSIDE_SE * u / z, "marginal", "far"))
+    out = out.astype(object)
+    out[np.isnan(v) | np.isnan(u)] = None
+    return out.tolist()
 
 
 def _thin(y: np.ndarray, limit: int) -> np.ndarray:
@@ -58,26 +58,32 @@ def _thin(y: np.ndarray, limit: int) -> np.ndarray:
 
 
 def time_plot(values: np.ndarray, labels: list[str] | None) -> dict:
-    keep = _thin(values, MAX_TIME_POINTS)
-    y = values[keep]
+    if values.size <= MAX_TIME_POINTS:
+        keep, y = None, values
+        x = list(labels) if labels is not None else list(range(values.size))
+    else:
+        keep = _thin(values, MAX_TIME_POINTS)
+        y = values[keep]
+        x = [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist()
+    missing = np.isnan(y)
     return {
-        "x": [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist(),
+        "x": x,
         "x_kind": "time" if labels is not None else "index",
-        "values": [None if np.isnan(v) else v for v in y.tolist()],
+        "values": [None if m else v for v, m in zip(y.tolist(), missing.tolist())] if missing.any() else y.tolist(),
         "points": int(values.size),
-        "thinned": bool(keep.size < values.size),
+        "thinned": keep is not None,
         "vega_lite": None,
     }
 
 
-def correlogram(block: dict, confidence: float, seasonal_lags: set[int]) -> dict:
+def correlogram(block: dict, zone: list, seasonal: list[bool]) -> dict:
     return {
         "lags": block["lags"],
         "values": block["values"],
         "lower": block["lower"],
         "upper": block["upper"],
-        "zone": zones(block["values"], block["upper"], confidence),
-        "seasonal": [lag in seasonal_lags for lag in block["lags"]],
+        "zone": zone,
+        "seasonal": seasonal,
         "vega_lite": None,
     }
 
@@ -93,15 +99,25 @@ def periodogram(block: dict | None) -> dict:
             "vega_lite": None}
 
 
+def seasonal_flags(max_lag: int, period: int | None) -> list[bool]:
+    if not period:
+        return [False] * max_lag
+    return [lag % period == 0 for lag in range(1, max_lag + 1)]
+
+
+def block_zones(block: dict) -> list:
+    """Zones read off a correlogram block's ``outside`` and ``far`` lags (the report's own classification)."""
+    outside, far = set(block["outside"]), set(block["far"])
+    return [None if v is None else "far" if lag in far else "marginal" if lag in outside else "inside"
+            for lag, v in zip(block["lags"], block["values"])]
+
+
 def chart_data(values: np.ndarray, labels: list[str] | None, report: dict) -> dict:
     """The ``charts`` block for one report (its numeric keys must be filled)."""
-    period = report["period"]
-    seasonal = set()
-    if period:
-        seasonal = {period * j for j in range(1, report["max_lag"] // period + 1)}
+    seasonal = seasonal_flags(report["max_lag"], report["period"])
     return {
         "time_plot": time_plot(values, labels),
-        "correlogram": correlogram(report["acf"], report["confidence"], seasonal),
-        "pacf": correlogram(report["pacf"], report["confidence"], seasonal),
+        "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),
+        "pacf": correlogram(report["pacf"], block_zones(report["pacf"]), seasonal),
         "periodogram": periodogram(report.get("periodogram")),
     }
