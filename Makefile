@@ -7,9 +7,10 @@ PORT   ?= 8000
 WORKERS ?= 2
 STAMP  := $(VENV)/.installed
 
-CHROMIUM := /usr/bin/chromium
+# Programs the tests run, as command:Debian package (browser tests, example clients).
+SYSTEM_TOOLS := chromium:chromium node:nodejs curl:curl jq:jq javac:default-jdk-headless
 
-.PHONY: serve test install lock clean bench screenshots
+.PHONY: serve test install lock clean bench screenshots system-tools
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -25,16 +26,20 @@ install: $(STAMP)
 serve: $(STAMP)
 	$(BIN)/lagsight serve --host $(HOST) --port $(PORT) --workers $(WORKERS)
 
-# The browser tests drive Debian's chromium; install it once when it is missing (needs root and apt).
-$(CHROMIUM):
-	apt-get update -qq
-	DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends chromium
+# Install the programs the tests run when one is missing (needs root and apt; once per machine).
+system-tools:
+	@missing=""; for pair in $(SYSTEM_TOOLS); do \
+	  command -v "$${pair%%:*}" >/dev/null 2>&1 || missing="$$missing $${pair#*:}"; done; \
+	if [ -n "$$missing" ]; then \
+	  echo "installing:$$missing"; \
+	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends $$missing; \
+	fi
 
-test: $(STAMP) $(CHROMIUM)
+test: $(STAMP) system-tools
 	$(BIN)/python -m pytest
 
 # Refresh the page screenshots in docs/ (the browser tests write them there).
-screenshots: $(STAMP) $(CHROMIUM)
+screenshots: $(STAMP) system-tools
 	LAGSIGHT_SCREENSHOTS=docs $(BIN)/python -m pytest tests/test_page_browser.py -q
 
 # Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.

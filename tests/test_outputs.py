@@ -95,11 +95,19 @@ def test_long_series_time_plot_is_thinned_keeping_extremes():
     assert block["x"] == sorted(block["x"])
 
 
-def test_zones_boundaries():
-    # z(0.975) = 1.96: band 0.196 means se 0.1 and "far" beyond 0.3.
-    z = 1.959963984540054
-    assert charts.zones([0.1, -0.2, 0.29, -0.31, None], [0.1 * z] * 5, 0.95) == \
-        ["inside", "marginal", "marginal", "far", None]
+def test_zones_follow_the_report_far_and_marginal_lags(client):
+    # se = 1/sqrt(100) = 0.1 under the white_noise band: outside beyond 0.196, "far" beyond 0.3.
+    block = {"lags": [1, 2, 3, 4, 5], "values": [0.1, -0.2, 0.29, -0.31, None], "far": [4], "marginal": [2, 3]}
+    assert charts.block_zones({**block, "outside": [2, 3, 4]}) == ["inside", "marginal", "marginal", "far", None]
+
+
+def test_zones_use_the_band_centre_of_the_small_sample_band(client):
+    x = np.random.default_rng(5).standard_normal(40).tolist()
+    body = client.post("/v1/diagnostics", json={"values": x, "band": "small_sample"}).get_json()
+    acf, zone = body["acf"], body["charts"]["correlogram"]["zone"]
+    for lag, value, centre, se, z in zip(acf["lags"], acf["values"], acf["centre"], acf["standard_error"], zone):
+        outside = lag in acf["outside"]
+        assert z == ("inside" if not outside else "far" if abs(value - centre) > 3 * se else "marginal")
 
 
 @lru_cache(maxsize=1)

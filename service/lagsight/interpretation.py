@@ -24,8 +24,9 @@ sentences but do not flip `white_noise`, which is about autocorrelation.
 """
 from __future__ import annotations
 
-import numpy as np
-from scipy.stats import norm
+import math
+
+from scipy.special import bdtrc
 
 from . import options
 
@@ -79,7 +80,8 @@ def _max_standardised(block: dict, lags: list[int]) -> tuple[float, int]:
 
 def _sidak_p(z: float, count: int) -> float:
     """Probability that the largest of `count` independent |N(0,1)| exceeds z."""
-    return float(-np.expm1(count * np.log1p(-2.0 * norm.sf(z))))
+    tail = math.erfc(z / math.sqrt(2.0))  # P(|Z| > z)
+    return -math.expm1(count * math.log1p(-tail)) if tail < 1.0 else 1.0
 
 
 def verdict(report: dict) -> dict:
@@ -274,8 +276,6 @@ def cutoff(block: dict, alpha: float) -> int | None:
     within chance (binomial probability above alpha). Common practice for reading
     correlograms (Box, Jenkins, Reinsel and Ljung 2015, section 6.2), made explicit here.
     """
-    from scipy.stats import binom
-
     outside, far = set(block["outside"]), set(block["far"])
     q = 0
     while q + 1 in outside:
@@ -284,7 +284,7 @@ def cutoff(block: dict, alpha: float) -> int | None:
     if not 1 <= q <= 3 or later < 3 or any(lag > q for lag in far):
         return None
     extra = sum(1 for lag in outside if lag > q)
-    if extra and binom.sf(extra - 1, later, alpha) <= alpha:
+    if extra and bdtrc(extra - 1, later, alpha) <= alpha:  # P(at least `extra` of `later` by chance)
         return None
     return q
 

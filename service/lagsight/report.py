@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.stats import binom
+from scipy.special import bdtrc
 
 from . import options
 from .charts import chart_data
@@ -116,7 +116,7 @@ def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int
         "count": k_out,
         "lags_tested": K,
         "expected": alpha_per_lag * K,
-        "chance_probability": float(binom.sf(k_out - 1, K, alpha_per_lag)) if k_out else 1.0,
+        "chance_probability": float(bdtrc(k_out - 1, K, alpha_per_lag)) if k_out else 1.0,
         "far": list(acf_block["far"]),
         "marginal": list(acf_block["marginal"]),
         "seasonal": [lag for lag in acf_block["outside"] if lag in seasonal_lags],

@@ -1,0 +1,68 @@
+#!/usr/bin/env bash
+# Call the Lagsight service with curl and print the verdict and the lags outside the band (needs curl and jq).
+#
+#   ./lagsight.sh single demo_payloads/bakery_daily_residuals.json
+#   ./lagsight.sh batch  demo_payloads/retail_weekly_batch_500.json
+#
+# Environment: LAGSIGHT_URL (default http://127.0.0.1:8000), LAGSIGHT_TIMEOUT in seconds (default 30),
+# LAGSIGHT_TOKEN (bearer token, only where the deployment requires one).
+# Exit codes: 0 answered, 2 the service refused the request (problem details printed), 3 no answer.
+set -euo pipefail
+
+usage() { echo "usage: $0 single|batch PAYLOAD.json" >&2; exit 64; }
+[ $# -eq 2 ] || usage
+case "$1" in
+  single) route=/v1/diagnostics ;;
+  batch) route=/v1/diagnostics/batch ;;
+  *) usage ;;
+esac
+payload=$2
+base=${LAGSIGHT_URL:-http://127.0.0.1:8000}
+timeout=${LAGSIGHT_TIMEOUT:-30}
+
+headers=(-H 'Content-Type: application/json' -H 'Accept: application/json')
+if [ -n "${LAGSIGHT_TOKEN:-}" ]; then headers+=(-H "Authorization: Bearer ${LAGSIGHT_TOKEN}"); fi
+
+answer=$(mktemp)
+trap 'rm -f "$answer"' EXIT
+
+# --max-time bounds the whole exchange; -w prints the status and media type after the body is saved.
+set +e
+meta=$(curl -sS --max-time "$timeout" -o "$answer" -w '%{http_code} %{content_type}' \
+       -X POST "${headers[@]}" --data-binary "@${payload}" "${base}${route}")
+rc=$?
+set -e
+if [ $rc -ne 0 ]; then
+  if [ $rc -eq 28 ]; then echo "error: no answer from ${base} within ${timeout} s" >&2
+  else echo "error: could not reach ${base} (curl exit code ${rc})" >&2; fi
+  exit 3
+fi
+status=${meta%% *}
+media=${meta#* }
+
+if [ "${status:0:1}" != "2" ]; then
+  if [[ "$media" == application/problem+json* ]]; then
+    jq -r '"error \(.status) (\(.title)): \(.detail)", ((.errors // [])[] | "  \(.pointer): \(.detail)")' "$answer" >&2
+  else
+    echo "error ${status}: $(head -c 200 "$answer")" >&2
+  fi
+  exit 2
+fi
+
+# shellcheck disable=SC2016
+filters='
+  def word: if . == true then "white noise" elif . == false then "not white noise" else "no judgement" end;
+  def lags: if length == 0 then "none" else map(tostring) | join(", ") end;'
+if [ "$1" = single ]; then
+  jq -r "$filters"'
+    (.name // "(unnamed)"),
+    "verdict: \(.verdict.white_noise | word)",
+    "summary: \(.verdict.summary)",
+    "outside the band (ACF): \(.acf.outside | lags)",
+    "outside the band (PACF): \(.pacf.outside | lags)"' "$answer"
+else
+  jq -r "$filters"'
+    (.results[] | if .error then "\(.id): error \(.error.status): \(.error.detail)"
+                  else "\(.id): \(.verdict.white_noise | word); ACF outside: \(.acf.outside | lags)" end),
+    (.summary | "summary: \(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) errors")' "$answer"
+fi

@@ -1,0 +1,112 @@
+"""The consultation options over HTTP: bands, test selection, Monte Carlo p-values, and their limits."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lagsight import create_app
+
+from .spec_tools import assert_valid
+
+URL = "/v1/diagnostics"
+X = np.random.default_rng(99).standard_normal(60).tolist()
+
+
+@pytest.mark.parametrize("band", ["white_noise", "small_sample", "bartlett", "simultaneous"])
+def test_every_band_kind_answers_in_the_report_shape(client, band):
+    body = client.post(URL, json={"values": X, "band": band}).get_json()
+    assert_valid(body, "Report")
+    assert body["band"]["kind"] == band
+    acf = body["acf"]
+    for v, lo, hi, lag in zip(acf["values"], acf["lower"], acf["upper"], acf["lags"]):
+        assert (lag in acf["outside"]) == (v < lo or v > hi)
+    if band == "small_sample":
+        assert acf["centre"][0] == pytest.approx(-(60 - 1) / (60 * 59))
+        assert body["band"]["half_width"] is None
+    if band == "simultaneous":
+        assert body["band"]["per_lag_confidence"] == pytest.approx(0.95 ** (1 / body["max_lag"]))
+
+
+def test_tests_option_selects_and_orders_tests(client):
+    body = client.post(URL, json={"values": X, "tests": ["runs", "ljung_box"]}).get_json()
+    assert {t["name"] for t in body["tests"]} == {"ljung_box", "runs"}
+    assert [t["name"] for t in body["tests"]][0] == "ljung_box"  # report order, not request order
+    assert all(t["meaning"] for t in body["tests"])
+
+
+def test_every_test_has_a_one_line_meaning_and_a_method(client):
+    body = client.post(URL, json={"values": X, "period": 6}).get_json()
+    names = {t["name"] for t in body["tests"]}
+    assert names == {"ljung_box", "box_pierce", "seasonal_ljung_box", "mcleod_li", "runs", "turning_points",
+                     "cumulative_periodogram", "jarque_bera"}
+    for t in body["tests"]:
+        assert t["meaning"] and "\n" not in t["meaning"]
+        assert t["method"] in ("asymptotic", "exact")
+
+
+def test_monte_carlo_is_reproducible_with_a_seed_and_reports_its_error(client):
+    payload = {"values": X[:25], "p_values": "monte_carlo", "replicates": 499, "seed": 2026}
+    a = client.post(URL, json=payload).get_json()
+    b = client.post(URL, json=payload).get_json()
+    assert a["tests"] == b["tests"]
+    assert a["p_values"] == {"method": "monte_carlo", "replicates": 499, "seed": 2026}
+    lb = [t for t in a["tests"] if t["name"] == "ljung_box"][0]
+    assert lb["method"] == "monte_carlo" and lb["mc_standard_error"] > 0
+    assert lb["p_value"] >= 1 / 500  # (1 + count) / (R + 1)
+    assert not any(w["code"] == "short_series" for w in a["warnings"])
+
+
+def test_monte_carlo_without_seed_reports_the_seed_drawn(client):
+    body = client.post(URL, json={"values": X[:25], "p_values": "monte_carlo", "replicates": 99}).get_json()
+    seed = body["p_values"]["seed"]
+    again = client.post(URL, json={"values": X[:25], "p_values": "monte_carlo", "replicates": 99,
+                                   "seed": seed}).get_json()
+    assert again["tests"] == body["tests"]
+
+
+def test_short_series_warns_and_advises_monte_carlo(client):
+    body = client.post(URL, json={"values": X[:20]}).get_json()
+    assert "short_series" in [w["code"] for w in body["warnings"]]
+    assert any("monte_carlo" in a["action"] for a in body["advice"])
+    assert any("short" in c for c in body["cautions"])
+
+
+@pytest.mark.parametrize("body,pointer", [
+    ({"values": X, "band": "wide"}, "/band"),
+    ({"values": X, "tests": ["ljung_box", "ljung_box"]}, "/tests"),
+    ({"values": X, "tests": []}, "/tests"),
+    ({"values": X, "tests": ["portmanteau"]}, "/tests/0"),
+    ({"values": X, "p_values": "bootstrap"}, "/p_values"),
+    ({"values": X, "p_values": "monte_carlo", "replicates": 10}, "/replicates"),
+    ({"values": X, "p_values": "monte_carlo", "replicates": 100000}, "/replicates"),
+    ({"values": X, "seed": -1}, "/seed"),
+    ({"values": X, "seed": "7"}, "/seed"),
+])
+def test_bad_options_are_422_with_pointer(client, body, pointer):
+    r = client.post(URL, json=body)
+    assert r.status_code == 422
+    assert pointer in [e["pointer"] for e in r.get_json()["errors"]]
+
+
+def test_simulation_budget_is_enforced():
+    client = create_app({"MAX_SIMULATED_VALUES": 10_000, "TESTING": True}).test_client()
+    r = client.post(URL, json={"values": X, "p_values": "monte_carlo", "replicates": 999})
+    assert r.status_code == 422 and r.get_json()["errors"][0]["pointer"] == "/replicates"
+    assert "at most 166 replicates" in r.get_json()["errors"][0]["detail"]
+
+
+def test_monte_carlo_with_pairwise_missing_values_is_refused(client):
+    values = X[:40]
+    values[5] = None
+    r = client.post(URL, json={"values": values, "missing": "pairwise", "p_values": "monte_carlo"})
+    assert r.status_code == 422 and r.get_json()["errors"][0]["pointer"] == "/p_values"
+
+
+def test_verdict_evidence_and_rule_are_in_methods(client):
+    methods = client.get("/v1/methods").get_json()
+    assert "Bonferroni" in methods["decision_rule"] and "Sidak" in methods["decision_rule"]
+    assert {t["name"] for t in methods["test_catalogue"]} == set(methods["options"]["tests"]["enum"])
+    body = client.post(URL, json={"values": X, "period": 6}).get_json()
+    sources = {e["source"] for e in body["verdict"]["evidence"]}
+    assert sources == {"ljung_box", "largest_spike", "seasonal_spike"}
+    assert body["verdict"]["confidence"] in ("moderate", "weak", "strong")
