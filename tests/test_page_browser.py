@@ -98,6 +98,23 @@ def test_seasonal_residuals_show_spikes_outside_the_band_and_advice(page, live_s
     page.screenshot(path=str(shots / "page-seasonal.png"), full_page=True)
 
 
+def test_gaps_filled_on_request_and_a_widening_band(page, live_server, shots):
+    payload = _demo("ferry_terminal_daily_gaps")  # six nulls: empty lines in the pasted column
+    page.goto(live_server + "/")
+    page.fill("#values", "\n".join("" if v is None else str(v) for v in payload["values"]))
+    assert "(6 missing)" in page.inner_text("#values-count")
+    page.select_option("#missing", "interpolate")
+    page.select_option("#band", "bartlett")
+    page.click("#submit")
+    page.wait_for_selector("#result:not([hidden])")
+    assert "6 missing" in page.inner_text("#facts")
+    assert page.inner_text("#verdict").startswith("Not white noise")
+    heights = page.evaluate("""() => new Set(document.querySelector('#acf-chart polygon.band')
+        .getAttribute('points').split(' ').map(p => p.split(',')[1])).size""")
+    assert heights > 4  # Bartlett's band widens with the lag: not one flat strip
+    page.screenshot(path=str(shots / "page-gaps-bartlett.png"), full_page=True)
+
+
 def test_dropped_csv_with_semicolons_and_decimal_commas_is_read_with_its_timestamps(page, live_server, shots):
     page.goto(live_server + "/")
     page.set_input_files("#csv-file", str(DEMO / "cold_store_hourly_temperature.csv"))
@@ -144,7 +161,7 @@ def test_keyboard_alone_can_fill_the_form_and_submit(page, live_server):
     page.keyboard.press("Tab")
     assert page.evaluate("document.activeElement.id") == "values"
     page.keyboard.type("\n".join(str(v) for v in _demo("farm_shop_short_monthly_residuals")["values"]))
-    for _ in range(12):  # tab on to the submit button
+    for _ in range(30):  # tab on to the submit button
         page.keyboard.press("Tab")
         if page.evaluate("document.activeElement.id") == "submit":
             break

@@ -162,3 +162,20 @@ def test_seasonal_strength_formula_on_stl():
     expected = max(0.0, 1 - np.var(fit.resid) / np.var(fit.seasonal + fit.resid))
     assert stl_strength(co2, 12) == pytest.approx(expected, rel=1e-12)
     assert stl_strength(co2, 12) > 0.9  # CO2 has a strong annual cycle
+
+
+def test_unit_root_check_is_statsmodels_adfuller_with_schwert_lags():
+    # Reference: statsmodels.tsa.stattools.adfuller(x, maxlag=floor(12 (n/100)^(1/4)), autolag=None)
+    # on the Nile series shipped with statsmodels (n = 100: 12 lags).
+    import warnings
+
+    from statsmodels.tsa.stattools import adfuller
+
+    from lagsight.engine.stationarity import adf
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", FutureWarning)  # its tuple-return notice
+        ref = adfuller(NILE, maxlag=12, autolag=None)
+    stat, p, used = adf(NILE)
+    assert used == 12
+    assert stat == pytest.approx(ref[0], rel=1e-12) and p == pytest.approx(ref[1], rel=1e-10)

@@ -81,9 +81,10 @@ def jarque_bera(d: np.ndarray):
     statistic, p_value, skewness, kurtosis : ndarray (m,)
     """
     n = d.shape[1]
-    m2 = np.einsum("ij,ij->i", d, d) / n
-    m3 = (d**3).sum(axis=1) / n
-    m4 = (d**4).sum(axis=1) / n
+    d2 = d * d
+    m2 = d2.sum(axis=1) / n
+    m3 = np.einsum("ij,ij->i", d2, d) / n
+    m4 = np.einsum("ij,ij->i", d2, d2) / n
     skew = m3 / m2**1.5
     kurt = m4 / m2**2
     stat = n / 6.0 * (skew**2 + (kurt - 3.0) ** 2 / 4.0)

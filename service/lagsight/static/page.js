@@ -166,6 +166,13 @@
     if (maxLag !== undefined) body.max_lag = maxLag;
     if (modelDf !== undefined) body.model_df = modelDf;
     body.confidence = Number($("confidence").value);
+    if ($("missing").value !== "refuse") body.missing = $("missing").value;
+    if ($("band").value !== "white_noise") body.band = $("band").value;
+    const transform = {};
+    if ($("log").checked) transform.log = true;
+    if ($("difference").value !== "0") transform.difference = Number($("difference").value);
+    if ($("seasonal-difference").value !== "0") transform.seasonal_difference = Number($("seasonal-difference").value);
+    if (Object.keys(transform).length) body.transform = transform;
     const name = $("series-name").value.trim();
     if (name) body.name = name;
     if (state.timestamps && state.timestamps.length === values.length) body.timestamps = state.timestamps;
@@ -311,7 +318,8 @@
     tbody.replaceChildren();
     for (const t of report.tests || []) {
       const tr = tbody.insertRow();
-      const cells = [t.name.replace(/_/g, "-"), t.lag, t.df === null ? "n/a" : t.df, fmt(t.statistic, 2), fmtP(t.p_value),
+      const blank = (x) => (x === null || x === undefined ? "" : x);
+      const cells = [t.name.replace(/_/g, "-"), blank(t.lag), blank(t.df), fmt(t.statistic, 2), fmtP(t.p_value),
         t.reject === null ? (t.note ? "not computable" : "n/a") : t.reject ? "yes" : "no"];
       for (const c of cells) tr.insertCell().textContent = String(c);
     }
@@ -370,15 +378,17 @@
     el("line", { x1: left, x2: left, y1: top, y2: H - bottom, class: "axis" }, svg);
 
     const out = new Set(block.outside);
+    const far = new Set(block.far || block.outside); // reports without the far/marginal split: all "far"
     const barW = Math.max(1.5, Math.min(10, step * 0.55));
     block.lags.forEach((lag, i) => {
       const v = vals[i];
       const y0 = ys(Math.max(v, 0)), y1 = ys(Math.min(v, 0));
       const bar = el("rect", {
         x: xs(lag) - barW / 2, y: y0, width: barW, height: Math.max(1, y1 - y0), rx: Math.min(2, barW / 3),
-        class: "spike " + (out.has(lag) ? "outside" : "inside"), "data-lag": lag,
+        class: "spike " + (!out.has(lag) ? "inside" : far.has(lag) ? "outside" : "outside marginal"), "data-lag": lag,
       }, svg);
-      el("title", {}, bar).textContent = `lag ${lag}: ${fmt(block.values[i])}` + (out.has(lag) ? " (outside the band)" : "");
+      el("title", {}, bar).textContent = `lag ${lag}: ${fmt(block.values[i])}` +
+        (!out.has(lag) ? "" : far.has(lag) ? " (far outside the band)" : " (just outside the band)");
       if (seasonal.has(lag)) {
         const cx = xs(lag), cy = H - bottom + 8;
         el("polygon", { points: `${cx},${cy - 5} ${cx + 5},${cy} ${cx},${cy + 5} ${cx - 5},${cy}`, class: "mark" }, svg);
