@@ -179,15 +179,7 @@ def sentences(report: dict) -> list[str]:
         out.append(f"Just outside the band: lag{'s' if len(ex['marginal']) > 1 else ''} {_lag_list(ex['marginal'])}; "
                    "single marginal spikes like these are often chance.")
     alpha = 1.0 - report["confidence"]
-    for t in _tests(report, "ljung_box"):
-        if t["p_value"] is None:
-            out.append(f"The Ljung-Box test up to lag {t['lag']} could not be computed: {t['note']}")
-            continue
-        verb = "rejects" if t["reject"] else "does not reject"
-        mc = " (Monte Carlo p-value)" if t["method"] == "monte_carlo" else ""
-        out.append(f"Taken together, the first {t['lag']} autocorrelations: the Ljung-Box test {verb} white noise at "
-                   f"the {fmt(alpha * 100, 2)}% level (Q = {fmt(t['statistic'])} on {t['df']} degrees of freedom, "
-                   f"{fmt_p(t['p_value'])}{mc}).")
+    out.extend(_portmanteau_sentences(report, alpha))
     out.extend(_seasonal_sentences(report))
     for t in _tests(report, "mcleod_li"):
         if t["reject"] and "volatility_clustering" in report["verdict"]["structure"]:
@@ -209,6 +201,29 @@ def sentences(report: dict) -> list[str]:
     return out
 
 
+def _and(items: list[str]) -> str:
+    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
+
+
+def _portmanteau_sentences(report: dict, alpha: float) -> list[str]:
+    out = []
+    done = [t for t in _tests(report, "ljung_box") if t["p_value"] is not None]
+    for t in _tests(report, "ljung_box"):
+        if t["p_value"] is None:
+            out.append(f"The Ljung-Box test up to lag {t['lag']} could not be computed: {t['note']}")
+    if not done:
+        return out
+    mc = " (Monte Carlo p-values)" if done[0]["method"] == "monte_carlo" else ""
+    parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {t['df']} degrees of freedom, {fmt_p(t['p_value'])}"
+             for t in done]
+    rejecting = [str(t["lag"]) for t in done if t["reject"]]
+    verdict = (f"it rejects white noise at the {fmt(alpha * 100, 2)}% level up to lag{'s' if len(rejecting) > 1 else ''} "
+               f"{_and(rejecting)}" if rejecting
+               else f"none rejects white noise at the {fmt(alpha * 100, 2)}% level")
+    out.append(f"The Ljung-Box test of the autocorrelations taken together{mc}: {'; '.join(parts)}; {verdict}.")
+    return out
+
+
 def _seasonal_sentences(report: dict) -> list[str]:
     out = []
     s = report["seasonal"]
@@ -218,16 +233,19 @@ def _seasonal_sentences(report: dict) -> list[str]:
                        f"{fmt(entry['value'])}, outside the band.")
     for t in _tests(report, "seasonal_ljung_box"):
         if t["p_value"] is not None:
-            verb = "reject" if t["reject"] else "do not reject"
-            out.append(f"The seasonal lags {', '.join(map(str, t['details']['seasonal_lags']))} taken together "
-                       f"{verb} white noise ({fmt_p(t['p_value'])}).")
+            lags = t["details"]["seasonal_lags"]
+            subject = (f"The seasonal lags {_and([str(v) for v in lags])} taken together" if len(lags) > 1
+                       else f"The seasonal lag {lags[0]} alone")
+            verb = ("reject" if len(lags) > 1 else "rejects") if t["reject"] else \
+                ("do not reject" if len(lags) > 1 else "does not reject")
+            out.append(f"{subject} {verb} white noise (seasonal Ljung-Box {fmt_p(t['p_value'])}).")
     if s["strength"] and s["strength"]["value"] is not None:
         out.append(f"Seasonal strength from an STL decomposition is {fmt(s['strength']['value'], 2)} on a 0-to-1 "
                    "scale.")
     if s["leftover_likely"] is True:
         out.append("Leftover seasonality is likely.")
     elif s["leftover_likely"] is False:
-        out.append("Leftover seasonality is unlikely at this period.")
+        out.append(f"No sign of leftover seasonality at period {s['period']}.")
     if s["suggested_period"]:
         out.append(f"No period was given; the autocorrelation and periodogram suggest a cycle of about "
                    f"{s['suggested_period']} observations (a suggestion to check, not a test result).")
@@ -250,7 +268,7 @@ def _randomness_sentences(report: dict) -> list[str]:
             out.append(f"There are {'fewer' if few else 'more'} turning points than a random order gives "
                        f"({fmt_p(t['p_value'])}): the series is {'smoother' if few else 'more jagged'} than noise.")
         elif t["reject"] is False:
-            quiet.append("turning points")
+            quiet.append("turning-point")
     for t in _tests(report, "cumulative_periodogram"):
         if t["reject"]:
             out.append(f"The cumulative periodogram leaves its band ({fmt_p(t['p_value'])}): some frequencies carry "
@@ -258,7 +276,7 @@ def _randomness_sentences(report: dict) -> list[str]:
         elif t["reject"] is False:
             quiet.append("cumulative periodogram")
     if quiet:
-        out.append(f"The {', '.join(quiet)} check{'s' if len(quiet) > 1 else ''} find{'' if len(quiet) > 1 else 's'} "
+        out.append(f"The {_and(quiet)} check{'s' if len(quiet) > 1 else ''} find{'' if len(quiet) > 1 else 's'} "
                    "nothing unusual.")
     for t in _tests(report, "jarque_bera"):
         if t["reject"]:

@@ -18,14 +18,14 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy.stats import chi2, norm
+from scipy.special import chdtrc, ndtr
 
 from .autocorrelation import acf
 from .portmanteau import portmanteau
 
 
 def _two_sided(z: np.ndarray) -> np.ndarray:
-    return 2.0 * norm.sf(np.abs(z))
+    return 2.0 * ndtr(-np.abs(z))
 
 
 def runs_about_median(x: np.ndarray):
@@ -88,7 +88,7 @@ def jarque_bera(d: np.ndarray):
     skew = m3 / m2**1.5
     kurt = m4 / m2**2
     stat = n / 6.0 * (skew**2 + (kurt - 3.0) ** 2 / 4.0)
-    return stat, chi2.sf(stat, 2), skew, kurt
+    return stat, chdtrc(2, stat), skew, kurt
 
 
 def mcleod_li(d: np.ndarray, lags: list[int]):

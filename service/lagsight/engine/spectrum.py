@@ -110,8 +110,10 @@ def ks_p_value(statistic: np.ndarray, q: int) -> np.ndarray:
     return kstwobign.sf(_stephens(m) * statistic)
 
 
+@lru_cache(maxsize=256)
 def ks_critical(q: int, confidence: float) -> float | None:
-    """Half-width of the cumulative periodogram band at the given coverage."""
+    """Half-width of the cumulative periodogram band at the given coverage (cached: the
+    exact quantile needs a root search over the survival function)."""
     m = q - 1
     if m < 1:
         return None
