@@ -110,3 +110,19 @@ def test_verdict_evidence_and_rule_are_in_methods(client):
     sources = {e["source"] for e in body["verdict"]["evidence"]}
     assert sources == {"ljung_box", "largest_spike", "seasonal_spike"}
     assert body["verdict"]["confidence"] in ("moderate", "weak", "strong")
+
+
+def test_exceedances_count_expected_and_chance_probability(client):
+    # Reference: scipy.stats.binom.sf(k - 1, K, alpha) = P(at least k of K lags outside by chance).
+    from scipy.stats import binom
+
+    rng = np.random.default_rng(8)
+    e = rng.standard_normal(140)
+    x = (e[12:] + 0.6 * e[:-12]).tolist()  # a seasonal spike at lag 12
+    body = client.post(URL, json={"values": x, "period": 12}).get_json()
+    ex, acf = body["exceedances"], body["acf"]
+    assert ex["count"] == len(acf["outside"]) and ex["lags_tested"] == body["max_lag"]
+    assert ex["expected"] == pytest.approx(0.05 * body["max_lag"])
+    assert ex["chance_probability"] == pytest.approx(binom.sf(ex["count"] - 1, body["max_lag"], 0.05), rel=1e-10)
+    assert sorted(ex["far"] + ex["marginal"]) == acf["outside"]
+    assert 12 in ex["seasonal"] and set(ex["seasonal"]) <= {12, 24, 36}
