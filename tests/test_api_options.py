@@ -126,3 +126,18 @@ def test_exceedances_count_expected_and_chance_probability(client):
     assert ex["chance_probability"] == pytest.approx(binom.sf(ex["count"] - 1, body["max_lag"], 0.05), rel=1e-10)
     assert sorted(ex["far"] + ex["marginal"]) == acf["outside"]
     assert 12 in ex["seasonal"] and set(ex["seasonal"]) <= {12, 24, 36}
+
+
+@pytest.mark.parametrize("values", [
+    [1.7e308, -1.7e308, 1.6e308, 0.0, -1e308, 1.5e308, 3.0],  # differences overflow float64
+    [1e-300, 3e-300, 2e-300, 5e-310, 4e-300],  # subnormal neighbourhood
+    [1e300, 1e-300, 0.0, 1.0, -1e300, 2.0],  # mixed magnitudes
+    [1.0, -1.0] * 20,  # all variance at frequency 0.5; squares constant
+])
+def test_extreme_values_give_finite_reports_without_warnings(client, values):
+    # Warnings are errors in this suite: an overflow inside the engine would fail here.
+    r = client.post(URL, json={"values": values})
+    assert r.status_code == 200
+    assert_valid(r.get_json(), "Report")
+    for t in r.get_json()["tests"]:
+        assert (t["p_value"] is None) == (t["note"] is not None)
