@@ -19,6 +19,8 @@ from pathlib import Path
 import pytest
 import requests
 
+from .live_server import gunicorn
+
 pytestmark = pytest.mark.slow
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -39,6 +41,14 @@ def java_classes(tmp_path_factory) -> Path:
     return out
 
 
+@pytest.fixture(scope="module")
+def guarded_server(tmp_path_factory):
+    """A deployment that requires a bearer token."""
+    log = tmp_path_factory.mktemp("guarded") / "gunicorn.log"
+    with gunicorn(log, workers=1, env={"LAGSIGHT_AUTH_TOKENS": "team-ops-7f3a"}) as base:
+        yield base
+
+
 @pytest.fixture(params=["curl", "python", "node", "java"])
 def client(request) -> list[str]:
     """The command line that starts one client."""
@@ -52,9 +62,11 @@ def client(request) -> list[str]:
     return ["java", "-cp", str(request.getfixturevalue("java_classes")), "LagsightClient"]
 
 
-def run(command: list[str], mode: str, payload: Path, base: str, timeout_s: int = 30):
+def run(command: list[str], mode: str, payload: Path, base: str, timeout_s: int = 30, token: str | None = None):
     env = {**os.environ, "LAGSIGHT_URL": base, "LAGSIGHT_TIMEOUT": str(timeout_s)}
     env.pop("LAGSIGHT_TOKEN", None)
+    if token:
+        env["LAGSIGHT_TOKEN"] = token
     return subprocess.run([*command, mode, str(payload)], capture_output=True, text=True, env=env,
                           timeout=RUN_TIMEOUT, cwd=ROOT)
 
@@ -125,6 +137,15 @@ def test_a_server_that_never_answers_ends_in_the_clients_timeout(client, tmp_pat
         done = run(client, "single", DEMO / "bakery_daily_residuals.json", base, timeout_s=1)
     assert done.returncode == 3, (done.stdout, done.stderr)
     assert "no answer" in done.stderr and "within 1 s" in done.stderr
+
+
+def test_the_token_is_sent_where_the_deployment_requires_one(client, guarded_server):
+    path = DEMO / "farm_shop_short_monthly_residuals.json"
+    refused = run(client, "single", path, guarded_server)
+    assert refused.returncode == 2 and refused.stderr.startswith("error 401 ("), refused.stderr
+    done = run(client, "single", path, guarded_server, token="team-ops-7f3a")
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.splitlines()[1] == "verdict: white noise"
 
 
 def test_powershell_script_parses():

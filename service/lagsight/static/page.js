@@ -399,7 +399,7 @@
       if (lag % every !== 0 && !(lag === 1 && every > 2)) continue;
       el("text", { x: xs(lag), y: H - 8, "text-anchor": "middle", class: "tick" }, svg).textContent = String(lag);
     }
-    el("text", { x: W - right, y: H - 20, "text-anchor": "end", class: "tick" }, svg).textContent = "lag";
+    el("text", { x: left - 6, y: H - 8, "text-anchor": "end", class: "tick" }, svg).textContent = "lag";
     host.replaceChildren(svg);
   }
 
