@@ -147,7 +147,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if observed.min() == observed.max():  # not np.ptp: max - min overflows near the float64 limit
+    if observed.min() == observed.max():  # not np.ptp: max - min overflows for values near +-1.8e308
         what = " after the transforms" if steps else ""
         raise invalid("/transform" if steps else "/values",
                       f"The series is constant{what}; autocorrelation is undefined when there is no variation.")
