@@ -127,4 +127,9 @@ def measure_scaling(lengths: list[int], batch_sizes: list[int], max_lag: int, ba
         "slope_length": {k: _slope(lengths, [by_length[n][k] for n in lengths]) for k in ("engine", "full_report")},
         "slope_length_nlogn": {k: _slope(nlogn, [by_length[n][k] for n in lengths]) for k in ("engine", "full_report")},
         "slope_batch": {k: _slope(batch_sizes, [by_batch[m][k] for m in batch_sizes]) for k in ("engine", "full_report")},
+        # Between the two longest series, where the arithmetic outweighs the fixed cost per call:
+        "slope_length_top": {k: _slope(lengths[-2:], [by_length[n][k] for n in lengths[-2:]])
+                             for k in ("engine", "full_report")},
+        "slope_length_top_nlogn": {k: _slope(nlogn[-2:], [by_length[n][k] for n in lengths[-2:]])
+                                   for k in ("engine", "full_report")},
     }

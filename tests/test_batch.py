@@ -283,6 +283,28 @@ def test_ndjson_is_sent_block_by_block(app, small_blocks):
     r.close()
 
 
+def test_the_first_ndjson_block_is_sent_before_the_next_is_computed(app, monkeypatch, small_blocks):
+    """Nothing between the view and the server (logging, headers) may read the stream ahead."""
+    import lagsight.views.batch as view
+
+    real, computed = view.run_blocks, []
+
+    def counting(items):
+        for block in real(items):
+            computed.append(len(block))
+            yield block
+
+    monkeypatch.setattr(view, "run_blocks", counting)
+    series = [{"id": i, "values": _noise(200, i)} for i in range(30)]
+    r = app.test_client().post(URL, json={"series": series}, headers={"Accept": NDJSON}, buffered=False)
+    chunks = iter(r.response)
+    first = next(chunks)
+    assert first.startswith(b'{"kind":"result"') and len(computed) == 1
+    rest = b"".join(chunks)
+    assert len(computed) >= 6 and rest.endswith(b"\n")
+    r.close()
+
+
 def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, small_blocks):
     import lagsight.views.batch as view
 

@@ -90,7 +90,8 @@ def init_app(app: Flask) -> None:
             "request", extra={
                 "request_id": rid, "method": request.method, "route": route, "status": response.status_code,
                 "duration_ms": round(seconds * 1000, 3), "request_bytes": request.content_length,
-                "response_bytes": response.calculate_content_length(),
+                # None for a streamed body: measuring it would read (and so buffer) the whole stream first
+                "response_bytes": None if response.is_streamed else response.calculate_content_length(),
             },
         )
         return response
