@@ -117,7 +117,7 @@ def _pick(spec: str | None, header: list[str] | None, width: int, param: str) ->
         folded = [h.casefold() for h in names]
         if spec.strip().casefold() in folded:
             return folded.index(spec.strip().casefold())
-    if spec.strip().isdigit() and int(spec) < width:
+    if spec.strip().isascii() and spec.strip().isdigit() and int(spec) < width:  # not "³": isdigit but not int
         return int(spec)
     listing = ", ".join(repr(h) for h in header) if header is not None else f"indexes 0 to {width - 1}"
     raise Problem("invalid-content", f"No column {spec!r} in the file.", [FieldError(
