@@ -50,3 +50,41 @@ def gunicorn(log_path: Path, workers: int = 2, env: dict | None = None, start_ti
             proc.kill()
             proc.wait(timeout=10)
         log.close()
+
+
+@contextmanager
+def live_gunicorn(tmp_path: Path, env: dict | None = None, workers: int = 1, start_timeout: float = 60.0):
+    """Like :func:`gunicorn`, but with the production config file (lagsight.gunicorn_conf, LAGSIGHT_* settings),
+    ready only when /readyz passes, and failing the test if the server died while it ran."""
+    port = free_port()
+    environ = {**os.environ, "LAGSIGHT_HOST": "127.0.0.1", "LAGSIGHT_PORT": str(port),
+               "LAGSIGHT_WORKERS": str(workers), **(env or {})}
+    environ.pop("PROMETHEUS_MULTIPROC_DIR", None)
+    log_path = tmp_path / f"gunicorn-{port}.log"
+    with open(log_path, "wb") as log:
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"],
+            stdout=log, stderr=log, env=environ,
+        )
+    base = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + start_timeout
+        while True:
+            try:
+                if requests.get(base + "/readyz", timeout=2).status_code == 200:
+                    break
+            except (requests.ConnectionError, requests.Timeout):
+                pass
+            if proc.poll() is not None or time.monotonic() > deadline:
+                raise RuntimeError("gunicorn did not become ready:\n" + log_path.read_text(errors="replace"))
+            time.sleep(0.2)
+        yield base
+        assert proc.poll() is None, "gunicorn died during the test:\n" + log_path.read_text(errors="replace")[-3000:]
+    finally:
+        if proc.poll() is None:
+            proc.send_signal(signal.SIGTERM)
+            try:
+                proc.wait(timeout=30)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait(timeout=10)

@@ -110,3 +110,34 @@ def test_verdict_evidence_and_rule_are_in_methods(client):
     sources = {e["source"] for e in body["verdict"]["evidence"]}
     assert sources == {"ljung_box", "largest_spike", "seasonal_spike"}
     assert body["verdict"]["confidence"] in ("moderate", "weak", "strong")
+
+
+def test_exceedances_count_expected_and_chance_probability(client):
+    # Reference: scipy.stats.binom.sf(k - 1, K, alpha) = P(at least k of K lags outside by chance).
+    from scipy.stats import binom
+
+    rng = np.random.default_rng(8)
+    e = rng.standard_normal(140)
+    x = (e[12:] + 0.6 * e[:-12]).tolist()  # a seasonal spike at lag 12
+    body = client.post(URL, json={"values": x, "period": 12}).get_json()
+    ex, acf = body["exceedances"], body["acf"]
+    assert ex["count"] == len(acf["outside"]) and ex["lags_tested"] == body["max_lag"]
+    assert ex["expected"] == pytest.approx(0.05 * body["max_lag"])
+    assert ex["chance_probability"] == pytest.approx(binom.sf(ex["count"] - 1, body["max_lag"], 0.05), rel=1e-10)
+    assert sorted(ex["far"] + ex["marginal"]) == acf["outside"]
+    assert 12 in ex["seasonal"] and set(ex["seasonal"]) <= {12, 24, 36}
+
+
+@pytest.mark.parametrize("values", [
+    [1.7e308, -1.7e308, 1.6e308, 0.0, -1e308, 1.5e308, 3.0],  # differences overflow float64
+    [1e-300, 3e-300, 2e-300, 5e-310, 4e-300],  # subnormal neighbourhood
+    [1e300, 1e-300, 0.0, 1.0, -1e300, 2.0],  # mixed magnitudes
+    [1.0, -1.0] * 20,  # all variance at frequency 0.5; squares constant
+])
+def test_extreme_values_give_finite_reports_without_warnings(client, values):
+    # Warnings are errors in this suite: an overflow inside the engine would fail here.
+    r = client.post(URL, json={"values": values})
+    assert r.status_code == 200
+    assert_valid(r.get_json(), "Report")
+    for t in r.get_json()["tests"]:
+        assert (t["p_value"] is None) == (t["note"] is not None)

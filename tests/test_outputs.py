@@ -77,10 +77,14 @@ def test_charts_block_is_always_present_and_consistent(client):
     corr = c["correlogram"]
     assert corr["values"] == report["acf"]["values"] and corr["upper"] == report["acf"]["upper"]
     assert [lag for lag, s in zip(corr["lags"], corr["seasonal"]) if s] == [12, 24]
-    se = np.array(corr["upper"]) / 1.959963984540054  # band half-width / z(0.975)
-    v = np.abs(np.array(corr["values"]))
-    expected = np.where(v <= se * 1.959963984540054, "inside", np.where(v <= 3 * se, "marginal", "far"))
-    assert corr["zone"] == expected.tolist()
+    # Zones are the report's own classification: far lags, other outside lags (marginal), the rest inside.
+    expected = ["far" if lag in report["acf"]["far"] else "marginal" if lag in report["acf"]["outside"] else "inside"
+                for lag in corr["lags"]]
+    assert corr["zone"] == expected
+    assert set(report["acf"]["marginal"]) == {lag for lag, z in zip(corr["lags"], corr["zone"]) if z == "marginal"}
+    se = np.array(report["acf"]["standard_error"])  # far means beyond options.FAR_OUTSIDE_SE = 3 standard errors
+    v = np.abs(np.array(corr["values"]) - np.array(report["acf"]["centre"]))
+    assert all((vi > 3 * si) == (z == "far") for vi, si, z in zip(v, se, corr["zone"]))
     assert {"far", "inside"} <= set(corr["zone"])  # the seeded series has both
     assert all(chart["vega_lite"] is None for chart in c.values())
 
@@ -93,6 +97,17 @@ def test_long_series_time_plot_is_thinned_keeping_extremes():
     assert block["thinned"] and len(block["values"]) <= charts.MAX_TIME_POINTS and block["points"] == 50_000
     assert 25.0 in block["values"] and -25.0 in block["values"]
     assert block["x"] == sorted(block["x"])
+
+
+def test_periodogram_chart_says_why_it_is_empty_with_missing_values(client):
+    body = _seasonal_body() | {"missing": "pairwise"}
+    body["values"][50] = None
+    block = client.post(URL, json=body).get_json()["charts"]["periodogram"]
+    assert block["frequencies"] == [] and "missing=interpolate" in block["note"]
+    filled = client.post(URL, json=body | {"missing": "interpolate"}).get_json()
+    block = filled["charts"]["periodogram"]
+    assert block["frequencies"] == filled["periodogram"]["frequencies"] and block["note"] is None
+    assert len(block["power"]) == len(block["cumulative"]) == len(block["frequencies"]) > 10
 
 
 def test_zones_follow_the_report_far_and_marginal_lags(client):

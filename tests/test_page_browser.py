@@ -12,6 +12,7 @@ from contextlib import contextmanager
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from .live_server import gunicorn
@@ -150,6 +151,24 @@ def test_text_that_is_not_a_number_is_named_before_anything_is_sent(page, live_s
     page.locator("#problem").wait_for(state="visible")
     assert 'Value 3 ("abc") is not a number' in page.inner_text("#problem")
     assert sent == []
+
+
+def test_decimal_commas_are_read_when_chosen_and_a_stray_point_is_named(page, live_server):
+    values = [-0.6, 5.25, 23.2, -24.4, 20.75, 9.0, -1.0, -17.4, -7.4, -13.8, 1234.5, -2.5]
+    page.goto(live_server + "/")
+    page.select_option("#decimal", ",")
+    page.fill("#values", "; ".join(f"{v:,.2f}".replace(",", " ").replace(".", ",").replace(" ", ".")
+                                   for v in values))  # 1.234,50 and -0,60 as a spreadsheet writes them
+    assert page.inner_text("#values-count") == "12 values"
+    page.click("#submit")
+    page.wait_for_selector("#result:not([hidden])")
+    shown = page.evaluate("() => [...document.querySelectorAll('#lags-table tbody tr')].map(r => r.cells[1].textContent)")
+    x = np.array(values) - np.mean(values)  # lag-1 autocorrelation, biased estimator (divide by n)
+    assert float(shown[0]) == pytest.approx(np.dot(x[:-1], x[1:]) / np.dot(x, x), abs=5e-4)
+    page.fill("#values", "1,5\n2.5\n3,25")
+    page.click("#submit")
+    page.locator("#problem").wait_for(state="visible")
+    assert 'Value 2 ("2.5") has a decimal point' in page.inner_text("#problem")
 
 
 def test_keyboard_alone_can_fill_the_form_and_submit(page, live_server):

@@ -17,27 +17,8 @@ Every chart is a small table a plotting library can draw as is:
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import ndtri
-
-from . import options
 
 MAX_TIME_POINTS = 2000
-
-
-def zones(values, upper, confidence: float) -> list:
-    """inside / marginal / far for each lag (None where the value is undefined).
-
-    ``values`` and ``upper`` may be lists (None for undefined) or arrays of shape (K,) or (m, K);
-    the result is a list of the same nesting.
-    """
-    z = float(-ndtri((1.0 - confidence) / 2.0))  # = norm.isf(...), without the distribution object's overhead
-    v = np.abs(np.array(values, dtype=np.float64))
-    u = np.array(upper, dtype=np.float64)
-    with np.errstate(invalid="ignore"):
-        out = np.where(v <= u, "inside", np.where(v <= options.FAR_OUTSIDE_SE * u / z, "marginal", "far"))
-    out = out.astype(object)
-    out[np.isnan(v) | np.isnan(u)] = None
-    return out.tolist()
 
 
 def _thin(y: np.ndarray, limit: int) -> np.ndarray:
@@ -88,11 +69,15 @@ def correlogram(block: dict, zone: list, seasonal: list[bool]) -> dict:
     }
 
 
-def periodogram(block: dict | None) -> dict:
+NO_PERIODOGRAM_WITH_GAPS = ("The periodogram needs a complete, evenly spaced series, so it is not computed while "
+                            "observations are missing; send missing=interpolate to get it.")
+
+
+def periodogram(block: dict | None, gaps: bool = False) -> dict:
     if not block or not block.get("frequencies"):
+        note = NO_PERIODOGRAM_WITH_GAPS if gaps else (block or {}).get("note")
         return {"frequencies": [], "power": [], "cumulative": [], "lower": [], "upper": [],
-                "note": (block or {}).get("note") or "No periodogram was computed for this series.",
-                "vega_lite": None}
+                "note": note or "No periodogram was computed for this series (too short).", "vega_lite": None}
     return {"frequencies": block["frequencies"], "power": block["power"], "cumulative": block["cumulative"],
             "lower": block.get("lower") or [], "upper": block.get("upper") or [],
             "note": None if block.get("lower") else "The cumulative periodogram's band is not defined here.",
@@ -119,5 +104,5 @@ def chart_data(values: np.ndarray, labels: list[str] | None, report: dict) -> di
         "time_plot": time_plot(values, labels),
         "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),
         "pacf": correlogram(report["pacf"], block_zones(report["pacf"]), seasonal),
-        "periodogram": periodogram(report.get("periodogram")),
+        "periodogram": periodogram(report.get("periodogram"), bool(report["missing"]["remaining"])),
     }

@@ -9,9 +9,13 @@ lines JSON like the service's.
 import glob
 import os
 import shutil
+import signal
 import tempfile
 
 from lagsight import config as _config  # imports no metrics: prometheus_client must see the directory first
+from lagsight import whole_response
+
+whole_response.install()  # header and body in one write: a killed worker never leaves a half-sent response
 
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"  # read by prometheus_client when it is first imported
 
@@ -47,6 +51,29 @@ if _made_dir:
     os.environ[MULTIPROC_ENV] = tempfile.mkdtemp(prefix="lagsight-metrics-")
 for _stale in glob.glob(os.path.join(os.environ[MULTIPROC_ENV], "*.db")):
     os.remove(_stale)
+
+
+def post_worker_init(worker):
+    """On SIGTERM a worker stops listening at once, then finishes the request in hand.
+
+    gunicorn's master closes its listening socket on SIGTERM, but each worker keeps its
+    inherited copy open while it drains, so the kernel would go on queueing connections
+    that no one will accept (they are reset when the last worker exits). Closing the
+    worker's copy too makes new connections fail fast with "refused", which clients and
+    proxies retry elsewhere at once; the request being served is unaffected.
+    """
+    drain = worker.handle_exit
+
+    def stop_listening_then_drain(sig, frame):
+        for listener in worker.sockets:
+            try:
+                listener.close()
+            except OSError:
+                pass
+        drain(sig, frame)
+
+    worker.handle_exit = stop_listening_then_drain
+    signal.signal(signal.SIGTERM, stop_listening_then_drain)
 
 
 def child_exit(server, worker):

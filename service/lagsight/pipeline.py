@@ -46,6 +46,9 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
     MAX_REPLICATES and MAX_SIMULATED_VALUES (the deployment settings).
     """
     n = series.n
+    if opts["model_df"] >= n:  # also keeps absurd integers (beyond 64 bits) out of the arithmetic
+        raise invalid("/model_df", f"model_df (parameters of the fitted model) must be less than the number of "
+                                   f"usable values ({n}), got {opts['model_df']}.")
     mask = series.mask
     max_lag = resolve_max_lag(opts.get("max_lag"), series.length if mask is not None else n, series.period,
                               limits["MAX_LAG"])

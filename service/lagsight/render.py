@@ -100,6 +100,13 @@ def _time_plot(ax, block: dict, title: str) -> None:
 
 
 def _periodogram(fig, block: dict, title: str) -> None:
+    if not block["frequencies"]:
+        ax = fig.subplots()
+        ax.set_axis_off()
+        ax.set_title(title, loc="left", fontsize=10, color=style.TEXT, fontweight="bold")
+        ax.text(0.5, 0.5, block["note"] or "No periodogram for this series.", ha="center", va="center",
+                fontsize=9, color=style.TEXT, wrap=True, transform=ax.transAxes)
+        return
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1, 1.3]})
     f = np.asarray(block["frequencies"], dtype=float)
     top.plot(f, np.asarray(block["power"], dtype=float), color=style.LINE, linewidth=1.0)

@@ -95,6 +95,9 @@ def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
                             f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
                 elif stat is None or p is None:
                     note = _NOT_COMPUTABLE.get(t.name, "Not computable for this series.")
+                    if t.name == "cumulative_periodogram" and (constant.get("frequencies_tested") or 0) >= 1:
+                        note = ("Not computable: the series has no variance at the Fourier frequencies tested "
+                                "(all of it sits at frequency 0.5, a strict alternation).")
                     if t.name == "cumulative_periodogram" and analysis.n_effective is not None:
                         note = ("Not computable with missing observations: the periodogram needs a complete, "
                                 "evenly spaced series (use missing \"interpolate\" to get it).")

@@ -32,6 +32,15 @@ class PreparedSeries:
     missing: dict = field(default_factory=dict)  # the report's ``missing`` block
     transform: dict = field(default_factory=dict)  # the report's ``transform`` block
 
+    def __post_init__(self):
+        """Complete blocks for a series built directly (nothing missing, no transform)."""
+        if not self.missing:
+            self.missing = {"method": options.DEFAULT_MISSING, "count": 0, "from_nulls": 0, "from_gaps": 0,
+                            "dropped_at_ends": 0, "interpolated": 0, "remaining": 0, "effective_n": None,
+                            "note": None}
+        if not self.transform:
+            self.transform = {"steps": [], "n_before": int(self.values.size), "n_after": int(self.values.size)}
+
     @property
     def n(self) -> int:
         """Observed points analysed."""
@@ -147,7 +156,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if np.ptp(observed) == 0:
+    if observed.min() == observed.max():  # not np.ptp: max - min overflows for values near +-1.8e308
         what = " after the transforms" if steps else ""
         raise invalid("/transform" if steps else "/values",
                       f"The series is constant{what}; autocorrelation is undefined when there is no variation.")

@@ -95,7 +95,7 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
         source = "request"
         if lam == options.BOX_COX_ESTIMATE:
             obs = x[~np.isnan(x)]
-            if np.ptp(obs) == 0:
+            if obs.min() == obs.max():
                 raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series.")
             lam, source = float(stats.boxcox_normmax(obs, method="mle")), "estimated"
         x = special.boxcox(x, lam)

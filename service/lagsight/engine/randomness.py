@@ -66,6 +66,8 @@ def turning_points(x: np.ndarray):
     """
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[1]
+    peak = np.max(np.abs(x), axis=1, keepdims=True)
+    x = np.ldexp(x, -np.frexp(np.where(peak > 0, peak, 1.0))[1])  # exact rescaling: differences cannot overflow
     left = x[:, 1:-1] - x[:, :-2]
     right = x[:, 1:-1] - x[:, 2:]
     count = ((left > 0) & (right > 0) | (left < 0) & (right < 0)).sum(axis=1).astype(np.float64)

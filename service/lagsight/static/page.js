@@ -37,7 +37,14 @@
   function parseNumber(token, decimalComma, index) {
     const t = token.trim().replace(/^"(.*)"$/, "$1");
     if (MISSING_WORDS.has(t.toLowerCase())) return null;
-    const normal = decimalComma ? t.replace(/\./g, "").replace(",", ".") : t;
+    let normal = t;
+    if (decimalComma) {
+      // a point is taken only as a thousands separator (1.234,5); anything else would change the number silently
+      if (t.includes(".") && !/^[+-]?\d{1,3}(\.\d{3})+(,\d*)?$/.test(t)) {
+        throw new Error(`Value ${index + 1} ("${t.slice(0, 30)}") has a decimal point; choose "point" as the decimal mark.`);
+      }
+      normal = t.replace(/\./g, "").replace(",", ".");
+    }
     if (!/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(normal)) {
       throw new Error(`Value ${index + 1} ("${t.slice(0, 30)}") is not a number.`);
     }
@@ -193,6 +200,7 @@
       body = buildRequest();
     } catch (err) {
       showProblem({ title: "Check the input", detail: err.message });
+      $("result").hidden = true; // an old result must not be read as the answer to this input
       return;
     }
     const controller = new AbortController();
