@@ -185,6 +185,8 @@ def run_load(port: int, seconds: float, threads: int, body: bytes, max_requests:
 
 
 def write_result(name: str, data: dict) -> Path:
+    data = {**data, "recorded_at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+            "host_loadavg_1m_at_end": round(os.getloadavg()[0], 2), "host_cores": os.cpu_count()}
     out = ROOT / "ops" / "results" / f"{name}.json"
     out.parent.mkdir(exist_ok=True)
     out.write_text(json.dumps(data, indent=2) + "\n")

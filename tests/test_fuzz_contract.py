@@ -56,4 +56,5 @@ def test_every_operation_answers_within_its_contract(case):
 def test_fuzzing_sent_enough_requests_across_all_operations():
     operations = {op.ok().label for op in SCHEMA.get_all_operations()}
     assert set(SENT) == operations, sorted(operations - set(SENT))
+    print(f"\nschemathesis requests per operation: {dict(SENT)}; total {sum(SENT.values())}")
     assert sum(SENT.values()) >= MIN_TOTAL_REQUESTS, dict(SENT)

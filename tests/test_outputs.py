@@ -149,11 +149,29 @@ def test_vega_lite_specs_validate_against_the_vega_lite_schema(client):
     assert [row["value"] for row in corr["data"]["values"]] == report["acf"]["values"]
     assert corr["layer"][0]["mark"]["type"] == "area"  # the band is a shaded region
     assert corr["layer"][2]["encoding"]["color"]["scale"]["range"] == list(style.ZONE_COLOURS.values())
-    period = report["charts"]["periodogram"]
-    if period["frequencies"]:
-        assert not list(validator.iter_errors(period["vega_lite"]))
+    assert report["charts"]["periodogram"]["vega_lite"] is None  # not computed with values missing
+    filled = client.post(URL, json=body | {"missing": "interpolate"}, query_string={"vega_lite": "true"}).get_json()
+    spec = filled["charts"]["periodogram"]["vega_lite"]
+    errors = list(validator.iter_errors(spec))
+    assert not errors, [(list(e.path), e.message[:200]) for e in errors[:3]]
+    assert [row["power"] for row in spec["data"]["values"]] == filled["periodogram"]["power"]
     invalid = dict(corr, mark="spike")  # a structural check that the validator does reject bad specs
     assert list(validator.iter_errors(invalid))
+
+
+def test_vega_lite_specs_compile_and_render(client):
+    """Schema-valid is not enough: each specification must compile in Vega-Lite itself and render
+    (vl-convert-python bundles the Vega-Lite compiler and renderer; no browser)."""
+    import vl_convert
+
+    body = _seasonal_body()
+    report = client.post(URL, json=body, query_string={"vega_lite": "true"}).get_json()
+    for name in ("time_plot", "correlogram", "pacf", "periodogram"):
+        svg = vl_convert.vegalite_to_svg(report["charts"][name]["vega_lite"])
+        root = ET.fromstring(svg)
+        assert root.tag.endswith("svg"), name
+        if name in ("correlogram", "pacf"):
+            assert style.BAND_FILL.lower() in svg.lower()  # the band is drawn as a filled region
 
 
 @pytest.mark.parametrize("chart", ["correlogram", "pacf", "time_plot", "periodogram", "panel"])

@@ -128,3 +128,31 @@ def test_token_matching_is_exact():
     assert token_matches("alpha", digests) and token_matches("beta", digests)
     for wrong in ("alph", "alphaa", "ALPHA", "", "beta\n", "\udcff"):
         assert not token_matches(wrong, digests)
+
+
+def _operations():
+    from .spec_tools import spec
+
+    for path, item in spec()["paths"].items():
+        for method, op in item.items():
+            if method in {"get", "post", "put", "patch", "delete"}:
+                yield path, method, op
+
+
+def test_spec_says_which_operations_need_a_token():
+    """Public operations declare security: [] and the others document the 401 they answer without a token."""
+    from lagsight.security import PUBLIC_PATHS
+
+    for path, method, op in _operations():
+        if path in PUBLIC_PATHS:
+            assert op.get("security") == [], (method, path)
+        else:
+            assert "security" not in op and "401" in op["responses"], (method, path)
+
+
+def test_every_protected_operation_answers_401_without_a_token(locked):
+    from lagsight.security import PUBLIC_PATHS
+
+    for path, method, _ in _operations():
+        r = locked.open(path, method=method.upper(), json={"values": [1, 3, 2, 5]} if method == "post" else None)
+        assert (r.status_code == 401) is (path not in PUBLIC_PATHS), (method, path, r.status_code)

@@ -28,6 +28,8 @@ import io
 import math
 import re
 
+import numpy as np
+
 from werkzeug.datastructures import MultiDict
 
 from . import options
@@ -76,18 +78,25 @@ def _delimiter(args: MultiDict, text: str) -> str:
     return ","
 
 
-def _rows(text: str, delimiter: str) -> list[tuple[int, list[str]]]:
+def _rows(text: str, delimiter: str) -> tuple[list[list[str]], list[int] | None]:
+    """The rows, and the line each starts on (None when row i is line i + 1: no quote can span lines)."""
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"', strict=True)
-    rows, line = [], 1
+    lines: list[int] | None = None
+    rows: list[list[str]] = []
     try:
-        for row in reader:
-            rows.append((line, row))
-            line = reader.line_num + 1
+        if '"' not in text:
+            rows = list(reader)
+        else:
+            lines, line = [], 1
+            for row in reader:
+                rows.append(row)
+                lines.append(line)
+                line = reader.line_num + 1
     except csv.Error as err:
-        raise _malformed(f"{err}; check the quotes on this line.", line) from None
-    while rows and not any(cell.strip() for cell in rows[-1][1]):
+        raise _malformed(f"{err}; check the quotes on this line.", reader.line_num if lines is None else line) from None
+    while rows and not any(cell.strip() for cell in rows[-1]):
         rows.pop()
-    return rows
+    return rows, (lines[: len(rows)] if lines is not None else None)
 
 
 def _is_number(cell: str) -> bool:
@@ -108,7 +117,7 @@ def _pick(spec: str | None, header: list[str] | None, width: int, param: str) ->
         folded = [h.casefold() for h in names]
         if spec.strip().casefold() in folded:
             return folded.index(spec.strip().casefold())
-    if spec.strip().isdigit() and int(spec) < width:
+    if spec.strip().isascii() and spec.strip().isdigit() and int(spec) < width:  # not "³": isdigit but not int
         return int(spec)
     listing = ", ".join(repr(h) for h in header) if header is not None else f"indexes 0 to {width - 1}"
     raise Problem("invalid-content", f"No column {spec!r} in the file.", [FieldError(
@@ -128,21 +137,23 @@ def read_series(body: bytes, args: MultiDict) -> dict:
     """Read a CSV body into ``values`` (floats, None for missing) and ``timestamps`` (or None)."""
     text = _decode(body)
     delimiter = _delimiter(args, text)
-    rows = _rows(text, delimiter)
+    rows, row_lines = _rows(text, delimiter)
     header_flag = _flag(args, "header")
-    first = rows[0][1] if rows else []
+    first = rows[0] if rows else []
     if header_flag is None:
         header_flag = bool(first) and not any(_is_number(c.strip()) or _ISO_DATE.match(c.strip()) for c in first)
     header = [c.strip() for c in first] if header_flag else None
-    data = rows[1:] if header_flag else rows
-    width = len(header) if header is not None else max((len(r) for _, r in data), default=1)
+    skip = 1 if header_flag else 0
+    data = rows[skip:]
+    lines = row_lines[skip:] if row_lines is not None else list(range(skip + 1, skip + 1 + len(data)))
+    width = len(header) if header is not None else max(map(len, data), default=1)
     time_spec = args.get("time_column")
     if time_spec is not None and time_spec.strip().lower() == "none":
         tcol = None
     elif time_spec is not None:
         tcol = _pick(time_spec, header, width, "time_column")
     else:
-        sample = next((r for _, r in data if r), [])
+        sample = next((r for r in data if r), [])
         tcol = 0 if width >= 2 and sample and _ISO_DATE.match(sample[0].strip()) else None
     vcol = _pick(args.get("column"), header, width, "column")
     if vcol is None:
@@ -157,31 +168,34 @@ def read_series(body: bytes, args: MultiDict) -> dict:
         raise Problem("invalid-content", "The value and time columns are the same.",
                       [FieldError("/column", f"column and time_column name the same column ({vcol}).")])
     need = max(vcol, tcol if tcol is not None else 0) + 1
-    cells, stamps = [], [] if tcol is not None else None
-    for line, row in data:
-        if not row and width == 1:
-            row = [""]
-        if len(row) < need:
-            raise _malformed(f"the row has {len(row)} field(s) but column {need} is needed"
-                             + (f" (the header has {width})" if header is not None else "")
-                             + f"; is the delimiter {delimiter!r} right?", line)
-        if header is not None and len(row) > width and any(c.strip() for c in row[width:]):
-            raise _malformed(f"the row has {len(row)} fields but the header has {width}; a decimal comma in a "
-                             "comma-separated file must be quoted (or use ';' between fields).", line, width + 1)
-        cells.append((line, row[vcol].strip()))
-        if stamps is not None:
-            stamps.append((line, row[tcol].strip()))
-    decimal = _decimal(args, delimiter, [c for _, c in cells])
-    values = _numbers(cells, decimal, vcol + 1)
-    out = {"values": values, "_value_lines": [line for line, _ in cells], "_value_column": vcol + 1}
-    if stamps is not None:
-        empty = [(i, line) for i, (line, s) in enumerate(stamps) if not s]
-        if empty:
-            i, line = empty[0]
+    if width == 1:
+        data = [r if r else [""] for r in data]  # a blank line in a one-column file is a missing value
+    sizes = np.fromiter(map(len, data), dtype=np.int64, count=len(data))
+    short = np.flatnonzero(sizes < need)
+    if short.size:
+        i = int(short[0])
+        raise _malformed(f"the row has {int(sizes[i])} field(s) but column {need} is needed"
+                         + (f" (the header has {width})" if header is not None else "")
+                         + f"; is the delimiter {delimiter!r} right?", lines[i])
+    if header is not None:
+        for i in np.flatnonzero(sizes > width).tolist():
+            if any(c.strip() for c in data[i][width:]):
+                raise _malformed(f"the row has {int(sizes[i])} fields but the header has {width}; a decimal comma "
+                                 "in a comma-separated file must be quoted (or use ';' between fields).", lines[i],
+                                 width + 1)
+    cells = [r[vcol].strip() for r in data]
+    decimal = _decimal(args, delimiter, cells)
+    values = _numbers(cells, lines, decimal, vcol + 1)
+    out = {"values": values, "_value_lines": lines, "_value_column": vcol + 1}
+    if tcol is not None:
+        stamps = [r[tcol].strip() for r in data]
+        if not all(stamps):
+            i = stamps.index("")
             raise Problem("invalid-content", "A timestamp is empty.", [FieldError(
-                f"/timestamps/{i}", f"Line {line}, column {tcol + 1}: the timestamp is empty.", line, tcol + 1)])
-        out["timestamps"] = [s for _, s in stamps]
-        out["_stamp_lines"] = [line for line, _ in stamps]
+                f"/timestamps/{i}", f"Line {lines[i]}, column {tcol + 1}: the timestamp is empty.", lines[i],
+                tcol + 1)])
+        out["timestamps"] = stamps
+        out["_stamp_lines"] = lines
         out["_stamp_column"] = tcol + 1
     if header is not None and "name" not in args:
         out["name"] = header[vcol][:200] or None
@@ -204,23 +218,32 @@ def _decimal(args: MultiDict, delimiter: str, cells: list[str]) -> str:
     return "," if commas and not points and all(_DECIMAL_COMMA.match(c) for c in sample) else "."
 
 
-def _numbers(cells: list[tuple[int, str]], decimal: str, column: int) -> list:
+def _numbers(cells: list[str], lines: list[int], decimal: str, column: int) -> list:
+    """Cells to floats (None for missing). Clean columns convert in one step; otherwise cell by cell."""
+    if decimal == ",":
+        cells = [c.replace(",", ".") if "." not in c else c + "!" for c in cells]  # "1.234,5" must fail
+    try:
+        array = np.array(cells, dtype=np.float64)
+        if np.isfinite(array).all():
+            return array.tolist()
+    except ValueError:
+        pass
     missing = options.CSV_MISSING_TOKENS
     values, errors = [], []
-    for i, (line, cell) in enumerate(cells):
-        if cell.lower() in missing:
+    for i, cell in enumerate(cells):
+        if cell.rstrip("!").lower() in missing:
             values.append(None)
             continue
-        text = cell.replace(",", ".") if decimal == "," and "." not in cell else cell
         try:
-            number = float(text) if (decimal == "." and "," not in cell) or decimal == "," else None
+            number = float(cell)
         except ValueError:
             number = None
         if number is None or not math.isfinite(number):
             if len(errors) < _MAX_LISTED:
+                shown = cell.rstrip("!") if decimal == "," else cell
                 hint = " (decimal mark is ',')" if decimal == "," else ""
-                errors.append(FieldError(f"/values/{i}", f"Line {line}, column {column}: {cell[:40]!r} is not a "
-                                                         f"finite number{hint}.", line, column))
+                errors.append(FieldError(f"/values/{i}", f"Line {lines[i]}, column {column}: {shown[:40]!r} is not a "
+                                                         f"finite number{hint}.", lines[i], column))
             values.append(None)
             continue
         values.append(number)

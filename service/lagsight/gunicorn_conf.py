@@ -13,9 +13,10 @@ import signal
 import tempfile
 
 from lagsight import config as _config  # imports no metrics: prometheus_client must see the directory first
-from lagsight import whole_response
+from lagsight import server_errors, whole_response
 
 whole_response.install()  # header and body in one write: a killed worker never leaves a half-sent response
+server_errors.install()  # gunicorn's own 400/414/431/... answers in the problem+json shape
 
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"  # read by prometheus_client when it is first imported
 

@@ -27,6 +27,12 @@ KINDS = {
     "too-many-requests": (429, "Too many requests"),
     "internal-error": (500, "Internal error"),
     "unavailable": (503, "Service unavailable"),
+    # answered by the HTTP server (gunicorn) before the request reaches the service; see server_errors.py
+    "forbidden": (403, "Forbidden"),
+    "uri-too-long": (414, "The request line is too long"),
+    "expectation-failed": (417, "Expectation failed"),
+    "headers-too-large": (431, "The request headers are too large"),
+    "not-implemented": (501, "Not implemented"),
 }
 
 

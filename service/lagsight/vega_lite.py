@@ -26,7 +26,7 @@ def _base(title: str, data: list[dict]) -> dict:
     }
 
 
-def correlogram(block: dict, title: str) -> dict:
+def correlogram(block: dict, title: str, axis_title: str) -> dict:
     """Spikes from zero coloured by zone, over the band as a shaded area; seasonal lags marked."""
     rows = [
         {"lag": lag, "value": v, "lower": lo, "upper": hi, "zone": z, "seasonal": s}
@@ -40,10 +40,10 @@ def correlogram(block: dict, title: str) -> dict:
          "encoding": {"x": x, "y": {"field": "lower", "type": "quantitative"}, "y2": {"field": "upper"}}},
         {"mark": {"type": "rule", "color": style.TEXT, "strokeWidth": 0.8}, "encoding": {"y": {"datum": 0}}},
         {"mark": {"type": "rule", "strokeWidth": 2.5},
-         "encoding": {"x": x, "y": {"datum": 0, "type": "quantitative"}, "y2": {"field": "value"},
+         "encoding": {"x": x, "y": {"field": "value", "type": "quantitative"}, "y2": {"datum": 0},
                       "color": {"field": "zone", "type": "nominal", "scale": _ZONE_SCALE, "title": "spike"}}},
         {"mark": {"type": "circle", "size": 36},
-         "encoding": {"x": x, "y": {"field": "value", "type": "quantitative", "title": title},
+         "encoding": {"x": x, "y": {"field": "value", "type": "quantitative", "title": axis_title},
                       "color": {"field": "zone", "type": "nominal", "scale": _ZONE_SCALE, "title": "spike"},
                       "tooltip": [{"field": "lag"}, {"field": "value", "format": ".3f"},
                                   {"field": "upper", "title": "band", "format": ".3f"}, {"field": "zone"}]}},
@@ -78,7 +78,7 @@ def periodogram(block: dict, title: str) -> dict:
                "encoding": {"x": x, "y": {"field": "cumulative", "type": "quantitative",
                                           "title": "cumulative", "scale": {"domain": [0, 1]}}}}]
     if block["lower"]:
-        layers.insert(0, {"mark": {"type": "area", "color": style.BAND_FILL, "opacity": 0.9},
+        layers.insert(0, {"mark": {"type": "area", "color": style.BAND_FILL, "opacity": 0.9, "clip": True},
                           "encoding": {"x": x, "y": {"field": "lower", "type": "quantitative"},
                                        "y2": {"field": "upper"}}})
     cumulative = {"width": WIDTH, "height": HEIGHT, "layer": layers}
@@ -92,8 +92,10 @@ def attach(charts: dict, name: str | None) -> dict:
     """Fill each chart's ``vega_lite`` with its specification (in place); returns ``charts``."""
     label = f" - {name}" if name else ""
     charts["time_plot"]["vega_lite"] = time_plot(charts["time_plot"], "Series analysed" + label)
-    charts["correlogram"]["vega_lite"] = correlogram(charts["correlogram"], "Autocorrelation" + label)
-    charts["pacf"]["vega_lite"] = correlogram(charts["pacf"], "Partial autocorrelation" + label)
+    charts["correlogram"]["vega_lite"] = correlogram(charts["correlogram"], "Autocorrelation" + label,
+                                                     "autocorrelation")
+    charts["pacf"]["vega_lite"] = correlogram(charts["pacf"], "Partial autocorrelation" + label,
+                                              "partial autocorrelation")
     if charts["periodogram"]["frequencies"]:
         charts["periodogram"]["vega_lite"] = periodogram(charts["periodogram"], "Periodogram" + label)
     return charts
