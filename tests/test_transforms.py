@@ -79,6 +79,12 @@ def test_detrend_against_scipy_and_statsmodels():
     np.testing.assert_allclose(y, sm_detrend(x, order=1), atol=1e-8)  # statsmodels.tsa.tsatools.detrend
 
 
+def test_detrend_near_the_float_limit_matches_the_scaled_fit():
+    x = _gdp() * 1e304  # realgdp scaled towards the float64 limit: the sums would overflow unscaled
+    y, _, _ = transforms.apply(x, {"detrend": "linear"}, None)
+    np.testing.assert_allclose(y / 1e304, signal.detrend(x / 1e304, type="linear"), atol=1e-8)
+
+
 def test_detrend_with_missing_fits_on_observed_points():
     s = _co2_weekly().iloc[:400]
     x = s.to_numpy(dtype=float, copy=True)
@@ -134,6 +140,11 @@ BAD = [
     ("gdp", {"log": 1}, None, "/transform/log", "true or false"),
     ("gdp", {"lag": 1}, None, "/transform/lag", "Unknown"),
     ("line", {"difference": 2}, None, "/transform", "constant"),
+    # A straight line with a non-dyadic slope, differenced, varies only by rounding error: still constant.
+    ("ramp", {"difference": 1}, None, "/transform", "constant"),
+    ("ramp", {"detrend": "linear"}, None, "/transform", "constant"),
+    ("huge", {"difference": 1}, None, "/transform/difference", "overflows"),
+    ("huge_positive", {"box_cox": 5}, None, "/transform/box_cox", "overflows"),
 ]
 
 
@@ -144,6 +155,9 @@ def test_invalid_transforms_are_422_with_pointer(client, data, transform, period
         "gdp": lambda: _gdp().tolist(),
         "short": lambda: [3.0, 1.0, 4.0, 1.0, 5.0],
         "line": lambda: [1.0, 3.0, 5.0, 7.0, 9.0, 11.0, 13.0],
+        "ramp": lambda: [3.0 + 0.1 * i for i in range(12)],
+        "huge": lambda: [1.7e308, -1.7e308, 1.6e308, -1.5e308, 1.7e308, -1.2e308],
+        "huge_positive": lambda: [1.7e308, 1.6e308, 1.5e308, 1.2e308, 1.1e308, 1.3e308],
     }[data]()
     r = client.post(URL, json={"values": values, "period": period, "transform": transform})
     assert r.status_code == 422, r.get_json()

@@ -149,6 +149,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     n_before = int(np.count_nonzero(~np.isnan(values)))
     if period is not None and period >= n_grid and source == "request":
         raise invalid("/period", f"The period ({period}) must be less than the number of values ({n_grid}).")
+    values_before = values
     values, steps, front = transforms.apply(values, data.get("transform"), period)
     if labels is not None and front:
         labels = labels[front:]
@@ -156,7 +157,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if observed.min() == observed.max():  # not np.ptp: max - min overflows for values near +-1.8e308
+    if observed.min() == observed.max() or (steps and _rounding_only(observed, values_before)):  # not np.ptp: max - min overflows for values near +-1.8e308
         what = " after the transforms" if steps else ""
         raise invalid("/transform" if steps else "/values",
                       f"The series is constant{what}; autocorrelation is undefined when there is no variation.")
@@ -173,6 +174,13 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}
     return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings,
                           labels, missing_block, transform_block)
+
+
+def _rounding_only(after: np.ndarray, before: np.ndarray) -> bool:
+    """True when the transformed values vary only at the level of rounding error of the values sent
+    (for example a straight line, differenced): their spread is below 1e-12 of the largest value."""
+    scale = float(np.nanmax(np.abs(before)))
+    return float(after.max()) - float(after.min()) <= 1e-12 * scale
 
 
 def _missing_note(method: str, count: int, dropped: int, filled: int) -> str | None:

@@ -23,6 +23,8 @@ References
 """
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 from scipy import special, stats
 
@@ -48,13 +50,29 @@ def _require_positive(x: np.ndarray, what: str, pointer: str) -> None:
 
 
 def linear_detrend(x: np.ndarray) -> np.ndarray:
-    """Subtract the least-squares line a + b t, fitted on the observed (non-NaN) points."""
+    """Subtract the least-squares line a + b t, fitted on the observed (non-NaN) points.
+
+    The fit runs on the values rescaled by an exact power of two, so values near the
+    float64 limit do not overflow in the sums.
+    """
     t = np.arange(x.size, dtype=np.float64)
     ok = ~np.isnan(x)
+    peak = float(np.max(np.abs(x[ok])))
+    _, exponent = np.frexp(peak if peak > 0 else 1.0)
+    y = np.ldexp(x, -int(exponent))
     tc = t[ok] - t[ok].mean()
-    xc = x[ok] - x[ok].mean()
-    slope = float(tc @ xc / (tc @ tc))
-    return x - (x[ok].mean() + slope * (t - t[ok].mean()))
+    yc = y[ok] - y[ok].mean()
+    slope = float(tc @ yc / (tc @ tc))
+    return np.ldexp(y - (y[ok].mean() + slope * (t - t[ok].mean())), int(exponent))
+
+
+def _check_finite(x: np.ndarray, what: str, pointer: str) -> None:
+    """NaN marks a missing value; an infinity means a step overflowed the float64 range."""
+    bad = np.isinf(x)
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise invalid(pointer, f"{what} overflows the floating-point range (first at position {i} of the "
+                               "transformed series); rescale the values before sending them.")
 
 
 def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "/transform"):
@@ -97,14 +115,20 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
             obs = x[~np.isnan(x)]
             if obs.min() == obs.max():
                 raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series.")
-            lam, source = float(stats.boxcox_normmax(obs, method="mle")), "estimated"
-        x = special.boxcox(x, lam)
+            with warnings.catch_warnings():  # scipy warns when it keeps lambda within the float range
+                warnings.simplefilter("ignore", UserWarning)
+                lam, source = float(stats.boxcox_normmax(obs, method="mle")), "estimated"
+        with np.errstate(over="ignore"):
+            x = special.boxcox(x, lam)
+        _check_finite(x, "The Box-Cox transform", f"{pointer}/box_cox")
         steps.append(_step("box_cox", lambda_=float(lam), lambda_source=source, n_after=_observed(x)))
     d = spec.get("difference") or 0
     for _ in range(d):
         if x.size - 1 < options.MIN_POINTS:
             raise invalid(f"{pointer}/difference", f"Differencing {d} time(s) leaves fewer than {options.MIN_POINTS} points.")
-        x = x[1:] - x[:-1]
+        with np.errstate(over="ignore", invalid="ignore"):
+            x = x[1:] - x[:-1]
+        _check_finite(x, "Differencing", f"{pointer}/difference")
         dropped += 1
     if d:
         steps.append(_step("difference", order=d, lag=1, n_after=_observed(x)))
@@ -118,13 +142,17 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
                 raise invalid(f"{pointer}/seasonal_difference",
                               f"Seasonal differencing (order {D} at period {period}) leaves fewer than "
                               f"{options.MIN_POINTS} points of the {x.size + dropped} sent.")
-            x = x[period:] - x[:-period]
+            with np.errstate(over="ignore", invalid="ignore"):
+                x = x[period:] - x[:-period]
+            _check_finite(x, "Seasonal differencing", f"{pointer}/seasonal_difference")
             dropped += period
         steps.append(_step("seasonal_difference", order=D, lag=period, n_after=_observed(x)))
     if spec.get("detrend"):
         if _observed(x) < options.MIN_POINTS:
             raise invalid(f"{pointer}/detrend", f"Too few points left to fit a line ({_observed(x)}).")
-        x = linear_detrend(x)
+        with np.errstate(over="ignore", invalid="ignore"):
+            x = linear_detrend(x)
+        _check_finite(x, "Detrending", f"{pointer}/detrend")
         steps.append(_step("detrend", n_after=_observed(x)))
     if steps and _observed(x) < options.MIN_POINTS:
         raise invalid(pointer, f"The transforms leave {_observed(x)} observed points; at least {options.MIN_POINTS} are needed.")
