@@ -59,12 +59,22 @@ def measure_batch(server: Server, x: np.ndarray, max_lag: int, period: int, repe
 
 def measure_single_throughput(server: Server, n: int, seconds: int, repeats: int, connections: int,
                               tool: str) -> dict:
-    """Measurement 3: the same 120-point body to the diagnosis and to the no-op, alternating rounds."""
-    body = orjson.dumps({"values": workloads.batch(3, n)[2].tolist(), "period": 12})
+    """Measurement 3: 120-point bodies to the diagnosis and to the no-op, alternating rounds.
+
+    Two diagnosis bodies: white-noise residuals (the common case, as "diagnosis") and a series with a
+    period-12 cycle ("diagnosis_seasonal"), whose seasonal lag outside the band adds the STL seasonal strength.
+    """
+    x = workloads.batch(3, n)
+    body = orjson.dumps({"values": x[0].tolist(), "period": 12})
+    seasonal = orjson.dumps({"values": x[2].tolist(), "period": 12})
+    bodies = {"noop": body, "diagnosis": body, "diagnosis_seasonal": seasonal}
     post(server, "/v1/diagnostics", body)  # warm both workers' code paths
-    rounds = {"diagnosis": [], "noop": []}
+    post(server, "/v1/diagnostics", seasonal)
+    rounds = {"diagnosis": [], "diagnosis_seasonal": [], "noop": []}
     for _ in range(repeats):
-        for name, path in (("noop", "/bench/noop"), ("diagnosis", "/v1/diagnostics")):
+        for name, path in (("noop", "/bench/noop"), ("diagnosis", "/v1/diagnostics"),
+                           ("diagnosis_seasonal", "/v1/diagnostics")):
+            body = bodies[name]
             if tool == "wrk":
                 r = load.wrk(server.base + path, body, seconds, connections, threads=2)
             else:

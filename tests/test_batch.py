@@ -362,3 +362,33 @@ def test_direct_item_load_agrees_with_the_schema(item):
             assert got[key].dtype == value.dtype
         else:
             assert got[key] == value and type(got[key]) is type(value), key
+
+
+def test_monte_carlo_batch_shares_one_seed_and_one_null_per_length(client, monkeypatch):
+    from lagsight.engine import analysis
+
+    calls = []
+    real = analysis.monte_carlo
+
+    def counting(observed, n, spec):
+        calls.append((n, spec.seed))
+        return real(observed, n, spec)
+
+    monkeypatch.setattr(analysis, "monte_carlo", counting)
+    monkeypatch.setattr(pipeline, "BLOCK_POINTS", 100)  # would cut the 60-point group into blocks
+    series = [{"id": i, "values": _noise(60, i)} for i in range(6)] + [{"id": "long", "values": _noise(90, 9)}]
+    body = client.post(URL, json={"series": series, "p_values": "monte_carlo", "replicates": 199}).get_json()
+    assert all("error" not in r for r in body["results"])
+    assert sorted(n for n, _ in calls) == [60, 90]  # one simulated null per distinct length
+    assert len({seed for _, seed in calls}) == 1  # one seed drawn for the batch
+
+
+def test_monte_carlo_work_of_the_whole_batch_is_limited_before_simulating():
+    app = create_app({"TESTING": True, "MAX_SIMULATED_VALUES": 60_000})  # each series alone fits
+    client = app.test_client()
+    one_length = [{"id": i, "values": _noise(100, i)} for i in range(5)]
+    ok = client.post(URL, json={"series": one_length, "p_values": "monte_carlo", "replicates": 199}).get_json()
+    assert all("error" not in r for r in ok["results"])  # one null: 199 x 100 = 19,900 simulated values
+    lengths = [{"id": i, "values": _noise(100 + i, i)} for i in range(5)]
+    problem = _problem(client.post(URL, json={"series": lengths, "p_values": "monte_carlo", "replicates": 199}), 422)
+    assert problem["errors"][0]["pointer"] == "/replicates" and "5 distinct" in problem["detail"]

@@ -95,7 +95,8 @@ def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[in
         groups[plan].append(i)
     out = []
     for plan, members in groups.items():
-        rows = max(1, BLOCK_POINTS // max(plan.n, plan.length))
+        # A Monte Carlo plan stays whole: each engine pass simulates its own null distribution.
+        rows = len(members) if plan.spec.replicates else max(1, BLOCK_POINTS // max(plan.n, plan.length))
         out.extend((plan, members[start:start + rows]) for start in range(0, len(members), rows))
     return out
 

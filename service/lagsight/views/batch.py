@@ -9,6 +9,7 @@ per line, as each engine block finishes.
 from __future__ import annotations
 
 import logging
+import secrets
 
 from flask import Blueprint, Response, current_app, request, stream_with_context
 from marshmallow import ValidationError, missing
@@ -115,16 +116,25 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
         series = prepare(data, cfg["MAX_POINTS"])
         plan = plan_for(series, opts, cfg)
     except Problem as problem:
-        problem.errors = [
-            e if e.pointer in _SHARED_POINTERS and e.pointer[1:] not in own else e.under(prefix)
+        problem.errors = [  # a shared option that does not fit this series keeps its own (top-level) pointer
+            e if e.pointer.split("/")[1] in shared and e.pointer.split("/")[1] not in own else e.under(prefix)
             for e in problem.errors
         ]
         raise
     return series, plan
 
 
-#: Pointers that series preparation may raise about an option the batch shares.
-_SHARED_POINTERS = {"/" + key for key in BATCH_OVERRIDES}
+def _check_simulation(prepared: list[tuple[PreparedSeries, Plan]], cfg) -> None:
+    """422 before any simulation when the batch's Monte Carlo work, one null per distinct plan, exceeds
+    MAX_SIMULATED_VALUES (replicates x n summed over the plans)."""
+    plans = {plan for _, plan in prepared}
+    total = sum(plan.spec.replicates * plan.n for plan in plans)
+    if total > cfg["MAX_SIMULATED_VALUES"]:
+        detail = (f"Monte Carlo p-values for this batch need {total} simulated values (replicates x n over "
+                  f"{sum(1 for p in plans if p.spec.replicates)} distinct series lengths and options), more than "
+                  f"this deployment's limit of {cfg['MAX_SIMULATED_VALUES']}; use fewer replicates, fewer distinct "
+                  "lengths, or asymptotic p-values.")
+        raise Problem("invalid-content", detail, [FieldError("/replicates", detail)])
 
 
 def _error_result(item_id, problem: Problem) -> dict:
@@ -154,6 +164,10 @@ def diagnose_batch():
     shared = load(_REQUEST, body)
     _check_shared(shared, cfg)
     raw = shared.pop("series")
+    if shared.get("p_values") == "monte_carlo" and shared.get("seed") is None:
+        # One seed for the whole batch (reported in every result), so that series of equal length
+        # share one simulated null instead of one simulation each.
+        shared["seed"] = secrets.randbits(63)
     errors: list[tuple[int, dict]] = []
     prepared: list[tuple[PreparedSeries, Plan]] = []
     where: list[tuple[int, object]] = []  # prepared position -> (request index, id)
@@ -166,6 +180,7 @@ def diagnose_batch():
             except Problem as problem:
                 errors.append((i, _error_result(_item_id(item), problem)))
     del body, raw  # the parsed request is no longer needed: free it before the engine runs
+    _check_simulation(prepared, cfg)
     summary = _Summary(len(where) + len(errors))
     if media == NDJSON:
         return Response(stream_with_context(_stream(errors, prepared, where, summary)), mimetype=NDJSON)
