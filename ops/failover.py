@@ -86,6 +86,8 @@ def main(argv=None) -> int:
         for p in procs.values():
             lib.stop(p)
     error_log = (run_dir / "error.log").read_text() if (run_dir / "error.log").exists() else ""
+    access_log = (run_dir / "access.log").read_text() if (run_dir / "access.log").exists() else ""
+    retried = [line for line in access_log.splitlines() if "upstream_status=" in line and "," in line.split("upstream_status=")[1]]
     upstream_failures = sum(1 for line in error_log.splitlines() if "upstream" in line)
     statuses: dict[str, int] = {}
     for o in load.outcomes:
@@ -100,6 +102,8 @@ def main(argv=None) -> int:
         "served_by_a_after_restart": served_requests(log_a2),
         "served_by_b": served_requests(log_b),
         "nginx_upstream_failures_logged": upstream_failures,
+        "requests_retried_on_the_other_instance": len(retried),
+        "retried_sample": [line[:240] for line in retried[:2]],
         "nginx_error_log_sample": [line[:240] for line in error_log.splitlines() if "upstream" in line][:3],
     }
     result["pass"] = (result["load"]["errors"] == 0 and upstream_failures > 0
