@@ -118,11 +118,16 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
         plan = plan_for(series, opts, cfg)
     except Problem as problem:
         problem.errors = [  # a shared option that does not fit this series keeps its own (top-level) pointer
-            e if e.pointer.split("/")[1] in shared and e.pointer.split("/")[1] not in own else e.under(prefix)
+            e if _first_token(e.pointer) in shared and _first_token(e.pointer) not in own else e.under(prefix)
             for e in problem.errors
         ]
         raise
     return series, plan
+
+
+def _first_token(pointer: str) -> str | None:
+    """The first reference token of a JSON pointer ("/max_lag/0" -> "max_lag"; "" -> None)."""
+    return pointer.split("/")[1] if pointer.startswith("/") else None
 
 
 def _check_simulation(prepared: list[tuple[PreparedSeries, Plan]], cfg) -> None:
