@@ -392,3 +392,24 @@ def test_monte_carlo_work_of_the_whole_batch_is_limited_before_simulating():
     lengths = [{"id": i, "values": _noise(100 + i, i)} for i in range(5)]
     problem = _problem(client.post(URL, json={"series": lengths, "p_values": "monte_carlo", "replicates": 199}), 422)
     assert problem["errors"][0]["pointer"] == "/replicates" and "5 distinct" in problem["detail"]
+
+
+def test_shared_missing_and_transform_apply_unless_a_series_overrides_them(client):
+    gappy = [1.0, None, 3.0, 2.0, 5.0, 4.0, 6.0, 5.5, 7.0, 6.0, 8.0, 7.5]
+    series = [{"id": "inherits", "values": gappy},
+              {"id": "refuses", "values": gappy, "missing": "refuse"},
+              {"id": "own-transform", "values": [abs(v) + 1 for v in _noise(30, 3)], "transform": None}]
+    body = {"series": series, "missing": "interpolate", "transform": {"difference": 1}}
+    results = client.post(URL, json=body).get_json()["results"]
+    assert results[0]["missing"]["method"] == "interpolate" and results[0]["n_missing"] == 1
+    assert [e["pointer"] for e in results[1]["error"]["errors"]] == ["/series/1/values/1"]
+    single = client.post(SINGLE, json={"values": gappy, "missing": "interpolate", "transform": {"difference": 1}})
+    assert _report_bytes(results[0]) == single.data
+    assert results[2]["n"] == 30  # no differencing for this series
+
+
+@pytest.mark.parametrize("big", [2**63, -(2**63) - 1, 10**30])
+def test_integer_ids_beyond_64_bits_fail_only_their_series(client, big):
+    raw = b'{"series": [{"id": %d, "values": [1, 2, 4, 3]}, {"id": 1, "values": [1, 2, 4, 3]}]}' % big
+    results = client.post(URL, data=raw, content_type="application/json").get_json()["results"]
+    assert results[0]["error"]["errors"][0]["pointer"] == "/series/0/id" and "error" not in results[1]

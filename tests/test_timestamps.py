@@ -157,3 +157,18 @@ def test_sparse_stamps_are_irregular_not_gappy(client):
     sparse = pd.DatetimeIndex(["2021-01-01", "2021-01-02", "2021-01-09", "2021-01-20", "2021-02-01"])
     body = client.post(URL, json={"values": _values(5), "timestamps": _stamps(sparse)}).get_json()
     assert body["frequency"] is None and body["warnings"][0]["code"] == "irregular_timestamps"
+
+
+def test_historic_and_far_future_years_are_read(client):
+    # Years outside pandas' nanosecond range (1677-2262) are kept: times are held in microseconds.
+    stamps = [f"{y}-01-01" for y in range(1500, 1530) if y != 1507]
+    body = client.post(URL, json={"values": _values(29), "timestamps": stamps, "missing": "interpolate"}).get_json()
+    assert body["frequency"] == "yearly" and body["missing"]["from_gaps"] == 1 and body["n"] == 30
+    wide = client.post(URL, json={"values": [1, 3, 2], "timestamps": ["0001-01-01", "5000-06-01", "9999-12-31"]})
+    assert wide.status_code == 200 and wide.get_json()["frequency"] is None
+
+
+def test_stamps_equal_to_the_microsecond_are_duplicates(client):
+    stamps = ["2024-01-01T00:00:00.0000001", "2024-01-01T00:00:00.0000002", "2024-01-01T00:00:01"]
+    r = client.post(URL, json={"values": [1, 3, 2], "timestamps": stamps})
+    assert r.status_code == 422 and r.get_json()["errors"][0]["pointer"] == "/timestamps/1"

@@ -185,22 +185,23 @@ class DiagnosticsRequest(SeriesFields, AnalysisOptions):
 class SeriesId(fields.Field):
     """A caller's key for one series of a batch: a JSON string (1 to 200 characters) or integer."""
 
-    default_error_messages = {"type": "Must be a string of 1 to 200 characters or an integer."}
+    default_error_messages = {"type": "Must be a string of 1 to 200 characters or an integer between "
+                                      "-9223372036854775808 and 9223372036854775807."}
 
     def _deserialize(self, value, attr, data, **kwargs):
         if isinstance(value, str) and 1 <= len(value) <= options.MAX_ID_LENGTH:
             return value
-        if isinstance(value, int) and not isinstance(value, bool):
-            return value
+        if isinstance(value, int) and not isinstance(value, bool) and -(2**63) <= value < 2**63:
+            return value  # the range JSON writers (orjson included) carry exactly
         raise self.make_error("type")
 
 
 class BatchSeries(SeriesFields):
     """One item of ``series`` in POST /v1/diagnostics/batch.
 
-    ``max_lag``, ``confidence`` and ``model_df`` here override the batch's shared
-    values for this series only; absent, the shared value applies (``max_lag: null``
-    asks for the default rule for this series).
+    ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence`` and ``model_df``
+    here override the batch's shared values for this series only; absent, the shared
+    value applies (``max_lag: null`` asks for the default rule for this series).
     """
 
     id = SeriesId(required=True)
@@ -208,6 +209,8 @@ class BatchSeries(SeriesFields):
     max_lag = StrictInteger(allow_none=True, validate=validate.Range(min=1))
     confidence = StrictFloat(validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False))
     model_df = StrictInteger(validate=validate.Range(min=0))
+    missing = fields.String(validate=validate.OneOf(options.MISSING_METHODS))
+    transform = fields.Nested(TransformFields, allow_none=True)
 
 
 class BatchRequest(AnalysisOptions):
@@ -219,6 +222,10 @@ class BatchRequest(AnalysisOptions):
 
     series = fields.List(fields.Raw(allow_none=True), required=True, validate=validate.Length(min=1))
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
+    missing = SeriesFields._declared_fields["missing"]
+    transform = SeriesFields._declared_fields["transform"]
 
 #: The options a series of a batch may override, and the shared field each falls back to.
-BATCH_OVERRIDES = ("period", "max_lag", "confidence", "model_df")
+BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df")
+#: Of those, the ones that describe the series (read by series.prepare from the series' fields).
+SERIES_OVERRIDES = ("period", "missing", "transform")

@@ -6,6 +6,7 @@ Rules (documented in the OpenAPI file and GET /v1/methods)
   ``+02:00``) or none does; a mix is refused. Zoned stamps are ordered and compared
   as instants (UTC); daily and coarser spacing is judged on the local wall-clock
   dates, so a daylight-saving change does not break a daily series.
+- Times are kept to the microsecond, for years 1 to 9999.
 - Stamps must be strictly increasing. The first stamp equal to an earlier one is
   named in a 422; so is the first one earlier than its predecessor.
 - The spacing is regular when pandas infers a frequency, or when every stamp lies
@@ -29,8 +30,10 @@ from .problems import invalid
 
 _ZONE = re.compile(r"(?:Z|z|[+-]\d{2}(?::?\d{2})?)$")
 _HAS_TIME = re.compile(r"\d[T ]\d")
-_NS_PER = {"second": 10**9, "minute": 60 * 10**9, "hourly": 3600 * 10**9, "daily": 86400 * 10**9}
-_FIXED_NAMES = {3600 * 10**9: "hourly", 86400 * 10**9: "daily", 7 * 86400 * 10**9: "weekly"}
+#: Times are held as integer microseconds: years 1 to 9999 fit (nanoseconds would stop at 1677 and 2262).
+UNIT = "us"
+_DAY = 86400 * 10**6
+_FIXED_NAMES = {3600 * 10**6: "hourly", _DAY: "daily", 7 * _DAY: "weekly"}
 
 
 @dataclass
@@ -47,7 +50,7 @@ class TimeAxis:
 
 def _parse(stamps: list[str], utc: bool) -> pd.DatetimeIndex:
     index = pd.DatetimeIndex(pd.to_datetime(pd.Series(stamps, dtype=object), format="ISO8601", utc=utc))
-    return index.as_unit("ns")
+    return index.as_unit(UNIT)
 
 
 def _first_unparsable(stamps: list[str]) -> int:
@@ -80,16 +83,16 @@ def parse(stamps: list[str], pointer: str = "/timestamps") -> tuple[pd.DatetimeI
         i = _first_unparsable(stamps)
         raise invalid(f"{pointer}/{max(i, 0)}", f"Not an ISO 8601 date or date-time: {stamps[max(i, 0)][:40]!r}.") from None
     if instants.tz is not None:  # a lone offset that slipped past the zone check
-        instants = instants.tz_convert("UTC").tz_localize(None).as_unit("ns")
+        instants = instants.tz_convert("UTC").tz_localize(None).as_unit(UNIT)
         wall = instants
-    ns = instants.asi8
-    dup = pd.Series(ns).duplicated().to_numpy()
+    ticks = instants.asi8
+    dup = pd.Series(ticks).duplicated().to_numpy()
     if dup.any():
         i = int(np.argmax(dup))
-        j = int(np.argmax(ns == ns[i]))
+        j = int(np.argmax(ticks == ticks[i]))
         raise invalid(f"{pointer}/{i}", f"Duplicate timestamp: {stamps[i]!r} (index {i}) repeats the time of "
                       f"{stamps[j]!r} (index {j}); send one value per time.")
-    steps = np.diff(ns)
+    steps = np.diff(ticks)
     if steps.size and (steps < 0).any():
         i = int(np.argmax(steps < 0)) + 1
         raise invalid(f"{pointer}/{i}", f"Timestamp {stamps[i]!r} is earlier than the one before it "
@@ -105,38 +108,41 @@ def _name_of(freqstr: str) -> str | None:
             "QS": "quarterly", "QE": "quarterly", "YS": "yearly", "YE": "yearly"}.get(base)
 
 
-def _step_name(step_ns: int) -> str:
-    """A fixed step as a pandas-style frequency string: 3D, 2h, 15min, 30s, 250ms."""
-    for unit, size in (("D", 86400 * 10**9), ("h", 3600 * 10**9), ("min", 60 * 10**9), ("s", 10**9), ("ms", 10**6),
-                       ("us", 10**3)):
-        if step_ns % size == 0:
-            return f"{step_ns // size}{unit}"
-    return f"{step_ns}ns"
+def _step_name(step: int) -> str:
+    """A fixed step (microseconds) as a pandas-style frequency string: 3D, 2h, 15min, 30s, 250ms."""
+    for unit, size in (("D", _DAY), ("h", 3600 * 10**6), ("min", 60 * 10**6), ("s", 10**6), ("ms", 10**3)):
+        if step % size == 0:
+            return f"{step // size}{unit}"
+    return f"{step}us"
 
 
 def _label(index: pd.DatetimeIndex, zoned: bool) -> list[str]:
-    has_time = bool((index.as_unit("ns").asi8 % _NS_PER["daily"]).any())
+    has_time = bool((index.as_unit(UNIT).asi8 % _DAY).any())
     fmt = "%Y-%m-%dT%H:%M:%S" if has_time else "%Y-%m-%d"
     out = index.strftime(fmt).tolist()
     return [s + "Z" for s in out] if zoned and has_time else out
 
 
 def _on_grid(index: pd.DatetimeIndex, grid: pd.DatetimeIndex) -> np.ndarray | None:
-    pos = grid.as_unit("ns").get_indexer(index)
+    pos = grid.as_unit(UNIT).get_indexer(index)
     return None if (pos < 0).any() else pos
 
 
-def _calendar_grids(wall: pd.DatetimeIndex):
-    """Candidate calendar grids, coarsest first: (name, grid)."""
+def _calendar_grids(wall: pd.DatetimeIndex, limit: int):
+    """Candidate calendar grids, coarsest first: (name, grid). Grids longer than ``limit`` are not built."""
     start, end = wall[0], wall[-1]
+    months = (end.year - start.year) * 12 + end.month - start.month
     month_end = (wall + pd.offsets.MonthEnd(0) == wall).all()
-    for name, months in (("yearly", 12), ("quarterly", 3), ("monthly", 1)):
-        if month_end:
-            yield name, pd.date_range(start, end, freq=pd.offsets.MonthEnd(months))
-        else:
-            yield name, pd.date_range(start, end, freq=pd.DateOffset(months=months))
-    if (wall.day_of_week < 5).all():
-        yield "business-daily", pd.bdate_range(start, end, freq="B")
+    for name, step in (("yearly", 12), ("quarterly", 3), ("monthly", 1)):
+        if months // step + 1 > limit:
+            return
+        offset = pd.offsets.MonthEnd(step) if month_end else pd.DateOffset(months=step)
+        try:
+            yield name, pd.date_range(start, end, freq=offset, unit=UNIT)
+        except (ValueError, OverflowError):  # a step past year 9999
+            continue
+    if (wall.day_of_week < 5).all() and (end - start).days * 5 // 7 + 1 <= limit:
+        yield "business-daily", pd.date_range(start, end, freq="B", unit=UNIT)
 
 
 def describe(stamps: list[str], max_slots: int, pointer: str = "/timestamps") -> TimeAxis:
@@ -156,20 +162,21 @@ def describe(stamps: list[str], max_slots: int, pointer: str = "/timestamps") ->
             return TimeAxis(label, options.PERIOD_BY_SPACING.get(name) if name else None, np.arange(n), n,
                             _label(idx, zoned and idx is instants), zoned)
     # 2. whole months, quarters or years from the first stamp, or business days, with gaps
-    if (wall.asi8 % _NS_PER["daily"] == wall.asi8[0] % _NS_PER["daily"]).all():
-        for name, grid in _calendar_grids(wall):
+    wall_ok = not zoned or bool((np.diff(wall.asi8) > 0).all())  # local clocks can repeat or run back
+    if wall_ok and (wall.asi8 % _DAY == wall.asi8[0] % _DAY).all():
+        for name, grid in _calendar_grids(wall, limit):
             if len(grid) > limit:
-                break
+                continue
             pos = _on_grid(wall, grid)
             if pos is not None:
                 return TimeAxis(name, options.PERIOD_BY_SPACING[name], pos, len(grid), _label(grid, False), zoned)
     # 3. a fixed step (the smallest one seen) with gaps: on wall-clock dates for daily and coarser steps
     for idx, daily_or_more in ((wall, True), (instants, False)) if zoned else ((wall, None),):
-        ns = idx.asi8
-        step = int(np.diff(ns).min())
-        if step <= 0 or (daily_or_more is not None and (step >= _NS_PER["daily"]) != daily_or_more):
+        ticks = idx.asi8
+        step = int(np.diff(ticks).min())
+        if step <= 0 or (daily_or_more is not None and (step >= _DAY) != daily_or_more):
             continue
-        offsets = ns - ns[0]
+        offsets = ticks - ticks[0]
         if (offsets % step).any():
             continue
         size = int(offsets[-1] // step) + 1
@@ -177,7 +184,7 @@ def describe(stamps: list[str], max_slots: int, pointer: str = "/timestamps") ->
             continue
         name = _FIXED_NAMES.get(step)
         label = name or _step_name(step)
-        grid = pd.DatetimeIndex(ns[0] + step * np.arange(size, dtype=np.int64)).as_unit("ns")
+        grid = pd.DatetimeIndex((ticks[0] + step * np.arange(size, dtype=np.int64)).astype(f"datetime64[{UNIT}]"))
         return TimeAxis(label, options.PERIOD_BY_SPACING.get(name) if name else None, offsets // step, size,
                         _label(grid, zoned and not daily_or_more), zoned)
     return TimeAxis(None, None, None, n, None, zoned)

@@ -266,14 +266,15 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
         seasonal_flag = ((r[:, idx] < band.lower[:, idx]) | (r[:, idx] > band.upper[:, idx])).any(axis=1)
     else:
         seasonal_flag = np.zeros(m, dtype=bool)
-    strength, suggested, unit_root = [], [], []
+    complete = mask is None
+    strength: list = [None] * m
+    if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1:
+        rows = np.flatnonzero(seasonal_flag)
+        if rows.size:
+            for i, value in zip(rows.tolist(), seasonality.stl_strengths(x[rows], spec.period).tolist()):
+                strength[i] = value
+    suggested, unit_root = [], []
     for i in range(m):
-        complete = mask is None
-        if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1 \
-                and seasonal_flag[i]:
-            strength.append(seasonality.stl_strength(x[i], spec.period))
-        else:
-            strength.append(None)
         suggested.append(None if spec.period is not None or not complete
                          else seasonality.suggest_period(r[i], band.upper[i], power[i], n))
         unit_root.append(stationarity.adf(x[i]) if complete and stationarity.decays_slowly(r[i]) and n >= 10 else None)

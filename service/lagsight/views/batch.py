@@ -17,7 +17,7 @@ from marshmallow import ValidationError, missing
 from ..payload import read_json_object
 from ..pipeline import Plan, gc_paused, plan_for, run_blocks
 from ..problems import FieldError, Problem, flatten_messages
-from ..schema import BATCH_OVERRIDES, BatchRequest, BatchSeries
+from ..schema import BATCH_OVERRIDES, SERIES_OVERRIDES, BatchRequest, BatchSeries
 from ..serialisation import dumps, json_response
 from ..series import PreparedSeries, prepare
 from .diagnostics import load
@@ -111,7 +111,8 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
     seen[data["id"]] = index
     own = {key for key in BATCH_OVERRIDES if key in data}
     opts = {**shared, **{key: data[key] for key in own}}
-    data["period"] = opts["period"]
+    for key in SERIES_OVERRIDES:  # the series' own fields, as series.prepare reads them
+        data[key] = opts[key]
     try:
         series = prepare(data, cfg["MAX_POINTS"])
         plan = plan_for(series, opts, cfg)
