@@ -183,3 +183,21 @@ def test_any_csv_table_gets_a_report_or_a_4xx_problem(client, body, query):
     r = client.post("/v1/diagnostics?" + urlencode(query), data=body.encode("utf-8", "surrogatepass"),
                     content_type="text/csv")
     _assert_report_or_problem(r)
+
+
+@SETTINGS
+@given(series(any_finite))
+def test_jarque_bera_is_finite_and_scale_free_over_the_whole_float_range(x):
+    """Skewness and kurtosis are ratios of central moments, so any positive scale leaves them unchanged
+    (Jarque and Bera 1987); values near the float limit must not overflow the fourth powers."""
+    from lagsight.engine.randomness import jarque_bera
+
+    assume(x.min() != x.max())
+    peak = np.max(np.abs(x))
+    d = np.ldexp(x, -np.frexp(peak)[1])  # exact power-of-two rescaling to |d| < 1
+    d = d - d.mean()
+    assume(np.ptp(d) > 1e-150)
+    stat, p, skew, kurt = jarque_bera(d[None, :])
+    assert np.isfinite(stat).all() and ((p >= 0) & (p <= 1)).all()
+    stat_big = jarque_bera(np.ldexp(d, 900)[None, :])[0]  # the same data at magnitude ~1e270
+    np.testing.assert_allclose(stat_big, stat, rtol=1e-12)
