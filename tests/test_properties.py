@@ -153,3 +153,51 @@ def test_sorted_distinct_dates_always_parse(dates):
     assert axis.size >= len(dates)
     if axis.slots is not None:
         assert len(axis.slots) == len(dates) and (np.diff(axis.slots) > 0).all()
+
+
+csv_cells = st.one_of(
+    st.floats(allow_nan=True, allow_infinity=True).map(repr), st.integers().map(str),
+    st.dates().map(str), st.sampled_from(["", "NA", "null", "-", "#N/A", "1,5", '"2"', "=1+1", "\x00"]),
+    st.text(max_size=8),
+)
+csv_bodies = st.tuples(
+    st.sampled_from([",", ";", "\t"]),
+    st.lists(st.lists(csv_cells, min_size=1, max_size=4), min_size=0, max_size=30),
+    st.booleans(),
+).map(lambda t: ("value" + t[0] + "other\n" if t[2] else "") + "\n".join(t[0].join(row) for row in t[1]))
+csv_queries = st.fixed_dictionaries({}, optional={
+    "column": st.sampled_from(["0", "1", "value", "other", "9", "\u00b3"]),
+    "time_column": st.sampled_from(["0", "none", "value", "\u00b3"]),
+    "header": st.sampled_from(["true", "false", "auto", "maybe"]),
+    "delimiter": st.sampled_from([",", ";", "tab", "|"]),
+    "decimal": st.sampled_from([".", ",", "x"]),
+    "missing": st.sampled_from(["refuse", "interpolate", "pairwise", "guess"]),
+})
+
+
+@SETTINGS
+@given(csv_bodies, csv_queries)
+def test_any_csv_table_gets_a_report_or_a_4xx_problem(client, body, query):
+    from urllib.parse import urlencode
+
+    r = client.post("/v1/diagnostics?" + urlencode(query), data=body.encode("utf-8", "surrogatepass"),
+                    content_type="text/csv")
+    _assert_report_or_problem(r)
+
+
+@SETTINGS
+@given(series(any_finite))
+def test_jarque_bera_is_finite_and_scale_free_over_the_whole_float_range(x):
+    """Skewness and kurtosis are ratios of central moments, so any positive scale leaves them unchanged
+    (Jarque and Bera 1987); values near the float limit must not overflow the fourth powers."""
+    from lagsight.engine.randomness import jarque_bera
+
+    assume(x.min() != x.max())
+    peak = np.max(np.abs(x))
+    d = np.ldexp(x, -np.frexp(peak)[1])  # exact power-of-two rescaling to |d| < 1
+    d = d - d.mean()
+    assume(np.ptp(d) > 1e-150)
+    stat, p, skew, kurt = jarque_bera(d[None, :])
+    assert np.isfinite(stat).all() and ((p >= 0) & (p <= 1)).all()
+    stat_big = jarque_bera(np.ldexp(d, 900)[None, :])[0]  # the same data at magnitude ~1e270
+    np.testing.assert_allclose(stat_big, stat, rtol=1e-12)

@@ -83,6 +83,8 @@ def jarque_bera(d: np.ndarray):
     statistic, p_value, skewness, kurtosis : ndarray (m,)
     """
     n = d.shape[1]
+    peak = np.max(np.abs(d), axis=1, keepdims=True)
+    d = np.ldexp(d, -np.frexp(np.where(peak > 0, peak, 1.0))[1])  # exact rescaling: d**4 cannot overflow
     d2 = d * d
     m2 = d2.sum(axis=1) / n
     m3 = np.einsum("ij,ij->i", d2, d) / n
