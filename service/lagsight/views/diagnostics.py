@@ -101,6 +101,7 @@ def diagnose():
     cfg = current_app.config
     try:
         data = load(_SCHEMA, body)
+        body = None  # the parsed JSON (a Python float per value) is not needed past validation: free it now
         series = prepare(data, cfg["MAX_POINTS"])
         plan = plan_for(series, data, cfg)
     except Problem as problem:
