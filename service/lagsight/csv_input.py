@@ -63,13 +63,22 @@ def _decode(body: bytes) -> str:
     return text
 
 
+def _named_choice(args: MultiDict, name: str, table: dict, what: str, allowed: str) -> str | None:
+    """The query parameter ``name`` as one of ``table``'s characters (given by name or as the character), or None."""
+    given = args.get(name)
+    if given is None:
+        return None
+    chosen = table.get(given.lower(), given)
+    if chosen not in table.values():
+        raise Problem("invalid-content", f"Unknown {what}.", [FieldError(
+            f"/{name}", f"Must be {allowed}, got {given!r}.")])
+    return chosen
+
+
 def _delimiter(args: MultiDict, text: str) -> str:
-    given = args.get("delimiter")
-    if given is not None:
-        chosen = options.CSV_DELIMITERS.get(given.lower(), given)
-        if chosen not in options.CSV_DELIMITERS.values():
-            raise Problem("invalid-content", "Unknown delimiter.", [FieldError(
-                "/delimiter", f"Must be ',', ';' or a tab (or comma, semicolon, tab), got {given!r}.")])
+    chosen = _named_choice(args, "delimiter", options.CSV_DELIMITERS, "delimiter",
+                           "',', ';' or a tab (or comma, semicolon, tab)")
+    if chosen is not None:
         return chosen
     first = text.lstrip("\r\n").split("\n", 1)[0]
     for candidate in ("\t", ";", ","):
@@ -203,12 +212,8 @@ def read_series(body: bytes, args: MultiDict) -> dict:
 
 
 def _decimal(args: MultiDict, delimiter: str, cells: list[str]) -> str:
-    given = args.get("decimal")
-    if given is not None:
-        chosen = options.CSV_DECIMALS.get(given.lower(), given)
-        if chosen not in options.CSV_DECIMALS.values():
-            raise Problem("invalid-content", "Unknown decimal mark.", [FieldError(
-                "/decimal", f"Must be '.' or ',' (or point, comma), got {given!r}.")])
+    chosen = _named_choice(args, "decimal", options.CSV_DECIMALS, "decimal mark", "'.' or ',' (or point, comma)")
+    if chosen is not None:
         return chosen
     if delimiter == ",":
         return "."

@@ -6,7 +6,7 @@ arrays with a leading axis of length m. A single series is a batch of one.
 """
 from .autocorrelation import acf, autocovariance, center
 from .analysis import TEST_NAMES, GroupAnalysis, Spec, analyse
-from .bands import BAND_KINDS, acf_band, band_limits, normal_quantile, pacf_band
+from .bands import BAND_KINDS, acf_band, normal_quantile, pacf_band
 from .partial import pacf
 from .portmanteau import PORTMANTEAU_TESTS, portmanteau
 
@@ -20,7 +20,6 @@ __all__ = [
     "analyse",
     "pacf_band",
     "autocovariance",
-    "band_limits",
     "center",
     "normal_quantile",
     "pacf",

@@ -120,11 +120,3 @@ def pacf_band(kind: str, m: int, n: int, max_lag: int, confidence: float) -> Ban
     z = normal_quantile(per_lag_confidence("simultaneous" if kind == "simultaneous" else "white_noise",
                                            confidence, max_lag))
     return Band(kind, z, np.zeros((m, max_lag)), np.full((m, max_lag), 1.0 / np.sqrt(n)))
-
-
-def band_limits(kind: str, n: int, max_lag: int, confidence: float, m: int = 1):
-    """Lower and upper limits of a band that does not depend on the data (all but bartlett)."""
-    if kind == "bartlett":
-        raise ValueError("the bartlett band depends on the autocorrelations; use acf_band")
-    band = acf_band(kind, np.zeros((m, max_lag)), n, confidence)
-    return band.lower, band.upper
