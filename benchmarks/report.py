@@ -23,22 +23,33 @@ def _notes(previous: str) -> str:
     return f"{NOTES_START}\n(no notes yet)\n{NOTES_END}"
 
 
+def default_loop_seconds(batch: dict) -> float:
+    """The loop as a Python user writes it (statsmodels' default pacf), for the whole batch: the median
+    of its timed subset scaled by the number of series (its cost is the same for every series)."""
+    return batch["times"]["statsmodels_loop_default_pacf_subset"]["median"] / batch["default_loop_rows"] * batch["m"]
+
+
 def targets(r: dict) -> list[tuple[str, str, str, str]]:
     """(measurement, target, measured, status) rows."""
     rows = []
     bt = {k: v["median"] for k, v in r["batch"]["times"].items()}
-    speedup = bt["statsmodels_loop"] / bt["engine"]
-    rows.append(("1. engine vs statsmodels loop", ">= 100x faster", f"{speedup:,.0f}x",
-                 _status(speedup >= 100, f"{100 / speedup:.1f}x short")))
+    as_written = default_loop_seconds(r["batch"])
+    speedup = as_written / bt["engine"]
+    rows.append(("1. engine vs statsmodels loop as a user writes it (acf, pacf, acorr_ljungbox; default "
+                 "estimators)", ">= 100x faster", f"{speedup:,.0f}x", _status(speedup >= 100, f"{100 / speedup:.1f}x short")))
+    strict = bt["statsmodels_loop"] / bt["engine"]
+    rows.append(("1. engine vs the same-estimator loop (pacf method \"ldb\", the engine's PACF; a stricter reading)",
+                 ">= 100x faster", f"{strict:,.0f}x", _status(strict >= 100, f"{100 / strict:.1f}x short")))
     vec = bt["statsmodels_loop"] / bt["engine_without_stl"]
-    rows.append(("1. engine without STL seasonal strength vs loop", "(shown)", f"{vec:,.0f}x", "-"))
+    rows.append(("1. engine without STL seasonal strength vs same-estimator loop", "(shown)", f"{vec:,.0f}x", "-"))
     floor_ratio = bt["engine"] / bt["numpy_floor"]
     rows.append(("1. engine vs bare NumPy floor", "<= 3x the floor", f"{floor_ratio:.2f}x",
                  _status(floor_ratio <= 3, f"{floor_ratio / 3:.1f}x over")))
     floor_vec = bt["engine_without_stl"] / bt["numpy_floor"]
     rows.append(("1. engine without STL vs bare NumPy floor", "(shown)", f"{floor_vec:.2f}x", "-"))
-    full = bt["statsmodels_loop"] / bt["full_report"]
-    rows.append(("1. full report (engine + report + sentences) vs loop", "(no target; shown)", f"{full:,.1f}x", "-"))
+    full = as_written / bt["full_report"]
+    rows.append(("1. full report (engine + report + sentences) vs loop as written; vs same-estimator loop",
+                 "(no target; shown)", f"{full:,.1f}x; {bt['statsmodels_loop'] / bt['full_report']:,.1f}x", "-"))
     http = bt["statsmodels_loop"] / r["http_batch"]["times"]["http_json"]["median"]
     rows.append(("2. batch over HTTP vs statsmodels loop", ">= 20x faster", f"{http:,.1f}x",
                  _status(http >= 20, f"{20 / http:.1f}x short")))
@@ -122,20 +133,26 @@ def render(r: dict, previous: str = "") -> str:
         "engine": "engine, service defaults: ACF, PACF, bands, every test, periodogram, STL seasonal strength",
         "engine_without_stl": "engine without the STL seasonal strength (run per flagged series)",
         "full_report": "full report: plan, engine, report dicts, verdict, sentences, advice, cautions",
-        "statsmodels_loop": "statsmodels loop: acf(fft) + pacf(ldb) + acorr_ljungbox(boxpierce) per series",
-        "statsmodels_loop_default_pacf_subset": f"statsmodels loop with default pacf (ywadjusted), first {sub:,} series",
+        "statsmodels_loop": "same-estimator statsmodels loop: acf + pacf(method=\"ldb\") + acorr_ljungbox(boxpierce) "
+                            "per series",
+        "statsmodels_loop_default_pacf_subset": f"statsmodels loop as a user writes it (defaults: pacf Yule-Walker "
+                                                f"adjusted), first {sub:,} series",
     }
     for key, label in labels.items():
         t = bt[key]
         out.append(f"| {label} | {_ms(t['median'])} | {_ms(t['min'])} | {_ms(t['max'])} |")
-    per_default = bt["statsmodels_loop_default_pacf_subset"]["median"] / sub * b["m"]
+    per_default = default_loop_seconds(b)
     out += [
         "",
-        f"The loop computes the same estimators as the engine (ACF agrees to {b['max_abs_diff_acf_vs_statsmodels']:.1e},"
-        f" PACF to {b['max_abs_diff_pacf_vs_statsmodels']:.1e} on 50 series). With statsmodels' default PACF"
-        f" (Yule-Walker, adjusted; a different estimator) the loop would take about {_ms(per_default)} for all"
-        f" {b['m']:,} series (scaled from the subset), which makes every ratio above"
-        f" {per_default / bt['statsmodels_loop']['median']:.1f}x larger; the targets are judged on the same-estimator loop.",
+        f"Two loops are timed. **As a user writes it**, `acf(x, nlags)`, `pacf(x, nlags)` and"
+        f" `acorr_ljungbox(x, lags, boxpierce=True)` with statsmodels' defaults, the alternative the issue describes:"
+        f" about {_ms(per_default)} for all {b['m']:,} series (its first {sub:,} series timed, scaled by the"
+        f" series count). Its PACF is statsmodels' default estimator (Yule-Walker, adjusted), which differs from"
+        f" the engine's. The **same-estimator** loop passes `pacf(method=\"ldb\")`, the engine's estimator"
+        f" (Durbin-Levinson on the biased ACF), and is"
+        f" {per_default / bt['statsmodels_loop']['median']:.1f}x cheaper than the loop as written; it agrees with the"
+        f" engine (ACF to {b['max_abs_diff_acf_vs_statsmodels']:.1e}, PACF to"
+        f" {b['max_abs_diff_pacf_vs_statsmodels']:.1e} on 50 series). The targets table judges both.",
         "",
     ]
     h = r["http_batch"]

@@ -72,7 +72,7 @@ def test_masked_acf_is_vectorised_over_rows_and_uses_the_fft_for_long_series():
     x = rng.standard_normal((3, 5000))
     mask = rng.random((3, 5000)) > 0.2
     x[~mask] = np.nan
-    r, _ = masked_acf(x, mask, 60)  # 60 lags on 5000 points: the FFT path (autocorrelation.FFT_MIN_*)
+    r, _ = masked_acf(x, mask, 60)  # 60 lags on 5000 points: the FFT path (autocorrelation.uses_fft)
     for i in range(3):
         np.testing.assert_allclose(r[i], _pandas_pairwise_acf(x[i], 60), atol=1e-12)
     assert (pair_counts(mask, 60)[:, 0] == mask.sum(axis=1)).all()

@@ -113,8 +113,10 @@ def _per_observed_row(fn, x: np.ndarray, mask: np.ndarray):
 
 
 def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None, spec: Spec,
-           mask: np.ndarray | None = None, n_eff: np.ndarray | None = None) -> list[TestArrays]:
-    """Every selected test on rows x (raw), d (centred), r (ACF), power (periodogram).
+           mask: np.ndarray | None = None, n_eff: np.ndarray | None = None,
+           cumulative: np.ndarray | None = None) -> list[TestArrays]:
+    """Every selected test on rows x (raw), d (centred), r (ACF), power (periodogram) and
+    its normalised cumulative sums (computed here when not given).
 
     With ``mask`` (True where observed) the lag-based tests use the amplitude-modulated
     estimator and its effective sizes ``n_eff``; runs, turning points and Jarque-Bera use
@@ -166,11 +168,13 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None
                                   extras={"frequencies_tested": None}))
         elif name == "cumulative_periodogram":
             q = power.shape[1]
-            stat = spectrum.ks_statistic(spectrum.cumulative_periodogram(power))
+            if cumulative is None:
+                cumulative = spectrum.cumulative_periodogram(power)
+            stat = spectrum.ks_statistic(cumulative)
             out.append(TestArrays(name, [None], [None], stat[:, None], spectrum.ks_p_value(stat, q)[:, None],
                                   stat[:, None], method="exact", extras={"frequencies_tested": q - 1}))
         elif name == "jarque_bera":
-            stat, p, skew, kurt = (randomness.jarque_bera(d) if mask is None else _per_observed_row(
+            stat, p, skew, kurt = (randomness.jarque_bera(d, scaled=True) if mask is None else _per_observed_row(
                 lambda row: randomness.jarque_bera(center(row)), x, mask))  # rescaled exactly: no overflow
             out.append(TestArrays(name, [None], [2], stat[:, None], p[:, None], stat[:, None],
                                   extras={"skewness": skew, "kurtosis": kurt}))
@@ -250,14 +254,15 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
     if n_eff is not None:
         scale = np.sqrt(n / n_eff)
         band.se, p_band.se = band.se * scale, p_band.se * scale
-    tests = _tests(x, d, r, power, spec, mask, n_eff)
+    cumulative = None if power is None else spectrum.cumulative_periodogram(power)
+    tests = _tests(x, d, r, power, spec, mask, n_eff, cumulative)
     if spec.p_values == "monte_carlo" and spec.replicates > 0 and mask is None:
         monte_carlo(tests, n, spec)
     if power is None:
         freqs, chart_power, chart_cum, expected, crit = (np.zeros(0), np.zeros((m, 0)), np.zeros((m, 0)),
                                                         np.zeros(0), None)
     else:
-        freqs, chart_power, chart_cum, expected = spectrum.chart_blocks(power, n)
+        freqs, chart_power, chart_cum, expected = spectrum.chart_blocks(power, n, cumulative=cumulative)
         crit = spectrum.ks_critical(power.shape[1], spec.confidence)
     # STL runs only where a seasonal lag lies outside the band: elsewhere there is no seasonal
     # pattern to measure, and the decomposition (about 1 ms a series) would dominate large batches.
@@ -273,11 +278,13 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
         if rows.size:
             for i, value in zip(rows.tolist(), seasonality.stl_strengths(x[rows], spec.period).tolist()):
                 strength[i] = value
-    suggested, unit_root = [], []
-    for i in range(m):
-        suggested.append(None if spec.period is not None or not complete
-                         else seasonality.suggest_period(r[i], band.upper[i], power[i], n))
-        unit_root.append(stationarity.adf(x[i]) if complete and stationarity.decays_slowly(r[i]) and n >= 10 else None)
+    suggested: list = [None] * m
+    if spec.period is None and complete:
+        suggested = [seasonality.suggest_period(r[i], band.upper[i], power[i], n) for i in range(m)]
+    unit_root: list = [None] * m
+    if complete and n >= 10:
+        for i in np.flatnonzero(stationarity.decays_slowly(r)).tolist():
+            unit_root[i] = stationarity.adf(x[i])
     return GroupAnalysis(
         n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
         strength, suggested, unit_root, n_eff,

@@ -19,6 +19,11 @@ the strength at once (and n <= OPERATOR_MAX_N), S and R are built from n STL fit
 of the unit vectors (cached per n and period) and applied to all the series by one
 matrix product; this agrees with fitting each series to rounding (about 1e-15),
 far below the 6 reported decimals, and replaces thousands of fits in a batch.
+Series that arrive a few at a time (single requests of a common length) are fitted
+one by one until as many rows of that length and period have been fitted as the
+operator costs to build (n fits); then it is built and used from there on. This
+rent-or-buy rule never spends more than twice the cheaper of the two choices made
+with hindsight, and makes repeated requests of one shape cheap.
 
 References
 ----------
@@ -29,14 +34,22 @@ References
 """
 from __future__ import annotations
 
-from functools import lru_cache
+import threading
+from collections import OrderedDict
 
 import numpy as np
 from statsmodels.tsa.seasonal import STL
 
 #: Longest series for which the linear STL operator (two n x n matrices) is built.
 OPERATOR_MAX_N = 1000
+#: Longest series for which rows fitted one by one count towards building the operator
+#: (two matrices of at most 2 x 400 x 400 x 8 bytes = 2.5 MB per cached shape).
+RENT_MAX_N = 400
 DECIMALS = 6
+
+#: Rows fitted one by one so far, per (n, period) below RENT_MAX_N (bounded: cleared when full).
+_fitted_rows: dict[tuple[int, int], int] = {}
+_FITTED_KEYS_MAX = 256
 
 
 def _scaled(x: np.ndarray) -> np.ndarray:
@@ -45,7 +58,6 @@ def _scaled(x: np.ndarray) -> np.ndarray:
     return np.ldexp(x, -np.frexp(np.where(peak > 0, peak, 1.0))[1])
 
 
-@lru_cache(maxsize=8)
 def _stl_operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
     """Matrices S, R with seasonal = x @ S and remainder = x @ R for every series x of length n."""
     eye = np.eye(n)
@@ -53,6 +65,42 @@ def _stl_operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
     seasonal = np.stack([f.seasonal for f in fits])  # row j: the response to the unit vector e_j
     remainder = np.stack([f.resid for f in fits])
     return seasonal, remainder
+
+
+#: Built operators, least recently used first (at most OPERATORS_KEPT shapes per process).
+_operators: OrderedDict[tuple[int, int], tuple[np.ndarray, np.ndarray]] = OrderedDict()
+OPERATORS_KEPT = 8
+_lock = threading.Lock()  # the two tables are shared by a worker's threads
+
+
+def _operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
+    key = (n, period)
+    if key in _operators:
+        _operators.move_to_end(key)
+        return _operators[key]
+    ops = _operators[key] = _stl_operator(n, period)
+    while len(_operators) > OPERATORS_KEPT:
+        _operators.popitem(last=False)
+    return ops
+
+
+def _use_operator(m: int, n: int, period: int) -> bool:
+    """Use the operator for these m rows? (the rent-or-buy rule of the module notes)"""
+    if n > OPERATOR_MAX_N:
+        return False
+    key = (n, period)
+    if m >= n or key in _operators:
+        return True
+    if n > RENT_MAX_N:
+        return False
+    done = _fitted_rows.get(key, 0) + m
+    if done >= n:
+        _fitted_rows.pop(key, None)
+        return True
+    if key not in _fitted_rows and len(_fitted_rows) >= _FITTED_KEYS_MAX:
+        _fitted_rows.clear()
+    _fitted_rows[key] = done
+    return False
 
 
 def _strength(seasonal: np.ndarray, remainder: np.ndarray) -> np.ndarray:
@@ -66,8 +114,10 @@ def stl_strengths(x: np.ndarray, period: int) -> np.ndarray:
     """Seasonal strength F_S of each row of x (rows of length >= 2 * period + 1)."""
     x = _scaled(np.atleast_2d(np.asarray(x, dtype=np.float64)))
     m, n = x.shape
-    if m >= n and n <= OPERATOR_MAX_N:
-        seasonal_op, remainder_op = _stl_operator(n, period)
+    with _lock:
+        ops = _operator(n, period) if _use_operator(m, n, period) else None
+    if ops is not None:
+        seasonal_op, remainder_op = ops
         return _strength(x @ seasonal_op, x @ remainder_op)
     fits = [STL(row, period=period).fit() for row in x]
     return _strength(np.stack([f.seasonal for f in fits]), np.stack([f.resid for f in fits]))

@@ -122,8 +122,10 @@ def ks_critical(q: int, confidence: float) -> float | None:
     return float(kstwobign.isf(1.0 - confidence) / _stephens(m))
 
 
-def chart_blocks(power: np.ndarray, n: int, limit: int = CHART_POINTS):
+def chart_blocks(power: np.ndarray, n: int, limit: int = CHART_POINTS, cumulative: np.ndarray | None = None):
     """Frequencies, power and cumulative values for charts, averaged in blocks when q > limit.
+
+    ``cumulative`` is :func:`cumulative_periodogram` of ``power`` when the caller has it already.
 
     Returns
     -------
@@ -138,7 +140,7 @@ def chart_blocks(power: np.ndarray, n: int, limit: int = CHART_POINTS):
     """
     m, q = power.shape
     freqs = np.arange(1, q + 1) / n
-    cum = cumulative_periodogram(power)
+    cum = cumulative_periodogram(power) if cumulative is None else cumulative
     if q <= limit:
         return freqs, power, cum, np.arange(1, q + 1) / q
     edges = np.linspace(0, q, limit + 1).astype(int)

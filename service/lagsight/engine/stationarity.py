@@ -25,11 +25,13 @@ SLOW_R1 = 0.7
 SLOW_HALF_LIFE = 6
 
 
-def decays_slowly(r: np.ndarray) -> bool:
-    """r_1 >= 0.7 and r_k stays above r_1 / 2 for lags 1..6 (common practice, no source)."""
-    if r.size < SLOW_HALF_LIFE or r[0] < SLOW_R1:
-        return False
-    return bool((r[:SLOW_HALF_LIFE] > r[0] / 2).all())
+def decays_slowly(r: np.ndarray) -> np.ndarray:
+    """Per row of r (shape (m, K)): r_1 >= 0.7 and r_k stays above r_1 / 2 for lags 1..6
+    (common practice, no source)."""
+    r = np.atleast_2d(r)
+    if r.shape[1] < SLOW_HALF_LIFE:
+        return np.zeros(r.shape[0], dtype=bool)
+    return (r[:, 0] >= SLOW_R1) & (r[:, :SLOW_HALF_LIFE] > r[:, :1] / 2).all(axis=1)
 
 
 #: Longer series are checked on their last ADF_MAX_POINTS values (a regression on a

@@ -1,0 +1,33 @@
+"""The engine's arithmetic for a row does not depend on the other rows of its group.
+
+The batch endpoint stacks series of equal length and options into one 2-D array; a single
+request is a group of one. Every kernel must therefore give a row the same bits in both
+cases (no path choice by row count, no reduction whose order depends on the row count).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lagsight.engine.analysis import Spec, analyse
+from lagsight.engine.autocorrelation import uses_fft
+@pytest.mark.parametrize("n, max_lag", [(120, 24), (500, 34), (500, 100), (3000, 200)])
+def test_engine_rows_do_not_depend_on_the_rest_of_the_group(n, max_lag):
+    """Every array of a row is bit-identical whether the row is analysed alone or among others
+    (both ACF paths: uses_fft picks direct products for the first two shapes, the FFT for the others)."""
+    assert uses_fft(n, max_lag) == (max_lag >= 100)
+    rng = np.random.default_rng(n + max_lag)
+    x = rng.standard_normal((12, n))
+    x[4:8] = np.cumsum(x[4:8], axis=1)  # slowly decaying ACF: unit-root check and PACF near 1
+    x[8:] += 3.0 * np.sin(2 * np.pi * np.arange(n) / 12)
+    spec = Spec(max_lag=max_lag, confidence=0.95, model_df=1, test_lags=(max_lag // 2, max_lag), short_lag=10,
+                period=12)
+    group = analyse(x, spec)
+    for i in range(x.shape[0]):
+        alone = analyse(x[i : i + 1], spec)
+        assert np.array_equal(alone.acf[0], group.acf[i]) and np.array_equal(alone.pacf[0], group.pacf[i])
+        for t_alone, t_group in zip(alone.tests, group.tests):
+            assert np.array_equal(t_alone.statistic[0], t_group.statistic[i], equal_nan=True), t_alone.name
+            assert np.array_equal(t_alone.p_value[0], t_group.p_value[i], equal_nan=True), t_alone.name
+        assert np.array_equal(alone.power[0], group.power[i])
+        assert alone.unit_root[0] == group.unit_root[i]
