@@ -184,3 +184,60 @@ def test_timestamps_imply_period(client):
     body = client.post(URL, json={"values": x, "timestamps": stamps}).get_json()
     assert body["period"] == 12 and body["frequency"] == "monthly"
     assert body["seasonal"]["period_source"] == "timestamps"
+
+
+DIRECT_BODIES = [
+    {"values": [1, 2.5, 3, 4]},
+    {"values": [1.5, 2, 3, 4, 0.25], "period": 2, "name": "kiosk", "max_lag": None, "seed": None},
+    {"values": [1, 2, 3, 4], "name": None, "period": None, "max_lag": 2, "confidence": 0.9, "model_df": 1,
+     "band": "bartlett", "p_values": "monte_carlo", "replicates": 199, "seed": 5, "missing": "pairwise"},
+    {"values": [1, None, 3, 4], "missing": "interpolate", "transform": {"log": True, "difference": 1}},
+    {"values": [1, 2, 3, 4], "transform": None},
+]
+SCHEMA_ONLY_BODIES = [
+    {"values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02", "2024-01-03"]},
+    {"values": [1, 2, 3], "tests": ["runs", "runs"]},
+    {"values": [1, 2, 3], "colour": "red"},
+    {"values": [1, 2, "3"]},
+    {"values": [1, 2, float("inf")]},
+    {"values": [1, None, float("nan")]},
+    {"values": [1, 2, 3], "period": 1, "band": "wide"},
+    {"values": [1, 2, 3], "transform": {"log": "yes"}},
+    {"values": [1, 2, 3], "transform": {"sqrt": True}},
+    {"values": None},
+    {"period": 12},
+]
+
+
+@pytest.mark.parametrize("body", DIRECT_BODIES + SCHEMA_ONLY_BODIES)
+def test_direct_load_agrees_with_the_schema(body):
+    from marshmallow import ValidationError
+
+    from lagsight.schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
+
+    schema = DiagnosticsRequest()
+    direct = DirectLoad(schema, DIRECT_FIELDS)
+    try:
+        expected = schema.load(body)
+    except ValidationError as err:
+        with pytest.raises(ValidationError) as got:
+            direct.load(body)
+        assert got.value.messages == err.messages
+        return
+    if body in DIRECT_BODIES:
+        direct.schema = None  # the direct path must answer these on its own, without the schema's load
+    got = direct.load(body)
+    assert set(got) == set(expected)
+    for key, value in expected.items():
+        if isinstance(value, np.ndarray):
+            np.testing.assert_array_equal(got[key], value)
+            assert got[key].dtype == value.dtype
+        else:
+            assert got[key] == value and type(got[key]) is type(value), key
+
+
+def test_direct_load_refuses_names_that_are_not_fields():
+    from lagsight.schema import DiagnosticsRequest, DirectLoad
+
+    with pytest.raises(ValueError, match="colour"):
+        DirectLoad(DiagnosticsRequest(), ("values", "colour"))

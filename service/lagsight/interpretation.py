@@ -25,6 +25,7 @@ sentences but do not flip `white_noise`, which is about autocorrelation.
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 from scipy.special import bdtrc
 
@@ -41,6 +42,12 @@ MEANINGS = {
     "jarque_bera": "Are skewness and kurtosis those of a normal distribution? (Matters for prediction intervals, "
                    "not for whiteness.)",
 }
+
+
+@lru_cache(maxsize=4096)
+def _meaning(name: str, lag: int | None) -> str:
+    """The one-line meaning of a test at a lag (a handful of distinct strings, formatted once each)."""
+    return MEANINGS[name].format(lag=lag)
 
 
 def fmt(x: float, digits: int = 3) -> str:
@@ -64,15 +71,24 @@ def _lag_list(lags: list[int], most: int = 8) -> str:
     return ", ".join(str(v) for v in lags[:most]) + (" ..." if len(lags) > most else "")
 
 
-def _tests(report: dict, name: str) -> list[dict]:
-    return [t for t in report["tests"] if t["name"] == name]
+def tests_by_name(report: dict) -> dict[str, list[dict]]:
+    """The report's test entries grouped by test name, in report order (one pass over the list)."""
+    grouped: dict[str, list[dict]] = {}
+    for t in report["tests"]:
+        grouped.setdefault(t["name"], []).append(t)
+    return grouped
+
+
+def _tests(tests: dict[str, list[dict]], name: str) -> list[dict]:
+    return tests.get(name) or []
 
 
 def _max_standardised(block: dict, lags: list[int]) -> tuple[float, int]:
+    values, centre, se = block["values"], block["centre"], block["standard_error"]
     best, where = -1.0, lags[0]
     for lag in lags:
         i = lag - 1
-        z = abs(block["values"][i] - block["centre"][i]) / block["standard_error"][i]
+        z = abs(values[i] - centre[i]) / se[i]
         if z > best:
             best, where = z, lag
     return best, where
@@ -84,11 +100,12 @@ def _sidak_p(z: float, count: int) -> float:
     return -math.expm1(count * math.log1p(-tail)) if tail < 1.0 else 1.0
 
 
-def verdict(report: dict) -> dict:
+def verdict(report: dict, tests: dict[str, list[dict]] | None = None) -> dict:
     """The verdict object (see the module docstring for the rule)."""
+    tests = tests_by_name(report) if tests is None else tests
     alpha = 1.0 - report["confidence"]
-    portmanteau = [t for t in _tests(report, "ljung_box") if t["p_value"] is not None] or \
-                  [t for t in _tests(report, "box_pierce") if t["p_value"] is not None]
+    portmanteau = [t for t in _tests(tests, "ljung_box") if t["p_value"] is not None] or \
+                  [t for t in _tests(tests, "box_pierce") if t["p_value"] is not None]
     seasonal_lags = [e["lag"] for e in report["seasonal"]["lags"]]
     families = 1 + bool(portmanteau) + bool(seasonal_lags)
     level = alpha / families
@@ -109,7 +126,7 @@ def verdict(report: dict) -> dict:
         evidence.append({"source": "seasonal_spike", "lag": slag, "p_value": p_seasonal, "threshold": level,
                          "against_white_noise": p_seasonal < level})
     against = [e for e in evidence if e["against_white_noise"]]
-    structure = _structure(report, against, alpha)
+    structure = _structure(report, against, alpha, tests)
     if against:
         worst = min(against, key=lambda e: e["p_value"] / e["threshold"])
         strength = "strong" if worst["p_value"] < worst["threshold"] / 10 else "moderate"
@@ -137,26 +154,27 @@ def verdict(report: dict) -> dict:
             "structure": structure}
 
 
-def _structure(report: dict, against: list[dict], alpha: float) -> list[str]:
+def _structure(report: dict, against: list[dict], alpha: float, tests: dict[str, list[dict]]) -> list[str]:
     kinds = []
     sources = {e["source"] for e in against}
     if sources & {"ljung_box", "box_pierce", "largest_spike"}:
         kinds.append("autocorrelation")
     if "seasonal_spike" in sources:
         kinds.append("seasonal")
-    if any(t["reject"] for t in _tests(report, "mcleod_li")) and "autocorrelation" not in kinds:
+    if any(t["reject"] for t in _tests(tests, "mcleod_li")) and "autocorrelation" not in kinds:
         # Squares of an autocorrelated series are autocorrelated too; McLeod-Li speaks of
         # variance only once the linear dependence is gone.
         kinds.append("volatility_clustering")
-    if any(t["reject"] for t in _tests(report, "runs") + _tests(report, "turning_points")):
+    if any(t["reject"] for t in _tests(tests, "runs") + _tests(tests, "turning_points")):
         kinds.append("non_random_order")
-    if any(t["reject"] for t in _tests(report, "cumulative_periodogram")):
+    if any(t["reject"] for t in _tests(tests, "cumulative_periodogram")):
         kinds.append("uneven_spectrum")
     return kinds
 
 
-def sentences(report: dict) -> list[str]:
+def sentences(report: dict, tests: dict[str, list[dict]] | None = None) -> list[str]:
     """Plain sentences with the numbers in them; none that the numbers do not support."""
+    tests = tests_by_name(report) if tests is None else tests
     out = []
     ex, K = report["exceedances"], report["max_lag"]
     band = report["band"]
@@ -179,9 +197,9 @@ def sentences(report: dict) -> list[str]:
         out.append(f"Just outside the band: lag{'s' if len(ex['marginal']) > 1 else ''} {_lag_list(ex['marginal'])}; "
                    "single marginal spikes like these are often chance.")
     alpha = 1.0 - report["confidence"]
-    out.extend(_portmanteau_sentences(report, alpha))
-    out.extend(_seasonal_sentences(report))
-    for t in _tests(report, "mcleod_li"):
+    out.extend(_portmanteau_sentences(report, alpha, tests))
+    out.extend(_seasonal_sentences(report, tests))
+    for t in _tests(tests, "mcleod_li"):
         if t["reject"] and "volatility_clustering" in report["verdict"]["structure"]:
             out.append(f"Large and small values come in clusters: the McLeod-Li test on the squared values rejects "
                        f"({fmt_p(t['p_value'])}), a sign of changing variance (volatility clustering).")
@@ -189,7 +207,7 @@ def sentences(report: dict) -> list[str]:
             out.append(f"The McLeod-Li test on the squared values also rejects ({fmt_p(t['p_value'])}), but squares of "
                        "an autocorrelated series are autocorrelated too: check it again on the residuals once the "
                        "autocorrelation is modelled.")
-    out.extend(_randomness_sentences(report))
+    out.extend(_randomness_sentences(report, tests))
     ur = report["unit_root"]
     if ur is not None:
         if ur["p_value"] > alpha:
@@ -205,10 +223,10 @@ def _and(items: list[str]) -> str:
     return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
 
 
-def _portmanteau_sentences(report: dict, alpha: float) -> list[str]:
+def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dict]]) -> list[str]:
     out = []
-    done = [t for t in _tests(report, "ljung_box") if t["p_value"] is not None]
-    for t in _tests(report, "ljung_box"):
+    done = [t for t in _tests(tests, "ljung_box") if t["p_value"] is not None]
+    for t in _tests(tests, "ljung_box"):
         if t["p_value"] is None:
             out.append(f"The Ljung-Box test up to lag {t['lag']} could not be computed: {t['note']}")
     if not done:
@@ -224,14 +242,14 @@ def _portmanteau_sentences(report: dict, alpha: float) -> list[str]:
     return out
 
 
-def _seasonal_sentences(report: dict) -> list[str]:
+def _seasonal_sentences(report: dict, tests: dict[str, list[dict]]) -> list[str]:
     out = []
     s = report["seasonal"]
     for entry in s["lags"]:
         if entry["outside"]:
             out.append(f"At the seasonal lag {entry['lag']} (period {s['period']}) the autocorrelation is "
                        f"{fmt(entry['value'])}, outside the band.")
-    for t in _tests(report, "seasonal_ljung_box"):
+    for t in _tests(tests, "seasonal_ljung_box"):
         if t["p_value"] is not None:
             lags = t["details"]["seasonal_lags"]
             subject = (f"The seasonal lags {_and([str(v) for v in lags])} taken together" if len(lags) > 1
@@ -252,9 +270,9 @@ def _seasonal_sentences(report: dict) -> list[str]:
     return out
 
 
-def _randomness_sentences(report: dict) -> list[str]:
+def _randomness_sentences(report: dict, tests: dict[str, list[dict]]) -> list[str]:
     out, quiet = [], []
-    for t in _tests(report, "runs"):
+    for t in _tests(tests, "runs"):
         if t["reject"]:
             few = t["statistic"] < 0
             out.append(f"The runs test finds {'fewer' if few else 'more'} runs above and below the median than chance "
@@ -262,14 +280,14 @@ def _randomness_sentences(report: dict) -> list[str]:
                        + ("values stay on one side for long stretches." if few else "values alternate too often."))
         elif t["reject"] is False:
             quiet.append("runs")
-    for t in _tests(report, "turning_points"):
+    for t in _tests(tests, "turning_points"):
         if t["reject"]:
             few = t["statistic"] < 0
             out.append(f"There are {'fewer' if few else 'more'} turning points than a random order gives "
                        f"({fmt_p(t['p_value'])}): the series is {'smoother' if few else 'more jagged'} than noise.")
         elif t["reject"] is False:
             quiet.append("turning-point")
-    for t in _tests(report, "cumulative_periodogram"):
+    for t in _tests(tests, "cumulative_periodogram"):
         if t["reject"]:
             out.append(f"The cumulative periodogram leaves its band ({fmt_p(t['p_value'])}): some frequencies carry "
                        "more variance than white noise's flat spectrum allows.")
@@ -278,7 +296,7 @@ def _randomness_sentences(report: dict) -> list[str]:
     if quiet:
         out.append(f"The {_and(quiet)} check{'s' if len(quiet) > 1 else ''} find{'' if len(quiet) > 1 else 's'} "
                    "nothing unusual.")
-    for t in _tests(report, "jarque_bera"):
+    for t in _tests(tests, "jarque_bera"):
         if t["reject"]:
             out.append(f"The values are not normally distributed (Jarque-Bera {fmt_p(t['p_value'])}, skewness "
                        f"{fmt(t['details']['skewness'], 2)}, kurtosis {fmt(t['details']['kurtosis'], 2)}); this matters "
@@ -307,8 +325,9 @@ def cutoff(block: dict, alpha: float) -> int | None:
     return q
 
 
-def advice(report: dict) -> list[dict]:
+def advice(report: dict, tests: dict[str, list[dict]] | None = None) -> list[dict]:
     """Next steps that follow from the pattern, each with its reason."""
+    tests = tests_by_name(report) if tests is None else tests
     out = []
     v = report["verdict"]
     s = report["seasonal"]
@@ -355,12 +374,12 @@ def advice(report: dict) -> list[dict]:
                                   "where an MA cut-off lies.",
                         "reason": v["summary"]})
     if "volatility_clustering" in v["structure"]:
-        t = _tests(report, "mcleod_li")[0]
+        t = _tests(tests, "mcleod_li")[0]
         out.append({"action": "Model the changing variance (for example an ARCH or GARCH model), or stabilise it "
                               "with a log or Box-Cox transform if the swings grow with the level.",
                     "reason": f"The McLeod-Li test on the squared values rejects ({fmt_p(t['p_value'])}): volatility "
                               "clusters."})
-    if any(t["reject"] for t in _tests(report, "jarque_bera")):
+    if any(t["reject"] for t in _tests(tests, "jarque_bera")):
         out.append({"action": "Do not rely on normal-theory prediction intervals; use bootstrap or empirical "
                               "quantile intervals.",
                     "reason": "The Jarque-Bera test rejects normality."})
@@ -402,12 +421,12 @@ def cautions(report: dict) -> list[str]:
     return out
 
 
-def _leftover_seasonality(report: dict) -> bool | None:
+def _leftover_seasonality(report: dict, tests: dict[str, list[dict]]) -> bool | None:
     s = report["seasonal"]
     if s["period"] is None or not s["lags"]:
         return None
     alpha = 1.0 - report["confidence"]
-    seasonal_test = [t for t in _tests(report, "seasonal_ljung_box") if t["p_value"] is not None]
+    seasonal_test = [t for t in _tests(tests, "seasonal_ljung_box") if t["p_value"] is not None]
     return bool("seasonal" in report["verdict"]["structure"] or any(t["p_value"] < alpha for t in seasonal_test)
                 and any(e["outside"] for e in s["lags"]))
 
@@ -415,11 +434,12 @@ def _leftover_seasonality(report: dict) -> bool | None:
 def interpret(report: dict) -> dict:
     """Fill the verdict, sentences, advice, cautions and test meanings of a numeric report (in place)."""
     for t in report["tests"]:
-        t["meaning"] = MEANINGS[t["name"]].format(lag=t["lag"])
-    report["verdict"] = verdict(report)
-    report["seasonal"]["leftover_likely"] = _leftover_seasonality(report)
-    report["interpretation"] = [report["verdict"]["summary"], *sentences(report)]
-    report["advice"] = advice(report)
+        t["meaning"] = _meaning(t["name"], t["lag"])
+    tests = tests_by_name(report)
+    report["verdict"] = verdict(report, tests)
+    report["seasonal"]["leftover_likely"] = _leftover_seasonality(report, tests)
+    report["interpretation"] = [report["verdict"]["summary"], *sentences(report, tests)]
+    report["advice"] = advice(report, tests)
     report["cautions"] = cautions(report)
     if report["n"] < options.SMALL_SAMPLE_N and report["p_values"]["method"] == "asymptotic":
         report["warnings"].append({"code": "short_series", "message": (

@@ -31,10 +31,21 @@ _NOT_COMPUTABLE = {
 }
 
 
+#: Arrays of at most this many values are checked for non-finite values on their Python lists:
+#: a NumPy call costs about a microsecond whatever the size, and one report converts dozens of
+#: small arrays (a group of one series is the single request).
+_SMALL_ARRAY = 256
+
+
 def _rows(a: np.ndarray) -> list[list]:
     """Rows of a 2-D float array as lists, with None where a value is not finite."""
     rows = a.tolist()
-    if np.isfinite(a).all():
+    if a.size <= _SMALL_ARRAY:
+        # The sum is finite only if every value is; a sum that overflows takes the slow path below,
+        # which gives the same rows.
+        if math.isfinite(sum(map(sum, rows))):
+            return rows
+    elif np.isfinite(a).all():
         return rows
     return [[v if math.isfinite(v) else None for v in row] for row in rows]
 

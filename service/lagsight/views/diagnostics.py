@@ -14,18 +14,19 @@ from .. import csv_input, options, query, vega_lite
 from ..payload import read_json_object
 from ..pipeline import plan_for, run
 from ..problems import Problem, flatten_messages
-from ..schema import DiagnosticsRequest
+from ..schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
 from ..serialisation import json_response
 from ..serialisation_csv import correlogram_table
 from ..series import prepare
 
 bp = Blueprint("diagnostics", __name__)
 _SCHEMA = DiagnosticsRequest()
+_LOAD = DirectLoad(_SCHEMA, DIRECT_FIELDS)
 CSV_TYPES = ("text/csv", "application/csv")
 _ANALYSIS = (*query.ANALYSIS_PARAMS, *query.TRANSFORM_PARAMS)
 
 
-def load(schema: Schema, body: dict) -> dict:
+def load(schema: Schema | DirectLoad, body: dict) -> dict:
     """Validate a parsed body; a failure becomes a 422 with a pointer per bad field."""
     try:
         return schema.load(body)
@@ -100,7 +101,7 @@ def diagnose():
     raw = body.pop("_raw", {})
     cfg = current_app.config
     try:
-        data = load(_SCHEMA, body)
+        data = load(_LOAD, body)
         body = None  # the parsed JSON (a Python float per value) is not needed past validation: free it now
         series = prepare(data, cfg["MAX_POINTS"])
         plan = plan_for(series, data, cfg)
