@@ -289,8 +289,8 @@ def test_the_first_ndjson_block_is_sent_before_the_next_is_computed(app, monkeyp
 
     real, computed = view.run_blocks, []
 
-    def counting(items):
-        for block in real(items):
+    def counting(items, *args):
+        for block in real(items, *args):
             computed.append(len(block))
             yield block
 
@@ -310,8 +310,8 @@ def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, 
 
     real = view.run_blocks
 
-    def fail_after_first(items):
-        blocks = real(items)
+    def fail_after_first(items, *args):
+        blocks = real(items, *args)
         yield next(blocks)
         raise RuntimeError("secret internal detail")
 

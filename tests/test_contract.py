@@ -124,6 +124,23 @@ def test_batch_options_read_the_same_as_the_single_route_and_methods(client):
     assert methods["limits"]["max_batch_points"] == options.DEFAULT_LIMITS["max_batch_points"]
 
 
+def test_detail_option_and_brief_result_read_the_same_in_options_spec_and_methods(client):
+    from lagsight.brief import FIELDS
+
+    schemas = spec()["components"]["schemas"]
+    detail = schemas["BatchRequest"]["properties"]["detail"]
+    assert detail["enum"] == list(options.DETAIL_LEVELS) and detail["default"] == options.DEFAULT_DETAIL
+    fields = schemas["BriefResultFields"]
+    assert list(fields["properties"]) == list(FIELDS) == fields["required"]
+    methods = client.get("/v1/methods").get_json()["batch"]["detail"]
+    assert methods == {"default": options.DEFAULT_DETAIL, "enum": list(options.DETAIL_LEVELS),
+                       "brief_fields": ["id", *FIELDS]}
+    # A brief test entry is the full report's entry reduced: its fields are a subset, typed the same.
+    brief_test, full_test = schemas["BriefTest"]["properties"], schemas["TestResult"]["properties"]
+    for name, prop in brief_test.items():
+        assert prop["type"] == full_test[name]["type"], name
+
+
 def test_batch_report_has_the_report_fields_and_id():
     schemas = spec()["components"]["schemas"]
     assert schemas["Report"]["allOf"] == [{"$ref": "#/components/schemas/ReportFields"}]

@@ -121,6 +121,11 @@ DEFAULT_FORMAT = "json"
 #: Charts that format=svg/png can draw (query parameter ``chart``).
 CHART_KINDS = ("correlogram", "pacf", "time_plot", "periodogram", "panel")
 DEFAULT_CHART = "correlogram"
+#: How much of each series' result a batch answers (batch option ``detail``): "full", the whole report of
+#: the single route; "brief", the verdict, the test numbers, the exceedances, the seasonal strength and the
+#: warnings, with the general cautions once for the whole batch (see lagsight.brief).
+DETAIL_LEVELS = ("full", "brief")
+DEFAULT_DETAIL = "full"
 #: A spike beyond this many standard errors is "far" outside the band; between the band and it, "marginal".
 FAR_OUTSIDE_SE = 3.0
 

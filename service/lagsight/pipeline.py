@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import metrics, options
+from .brief import brief_results
 from .engine.analysis import Spec, analyse
 from .interpretation import interpret
 from .problems import invalid
@@ -118,8 +119,13 @@ def gc_paused():
             gc.enable()
 
 
-def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[int, dict]]]:
-    """Reports block by block, as ``(index in items, report)`` pairs, as soon as each block is done."""
+def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.DEFAULT_DETAIL,
+               ) -> Iterator[list[tuple[int, dict]]]:
+    """Results block by block, as ``(index in items, result)`` pairs, as soon as each block is done.
+
+    ``detail`` "full" gives full reports; "brief" the brief results of :mod:`lagsight.brief`,
+    built from the same engine pass without the report and its sentences.
+    """
     for plan, members in blocks(items):
         if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
             x = items[members[0]][0].values[None, :]
@@ -129,8 +135,11 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]]) -> Iterator[list[tuple[
         result = analyse(x, plan.spec, mask=mask)
         metrics.record_analysed(len(members), plan.n * len(members))
         with gc_paused():
-            reports = build_reports([items[i][0] for i in members], result)
-            done = [(i, interpret(report)) for i, report in zip(members, reports)]
+            if detail == "brief":
+                done = list(zip(members, brief_results([items[i][0] for i in members], result)))
+            else:
+                reports = build_reports([items[i][0] for i in members], result)
+                done = [(i, interpret(report)) for i, report in zip(members, reports)]
         yield done
 
 

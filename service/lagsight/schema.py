@@ -270,6 +270,7 @@ class BatchRequest(AnalysisOptions):
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     missing = SeriesFields._declared_fields["missing"]
     transform = SeriesFields._declared_fields["transform"]
+    detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=validate.OneOf(options.DETAIL_LEVELS))
 
 #: The options a series of a batch may override, and the shared field each falls back to.
 BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df")

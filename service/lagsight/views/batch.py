@@ -14,6 +14,7 @@ import secrets
 from flask import Blueprint, Response, current_app, request, stream_with_context
 from marshmallow import ValidationError, missing
 
+from .. import brief
 from ..payload import read_json_object
 from ..pipeline import Plan, gc_paused, plan_for, run_blocks
 from ..problems import FieldError, Problem, flatten_messages
@@ -170,6 +171,7 @@ def diagnose_batch():
     shared = load(_REQUEST, body)
     _check_shared(shared, cfg)
     raw = shared.pop("series")
+    detail = shared.pop("detail")
     if shared.get("p_values") == "monte_carlo" and shared.get("seed") is None:
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
@@ -188,33 +190,45 @@ def diagnose_batch():
     del body, raw  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
     summary = _Summary(len(where) + len(errors))
+    notes = _brief_notes(prepared) if detail == "brief" else {}
     if media == NDJSON:
-        return Response(stream_with_context(_stream(errors, prepared, where, summary)), mimetype=NDJSON)
+        return Response(stream_with_context(_stream(errors, prepared, where, summary, detail, notes)),
+                        mimetype=NDJSON)
     results: list = [None] * (len(where) + len(errors))
     with gc_paused():
         for i, result in errors:
             results[i] = result
-        for block in run_blocks(prepared):
+        for block in run_blocks(prepared, detail):
             for j, report in block:
                 i, item_id = where[j]
                 results[i] = {"id": item_id, **report}
         for result in results:
             summary.add(result)
+    if detail == "brief":
+        return json_response({"detail": detail, "results": results, "summary": summary.counts, **notes})
     return json_response({"results": results, "summary": summary.counts})
+
+
+def _brief_notes(prepared: list[tuple[PreparedSeries, Plan]]) -> dict:
+    """The cautions and the pointer to the full report that a brief answer carries once."""
+    cautions = brief.batch_cautions(len(prepared), sum(1.0 - plan.spec.confidence for _, plan in prepared),
+                                    any(plan.spec.model_df == 0 for _, plan in prepared))
+    return {"cautions": cautions, "full_report": brief.FULL_REPORT}
 
 
 def _line(obj) -> bytes:
     return dumps(obj) + b"\n"
 
 
-def _stream(errors, prepared, where, summary: _Summary):
-    """NDJSON lines: request errors first, then each block's results as it finishes, then the summary."""
+def _stream(errors, prepared, where, summary: _Summary, detail: str, notes: dict):
+    """NDJSON lines: request errors first, then each block's results as it finishes, then the summary
+    (which carries the brief answer's cautions and pointer to the full report)."""
     try:
         if errors:
             for _, result in errors:
                 summary.add(result)
             yield b"".join(_line({"kind": "result", "index": i, **result}) for i, result in errors)
-        for block in run_blocks(prepared):
+        for block in run_blocks(prepared, detail):
             lines = []
             for j, report in block:
                 i, item_id = where[j]
@@ -222,7 +236,7 @@ def _stream(errors, prepared, where, summary: _Summary):
                 summary.add(result)
                 lines.append(_line({"kind": "result", "index": i, **result}))
             yield b"".join(lines)
-        yield _line({"kind": "summary", "summary": summary.counts})
+        yield _line({"kind": "summary", "summary": summary.counts, **notes})
     except Exception:  # the status line is sent: end the stream with an error line instead
         log.exception("unhandled error while streaming %s", request.path)
         problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "

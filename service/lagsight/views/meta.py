@@ -12,6 +12,7 @@ from ..charts import __doc__ as charts_doc
 from ..csv_input import __doc__ as csv_doc
 from ..engine.masked import __doc__ as masked_doc
 from ..serialisation_csv import COLUMNS as CSV_COLUMNS
+from ..brief import FIELDS as BRIEF_FIELDS
 from ..schema import BATCH_OVERRIDES
 from ..serialisation import json_response
 from ..timestamps import __doc__ as timestamps_doc
@@ -93,6 +94,8 @@ def methods():
             "route": "/v1/diagnostics/batch",
             "per_series_overrides": list(BATCH_OVERRIDES),
             "media_types": ["application/json", "application/x-ndjson"],
+            "detail": {"default": options.DEFAULT_DETAIL, "enum": list(options.DETAIL_LEVELS),
+                       "brief_fields": ["id", *BRIEF_FIELDS]},
         },
         "decision_rule": " ".join(DECISION_RULE.split("-" * 74)[1].split()),
     })

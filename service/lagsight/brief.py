@@ -1,0 +1,305 @@
+"""The brief result of a batch series (``detail: "brief"``), read straight off the engine's arrays.
+
+A portal scanning thousands of series needs, per series, the verdict and the numbers behind
+it, not the correlogram lists, bands, periodogram, chart data, sentences and advice of the full
+report (about 27 KB of JSON each). A brief result holds:
+
+- ``name``, ``n``, ``n_missing``, ``max_lag``, ``period``: as in the full report;
+- ``verdict``: the full report's verdict object, the same in every field (the decision rule of
+  :mod:`lagsight.interpretation`);
+- ``tests``: each test entry reduced to name, lag, df, statistic, p_value, reject and note;
+- ``exceedances``: how many autocorrelations lie outside the band and at which lags
+  (the full report's ``exceedances.count`` and ``acf.outside``);
+- ``seasonal_strength``: the STL strength when it was computed (``seasonal.strength.value``), else null;
+- ``warnings``: the full report's warnings.
+
+The general cautions are said once for the whole batch (:func:`batch_cautions`).
+
+Everything is computed a block at a time with NumPy over the rows of a
+:class:`~lagsight.engine.analysis.GroupAnalysis`: band exceedances, the standardised spikes
+and their argmax, the portmanteau family with its per-row Bonferroni thresholds, the
+per-test rejections and the structure flags. Per row, Python only assembles small dicts from
+``tolist()`` output and calls the scalar Sidak tail of the verdict rule. tests/test_brief.py
+checks field by field that a brief result equals the matching parts of the full report.
+"""
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+
+from . import options
+from .engine.analysis import GroupAnalysis, TestArrays
+from .interpretation import _sidak_p, fmt_p
+from .report import _test_rows
+from .series import PreparedSeries
+
+#: Per-series fields of a brief result, in order (the batch adds ``id``).
+FIELDS = ("name", "n", "n_missing", "max_lag", "period", "verdict", "tests", "exceedances", "seasonal_strength",
+          "warnings")
+
+_PORTMANTEAU = ("ljung_box", "box_pierce")
+_SPIKE_WHAT = {"largest_spike": "the spike at lag {lag}", "seasonal_spike": "the seasonal lag {lag}",
+               "ljung_box": "the Ljung-Box test up to lag {lag}", "box_pierce": "the Box-Pierce test up to lag {lag}"}
+
+# The verdict sentences and the short-series warning read exactly as interpretation.verdict and
+# interpretation.interpret write them; tests/test_brief.py compares them on every kind of series.
+_UNDETERMINED = ("No judgement: no portmanteau lag has degrees of freedom left after model_df, and no spike "
+                 "stands out; raise max_lag or check model_df.")
+_CLUSTERING = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
+               "independent noise.")
+
+
+def _not_white(source: str, lag: int, p: float) -> str:
+    return f"Not white noise: autocorrelation remains ({_SPIKE_WHAT[source].format(lag=lag)}, {fmt_p(p)})."
+
+
+def _white(name: str, p: float) -> str:
+    label = "Ljung-Box" if name == "ljung_box" else "Box-Pierce"
+    return (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
+            f"{label} {fmt_p(p)}).")
+
+
+def _short_series_warning(n: int) -> dict:
+    return {"code": "short_series", "message": (
+        f"n = {n} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
+        "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")}
+
+
+def _finite_or_none(a: np.ndarray) -> list:
+    """Rows of a 2-D float array as lists, None where not finite (as the full report writes them)."""
+    rows = a.tolist()
+    if np.isfinite(a).all():
+        return rows
+    return [[v if math.isfinite(v) else None for v in row] for row in rows]
+
+
+def _row_slice(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
+    """A one-row view of a group analysis (for the rare null-value notes)."""
+    def cut(t: TestArrays) -> TestArrays:
+        extras = {k: (v[row:row + 1] if isinstance(v, np.ndarray) else v) for k, v in t.extras.items()}
+        return dataclasses.replace(t, statistic=t.statistic[row:row + 1], p_value=t.p_value[row:row + 1],
+                                   extreme=t.extreme[row:row + 1],
+                                   mc_se=None if t.mc_se is None else t.mc_se[row:row + 1], extras=extras)
+    return dataclasses.replace(analysis, acf=analysis.acf[row:row + 1], tests=[cut(t) for t in analysis.tests])
+
+
+def _test_entries(analysis: GroupAnalysis, alpha: float) -> list[list[dict]]:
+    """Every row's test entries: name, lag, df, statistic, p_value, reject, note.
+
+    A note is written only where the statistic or the p-value is null. Its text depends on
+    the test, the lag and the group, never on the row, so it is taken once per (test, lag)
+    from the full report's own builder run on one row that has the null.
+    """
+    m = analysis.acf.shape[0]
+    out: list[list[dict]] = [[] for _ in range(m)]
+    for t in analysis.tests:
+        stats, pvals = _finite_or_none(t.statistic), _finite_or_none(t.p_value)
+        null = ~(np.isfinite(t.statistic) & np.isfinite(t.p_value))
+        notes = {}
+        for j in np.flatnonzero(null.any(axis=0)).tolist():
+            first = int(np.argmax(null[:, j]))
+            entries = [e for e in _test_rows(_row_slice(analysis, first))[0] if e["name"] == t.name]
+            notes[j] = entries[j]["note"]
+        for j, lag in enumerate(t.lags):
+            df, note = t.df[j], notes.get(j)
+            for row in range(m):
+                stat, p = stats[row][j], pvals[row][j]
+                out[row].append({"name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
+                                 "reject": None if p is None else p < alpha,
+                                 "note": note if stat is None or p is None else None})
+    return out
+
+
+def _max_standardised(z: np.ndarray, lags: list[int]) -> tuple[list[float], list[int]]:
+    """Per row the largest standardised value over the given lags and the first lag where it occurs.
+
+    NaN never wins, and a row of NaN gives (-1.0, first lag), as interpretation._max_standardised does.
+    """
+    sub = z[:, np.asarray(lags) - 1]
+    sub = np.where(np.isnan(sub), -1.0, sub)
+    where = np.argmax(sub, axis=1)
+    best = sub[np.arange(sub.shape[0]), where]
+    return best.tolist(), np.asarray(lags)[where].tolist()
+
+
+def _rejects(analysis: GroupAnalysis, alpha: float, name: str) -> np.ndarray:
+    """Per row: does any entry of the named test reject (p < alpha)?"""
+    m = analysis.acf.shape[0]
+    hit = np.zeros(m, dtype=bool)
+    for t in analysis.tests:
+        if t.name == name:
+            with np.errstate(invalid="ignore"):
+                hit |= (t.p_value < alpha).any(axis=1)
+    return hit
+
+
+def _verdicts(analysis: GroupAnalysis, ns: list[int], alpha: float) -> list[dict]:
+    """The verdict object of every row (interpretation.verdict's rule, computed over the block)."""
+    spec = analysis.spec
+    m, K = analysis.acf.shape
+    band = analysis.acf_band
+    r = analysis.acf
+    z = np.abs(r - band.centre) / band.se
+    tests = {t.name: t for t in analysis.tests if t.name in _PORTMANTEAU}
+    lags = list(spec.test_lags)
+    L = len(lags)
+    nan = np.full((m, L), np.nan)
+    lb = tests["ljung_box"].p_value if "ljung_box" in tests else nan
+    bp = tests["box_pierce"].p_value if "box_pierce" in tests else nan
+    lb_ok, bp_ok = np.isfinite(lb), np.isfinite(bp)
+    use_lb = lb_ok.any(axis=1)
+    fam_p = np.where(use_lb[:, None], lb, bp)
+    fam_ok = np.where(use_lb[:, None], lb_ok, bp_ok)
+    count = fam_ok.sum(axis=1)
+    has_port = count > 0
+    seasonal_lags = list(spec.seasonal_lags)
+    families = 1 + has_port.astype(np.int64) + bool(seasonal_lags)
+    level = alpha / families  # (m,)
+    threshold = level / np.maximum(count, 1)
+    with np.errstate(invalid="ignore"):
+        port_against = fam_ok & (fam_p < threshold[:, None])
+    z_spike, lag_spike = _max_standardised(z, list(range(1, K + 1)))
+    p_spike = np.array([_sidak_p(v, K) for v in z_spike])
+    spike_against = p_spike < level
+    if seasonal_lags:
+        z_season, lag_season = _max_standardised(z, seasonal_lags)
+        p_season = np.array([_sidak_p(v, len(seasonal_lags)) for v in z_season])
+        season_against = p_season < level
+    else:
+        p_season = np.full(m, np.nan)
+        season_against = np.zeros(m, dtype=bool)
+    # Ratios p / threshold over the evidence columns (portmanteau lags, spike, seasonal spike).
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = np.concatenate([fam_p / threshold[:, None], (p_spike / level)[:, None],
+                                (p_season / level)[:, None]], axis=1)
+    present = np.concatenate([fam_ok, np.ones((m, 1), bool), np.full((m, 1), bool(seasonal_lags))], axis=1)
+    against = np.concatenate([port_against, spike_against[:, None], season_against[:, None]], axis=1)
+    any_against = against.any(axis=1)
+    worst = np.argmin(np.where(against, ratio, np.inf), axis=1)
+    smallest = np.where(present, ratio * alpha, np.inf).min(axis=1)
+    best_port = np.argmin(np.where(fam_ok, fam_p, np.inf), axis=1)
+    autocorrelation = port_against.any(axis=1) | spike_against
+    clustering = _rejects(analysis, alpha, "mcleod_li") & ~autocorrelation
+    non_random = _rejects(analysis, alpha, "runs") | _rejects(analysis, alpha, "turning_points")
+    uneven = _rejects(analysis, alpha, "cumulative_periodogram")
+
+    fam_p_rows, fam_ok_rows, port_rows = fam_p.tolist(), fam_ok.tolist(), port_against.tolist()
+    level_l, threshold_l = level.tolist(), threshold.tolist()
+    p_spike_l, spike_l = p_spike.tolist(), spike_against.tolist()
+    p_season_l, season_l = p_season.tolist(), season_against.tolist()
+    use_lb_l, has_port_l, any_l = use_lb.tolist(), has_port.tolist(), any_against.tolist()
+    worst_l, smallest_l, best_l = worst.tolist(), smallest.tolist(), best_port.tolist()
+    auto_l, clus_l, nonr_l, unev_l = (autocorrelation.tolist(), clustering.tolist(), non_random.tolist(),
+                                      uneven.tolist())
+    out = []
+    for i in range(m):
+        name = "ljung_box" if use_lb_l[i] else "box_pierce"
+        th = threshold_l[i]
+        evidence = [{"source": name, "lag": lags[j], "p_value": fam_p_rows[i][j], "threshold": th,
+                     "against_white_noise": port_rows[i][j]} for j in range(L) if fam_ok_rows[i][j]]
+        evidence.append({"source": "largest_spike", "lag": lag_spike[i], "p_value": p_spike_l[i],
+                         "threshold": level_l[i], "against_white_noise": spike_l[i]})
+        if seasonal_lags:
+            evidence.append({"source": "seasonal_spike", "lag": lag_season[i], "p_value": p_season_l[i],
+                             "threshold": level_l[i], "against_white_noise": season_l[i]})
+        structure = []
+        if auto_l[i]:
+            structure.append("autocorrelation")
+        if season_l[i]:
+            structure.append("seasonal")
+        if clus_l[i]:
+            structure.append("volatility_clustering")
+        if nonr_l[i]:
+            structure.append("non_random_order")
+        if unev_l[i]:
+            structure.append("uneven_spectrum")
+        if any_l[i]:
+            w = worst_l[i]
+            source, lag, p = ((name, lags[w], fam_p_rows[i][w]) if w < L else
+                              ("largest_spike", lag_spike[i], p_spike_l[i]) if w == L else
+                              ("seasonal_spike", lag_season[i], p_season_l[i]))
+            strength = "strong" if p < (th if w < L else level_l[i]) / 10 else "moderate"
+            out.append({"white_noise": False, "summary": _not_white(source, lag, p), "evidence": evidence,
+                        "confidence": strength, "structure": structure})
+        elif not has_port_l[i]:
+            out.append({"white_noise": None, "summary": _UNDETERMINED, "evidence": evidence,
+                        "confidence": "none", "structure": structure})
+        else:
+            strength = "moderate" if smallest_l[i] > 4 * alpha and ns[i] >= options.SMALL_SAMPLE_N else "weak"
+            summary = _CLUSTERING if clus_l[i] else _white(name, fam_p_rows[i][best_l[i]])
+            out.append({"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength,
+                        "structure": structure})
+    return out
+
+
+def _outside_lags(analysis: GroupAnalysis) -> list[list[int]]:
+    """Per row the lags whose autocorrelation lies outside the band (the full report's acf.outside)."""
+    band = analysis.acf_band
+    r = analysis.acf
+    outside = (r < band.lower) | (r > band.upper)
+    rows, cols = np.nonzero(outside)
+    flat = (cols + 1).tolist()
+    ends = np.cumsum(np.bincount(rows, minlength=r.shape[0])).tolist()
+    starts = [0, *ends[:-1]]
+    return [flat[a:b] for a, b in zip(starts, ends)]
+
+
+def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
+    """The brief result of every row of a group analysis; ``series[i]`` is row i."""
+    spec = analysis.spec
+    alpha = 1.0 - spec.confidence
+    ns = [s.n for s in series]
+    verdicts = _verdicts(analysis, ns, alpha)
+    tests = _test_entries(analysis, alpha)
+    outside = _outside_lags(analysis)
+    short = spec.p_values == "asymptotic"
+    out = []
+    for i, s in enumerate(series):
+        warnings = list(s.warnings)
+        if short and ns[i] < options.SMALL_SAMPLE_N:
+            warnings.append(_short_series_warning(ns[i]))
+        out.append({
+            "name": s.name,
+            "n": ns[i],
+            "n_missing": s.n_missing,
+            "max_lag": spec.max_lag,
+            "period": s.period,
+            "verdict": verdicts[i],
+            "tests": tests[i],
+            "exceedances": {"count": len(outside[i]), "outside": outside[i]},
+            "seasonal_strength": analysis.seasonal_strength[i],
+            "warnings": warnings,
+        })
+    return out
+
+
+def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool) -> list[str]:
+    """The general cautions of a brief batch answer, said once for all its series.
+
+    ``chance_flags`` is the sum of 1 - confidence over the series analysed: the verdict rule
+    holds each pure-noise series' chance of being called "not white noise" at or below its
+    1 - confidence, so about that many could be flagged by chance if all were white noise.
+    """
+    out = [
+        "A white-noise verdict is not proof of white noise: it says only that the sample gives no strong "
+        "evidence of autocorrelation at the lags checked.",
+        f"Bands and p-values are large-sample (asymptotic) approximations, rough for short series (below n = "
+        f"{options.SMALL_SAMPLE_N} each such result carries a short_series warning); p_values \"monte_carlo\" "
+        "gives p-values that hold at any length.",
+        "Multiple testing: each verdict adjusts for the many lags and tests of its own series (the per-test reject "
+        "flags do not), but nothing adjusts across series. Of the "
+        f"{analysed} series analysed here, up to about {chance_flags:.0f} could be called not white noise by chance "
+        "alone at the chosen confidence even if every one were white noise.",
+    ]
+    if any_without_model_df:
+        out.append("If these values are residuals of fitted ARMA models, set model_df to each model's number of "
+                   "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
+    return out
+
+
+#: Where the rest of each series' report is (the brief answer says it once).
+FULL_REPORT = ("Each series' full report (correlogram and partial correlogram with their bands, periodogram, chart "
+               "data, unit-root check, sentences, advice and its own cautions) is the answer to the same request "
+               "with detail \"full\", the default.")
