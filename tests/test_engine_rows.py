@@ -10,7 +10,8 @@ import numpy as np
 import pytest
 
 from lagsight.engine.analysis import Spec, analyse
-from lagsight.engine.autocorrelation import uses_fft
+from lagsight.engine import partial
+from lagsight.engine.autocorrelation import acf, uses_fft
 @pytest.mark.parametrize("n, max_lag", [(120, 24), (500, 34), (500, 100), (3000, 200)])
 def test_engine_rows_do_not_depend_on_the_rest_of_the_group(n, max_lag):
     """Every array of a row is bit-identical whether the row is analysed alone or among others
@@ -31,3 +32,22 @@ def test_engine_rows_do_not_depend_on_the_rest_of_the_group(n, max_lag):
             assert np.array_equal(t_alone.p_value[0], t_group.p_value[i], equal_nan=True), t_alone.name
         assert np.array_equal(alone.power[0], group.power[i])
         assert alone.unit_root[0] == group.unit_root[i]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_the_three_durbin_levinson_paths_give_the_same_bits(seed, monkeypatch):
+    """Plain floats (few series), add.accumulate (some) and one multiply-add per term (many):
+    each must reproduce the others exactly, or a series' PACF would depend on its batch."""
+    rng = np.random.default_rng(seed)
+    n, max_lag, m = int(rng.integers(12, 300)), int(rng.integers(1, 40)), int(rng.integers(1, 25))
+    x = rng.standard_normal((m, n))
+    if seed % 2:
+        x = np.cumsum(x, axis=1)  # PACF near 1 at lag 1
+    r = acf(x, min(max_lag, n - 1))
+    results = []
+    for scalar_max, accumulate_below in ((10**9, 0), (-1, 10**9), (-1, 0)):
+        monkeypatch.setattr(partial, "SCALAR_MAX_WORK", scalar_max)
+        monkeypatch.setattr(partial, "ACCUMULATE_BELOW", accumulate_below)
+        results.append(partial.pacf(r))
+    assert np.array_equal(results[0], results[1], equal_nan=True)
+    assert np.array_equal(results[0], results[2], equal_nan=True)
