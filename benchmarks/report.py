@@ -211,7 +211,8 @@ def render(r: dict, previous: str = "") -> str:
     out += [
         "## 5. Scaling",
         "",
-        f"One series of growing length (max_lag {sc['max_lag']}; direct products below 2,048 points, FFT above):",
+        f"One series of growing length (max_lag {sc['max_lag']}; the ACF by direct products or the FFT, whichever"
+        " `autocorrelation.uses_fft` estimates cheaper for the length and lags):",
         "",
         "| length | engine | full report |",
         "| --- | --- | --- |",

@@ -107,7 +107,9 @@ def autocovariance(d: np.ndarray, max_lag: int, method: str = "auto") -> np.ndar
         # bits, whatever the number of rows.
         padded = np.zeros((m, n + max_lag))
         padded[:, :n] = d
-        windows = np.lib.stride_tricks.sliding_window_view(padded, n, axis=1)[:, : max_lag + 1]
+        # windows[i, k] = padded[i, k:k + n], a read-only strided view (no copy)
+        windows = np.ndarray((m, max_lag + 1, n), dtype=np.float64, buffer=padded,
+                             strides=(padded.strides[0], padded.strides[1], padded.strides[1]))
         c = np.vecdot(d[:, None, :], windows)
     return c / n
 
