@@ -25,36 +25,51 @@ def post(server: Server, path: str, body: bytes, accept: str = "application/json
 
 
 def measure_batch(server: Server, x: np.ndarray, max_lag: int, period: int, repeats: int) -> dict:
-    """Measurement 2: client encodes the JSON, posts it, reads and decodes the answer; also the NDJSON first line."""
-    body_obj = workloads.batch_body(x, period, max_lag)
+    """Measurement 2: the client encodes the JSON body, posts it, reads and decodes the whole answer.
 
-    def round_trip():
+    Cases, side by side in each round: the JSON answer with ``detail`` "full" (every series' whole
+    report) and "brief" (verdict and test numbers per series), and the brief answer streamed as
+    NDJSON: the time to the first result line, and to the last line with every line decoded.
+    """
+    full_body = workloads.batch_body(x, period, max_lag)
+    brief_body = {**full_body, "detail": "brief"}
+    m = x.shape[0]
+
+    def round_trip(body_obj):
         answer = orjson.loads(post(server, "/v1/diagnostics/batch", orjson.dumps(body_obj)))
-        assert len(answer["results"]) == x.shape[0]
+        assert len(answer["results"]) == m
         return answer
 
-    def first_ndjson_line():
+    def ndjson(body_obj):
         conn = http.client.HTTPConnection("127.0.0.1", server.port, timeout=600)
         start = time.perf_counter()
         conn.request("POST", "/v1/diagnostics/batch", body=orjson.dumps(body_obj),
                      headers={"Content-Type": "application/json", "Accept": "application/x-ndjson"})
         resp = conn.getresponse()
-        first = resp.readline()
+        first = orjson.loads(resp.readline())
         t_first = time.perf_counter() - start
-        rest = resp.read()
+        lines = [orjson.loads(line) for line in resp.read().splitlines()]
         t_all = time.perf_counter() - start
         conn.close()
-        assert orjson.loads(first)["kind"] == "result" and rest.endswith(b"\n")
+        assert first["kind"] == "result" and lines[-1]["kind"] == "summary" and len(lines) == m
         return t_first, t_all
 
-    size_in = len(orjson.dumps(body_obj))
-    answer = round_trip()
-    size_out = len(orjson.dumps(answer))
-    times = timing.interleaved({"http_json": round_trip}, repeats, warmup=False)
-    stream = [first_ndjson_line() for _ in range(repeats)]
-    return {"m": x.shape[0], "n": x.shape[1], "request_bytes": size_in, "response_bytes": size_out,
-            "times": times, "ndjson_first_line": statistics.median(s[0] for s in stream),
-            "ndjson_all": statistics.median(s[1] for s in stream), "summary": answer["summary"]}
+    full, brief = round_trip(full_body), round_trip(brief_body)
+    assert brief["summary"] == full["summary"]
+    sizes = {"request_bytes": len(orjson.dumps(full_body)), "response_bytes": len(orjson.dumps(full)),
+             "response_bytes_brief": len(orjson.dumps(brief))}
+    del full, brief
+    runs: dict[str, list[float]] = {"json_full": [], "json_brief": [], "ndjson_brief_first_line": [],
+                                    "ndjson_brief_all": []}
+    for _ in range(repeats):
+        runs["json_full"].append(timing.seconds(lambda: round_trip(full_body)))
+        runs["json_brief"].append(timing.seconds(lambda: round_trip(brief_body)))
+        t_first, t_all = ndjson(brief_body)
+        runs["ndjson_brief_first_line"].append(t_first)
+        runs["ndjson_brief_all"].append(t_all)
+    summary = round_trip(brief_body)["summary"]
+    return {"m": m, "n": x.shape[1], **sizes, "times": {k: timing.summary(v) for k, v in runs.items()},
+            "summary": summary}
 
 
 def measure_single_throughput(server: Server, n: int, seconds: int, repeats: int, connections: int,

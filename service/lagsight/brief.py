@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from itertools import repeat
 
 import numpy as np
 
@@ -51,6 +52,12 @@ _CLUSTERING = ("No significant autocorrelation, but large swings cluster in time
                "independent noise.")
 
 
+#: Verdict structure kinds by bit (1 autocorrelation, 2 seasonal, 4 volatility clustering, 8 non-random order,
+#: 16 uneven spectrum), in the order interpretation._structure lists them.
+_KINDS = ("autocorrelation", "seasonal", "volatility_clustering", "non_random_order", "uneven_spectrum")
+_STRUCTURES = [tuple(k for b, k in enumerate(_KINDS) if code >> b & 1) for code in range(32)]
+
+
 def _not_white(source: str, lag: int, p: float) -> str:
     return f"Not white noise: autocorrelation remains ({_SPIKE_WHAT[source].format(lag=lag)}, {fmt_p(p)})."
 
@@ -67,14 +74,6 @@ def _short_series_warning(n: int) -> dict:
         "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")}
 
 
-def _finite_or_none(a: np.ndarray) -> list:
-    """Rows of a 2-D float array as lists, None where not finite (as the full report writes them)."""
-    rows = a.tolist()
-    if np.isfinite(a).all():
-        return rows
-    return [[v if math.isfinite(v) else None for v in row] for row in rows]
-
-
 def _row_slice(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
     """A one-row view of a group analysis (for the rare null-value notes)."""
     def cut(t: TestArrays) -> TestArrays:
@@ -88,28 +87,34 @@ def _row_slice(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
 def _test_entries(analysis: GroupAnalysis, alpha: float) -> list[list[dict]]:
     """Every row's test entries: name, lag, df, statistic, p_value, reject, note.
 
-    A note is written only where the statistic or the p-value is null. Its text depends on
-    the test, the lag and the group, never on the row, so it is taken once per (test, lag)
-    from the full report's own builder run on one row that has the null.
+    Built a column (one test at one lag) at a time, then regrouped by row. A note is written
+    only where the statistic or the p-value is null. Its text depends on the test, the lag and
+    the group, never on the row, so it is taken once per (test, lag) from the full report's own
+    builder run on one row that has the null.
     """
-    m = analysis.acf.shape[0]
-    out: list[list[dict]] = [[] for _ in range(m)]
+    columns = []
     for t in analysis.tests:
-        stats, pvals = _finite_or_none(t.statistic), _finite_or_none(t.p_value)
-        null = ~(np.isfinite(t.statistic) & np.isfinite(t.p_value))
-        notes = {}
-        for j in np.flatnonzero(null.any(axis=0)).tolist():
-            first = int(np.argmax(null[:, j]))
-            entries = [e for e in _test_rows(_row_slice(analysis, first))[0] if e["name"] == t.name]
-            notes[j] = entries[j]["note"]
+        finite = np.isfinite(t.statistic) & np.isfinite(t.p_value)
+        stats, pvals = t.statistic.T.tolist(), t.p_value.T.tolist()
         for j, lag in enumerate(t.lags):
-            df, note = t.df[j], notes.get(j)
-            for row in range(m):
-                stat, p = stats[row][j], pvals[row][j]
-                out[row].append({"name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                                 "reject": None if p is None else p < alpha,
-                                 "note": note if stat is None or p is None else None})
-    return out
+            name, df = t.name, t.df[j]
+            if finite[:, j].all():
+                columns.append([{"name": name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
+                                 "reject": p < alpha, "note": None} for stat, p in zip(stats[j], pvals[j])])
+                continue
+            first = int(np.argmin(finite[:, j]))
+            note = [e for e in _test_rows(_row_slice(analysis, first))[0] if e["name"] == name][j]["note"]
+            column = []
+            for stat, p in zip(stats[j], pvals[j]):
+                stat = stat if math.isfinite(stat) else None
+                p = p if math.isfinite(p) else None
+                column.append({"name": name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
+                               "reject": None if p is None else p < alpha,
+                               "note": note if stat is None or p is None else None})
+            columns.append(column)
+    if not columns:
+        return [[] for _ in range(analysis.acf.shape[0])]
+    return [list(row) for row in zip(*columns)]
 
 
 def _max_standardised(z: np.ndarray, lags: list[int]) -> tuple[list[float], list[int]]:
@@ -161,11 +166,11 @@ def _verdicts(analysis: GroupAnalysis, ns: list[int], alpha: float) -> list[dict
     with np.errstate(invalid="ignore"):
         port_against = fam_ok & (fam_p < threshold[:, None])
     z_spike, lag_spike = _max_standardised(z, list(range(1, K + 1)))
-    p_spike = np.array([_sidak_p(v, K) for v in z_spike])
+    p_spike = np.array(list(map(_sidak_p, z_spike, repeat(K))))
     spike_against = p_spike < level
     if seasonal_lags:
         z_season, lag_season = _max_standardised(z, seasonal_lags)
-        p_season = np.array([_sidak_p(v, len(seasonal_lags)) for v in z_season])
+        p_season = np.array(list(map(_sidak_p, z_season, repeat(len(seasonal_lags)))))
         season_against = p_season < level
     else:
         p_season = np.full(m, np.nan)
@@ -185,52 +190,61 @@ def _verdicts(analysis: GroupAnalysis, ns: list[int], alpha: float) -> list[dict
     non_random = _rejects(analysis, alpha, "runs") | _rejects(analysis, alpha, "turning_points")
     uneven = _rejects(analysis, alpha, "cumulative_periodogram")
 
-    fam_p_rows, fam_ok_rows, port_rows = fam_p.tolist(), fam_ok.tolist(), port_against.tolist()
-    level_l, threshold_l = level.tolist(), threshold.tolist()
-    p_spike_l, spike_l = p_spike.tolist(), spike_against.tolist()
-    p_season_l, season_l = p_season.tolist(), season_against.tolist()
-    use_lb_l, has_port_l, any_l = use_lb.tolist(), has_port.tolist(), any_against.tolist()
-    worst_l, smallest_l, best_l = worst.tolist(), smallest.tolist(), best_port.tolist()
-    auto_l, clus_l, nonr_l, unev_l = (autocorrelation.tolist(), clustering.tolist(), non_random.tolist(),
-                                      uneven.tolist())
-    out = []
-    for i in range(m):
-        name = "ljung_box" if use_lb_l[i] else "box_pierce"
-        th = threshold_l[i]
-        evidence = [{"source": name, "lag": lags[j], "p_value": fam_p_rows[i][j], "threshold": th,
-                     "against_white_noise": port_rows[i][j]} for j in range(L) if fam_ok_rows[i][j]]
-        evidence.append({"source": "largest_spike", "lag": lag_spike[i], "p_value": p_spike_l[i],
-                         "threshold": level_l[i], "against_white_noise": spike_l[i]})
-        if seasonal_lags:
-            evidence.append({"source": "seasonal_spike", "lag": lag_season[i], "p_value": p_season_l[i],
-                             "threshold": level_l[i], "against_white_noise": season_l[i]})
-        structure = []
-        if auto_l[i]:
-            structure.append("autocorrelation")
-        if season_l[i]:
-            structure.append("seasonal")
-        if clus_l[i]:
-            structure.append("volatility_clustering")
-        if nonr_l[i]:
-            structure.append("non_random_order")
-        if unev_l[i]:
-            structure.append("uneven_spectrum")
-        if any_l[i]:
-            w = worst_l[i]
-            source, lag, p = ((name, lags[w], fam_p_rows[i][w]) if w < L else
-                              ("largest_spike", lag_spike[i], p_spike_l[i]) if w == L else
-                              ("seasonal_spike", lag_season[i], p_season_l[i]))
-            strength = "strong" if p < (th if w < L else level_l[i]) / 10 else "moderate"
-            out.append({"white_noise": False, "summary": _not_white(source, lag, p), "evidence": evidence,
-                        "confidence": strength, "structure": structure})
-        elif not has_port_l[i]:
-            out.append({"white_noise": None, "summary": _UNDETERMINED, "evidence": evidence,
-                        "confidence": "none", "structure": structure})
-        else:
-            strength = "moderate" if smallest_l[i] > 4 * alpha and ns[i] >= options.SMALL_SAMPLE_N else "weak"
-            summary = _CLUSTERING if clus_l[i] else _white(name, fam_p_rows[i][best_l[i]])
-            out.append({"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength,
+    # Evidence, a column (one source at one lag) at a time, then regrouped by row.
+    names = ["ljung_box" if u else "box_pierce" for u in use_lb.tolist()]
+    threshold_l, level_l = threshold.tolist(), level.tolist()
+    p_spike_l, p_season_l = p_spike.tolist(), p_season.tolist()
+    columns = []
+    for j, lag in enumerate(lags):
+        ok = fam_ok[:, j]
+        column = [{"source": nm, "lag": lag, "p_value": p, "threshold": th, "against_white_noise": a}
+                  for nm, p, th, a in zip(names, fam_p[:, j].tolist(), threshold_l, port_against[:, j].tolist())]
+        if not ok.all():
+            column = [e if keep else None for e, keep in zip(column, ok.tolist())]
+        columns.append(column)
+    columns.append([{"source": "largest_spike", "lag": lag, "p_value": p, "threshold": lv, "against_white_noise": a}
+                    for lag, p, lv, a in zip(lag_spike, p_spike_l, level_l, spike_against.tolist())])
+    if seasonal_lags:
+        columns.append([{"source": "seasonal_spike", "lag": lag, "p_value": p, "threshold": lv,
+                         "against_white_noise": a}
+                        for lag, p, lv, a in zip(lag_season, p_season_l, level_l, season_against.tolist())])
+    if fam_ok.all():
+        evidence = [list(row) for row in zip(*columns)]
+    else:
+        evidence = [[e for e in row if e is not None] for row in zip(*columns)]
+    code = (autocorrelation.astype(np.int64) + 2 * season_against + 4 * clustering + 8 * non_random + 16 * uneven)
+    structures = [list(_STRUCTURES[c]) for c in code.tolist()]
+
+    out, todo_white = [], []
+    fam_p_rows = None
+    for i, (ev, structure, against_i, port_i, worst_i) in enumerate(zip(
+            evidence, structures, any_against.tolist(), has_port.tolist(), worst.tolist())):
+        if against_i:
+            if worst_i < L:
+                if fam_p_rows is None:
+                    fam_p_rows = fam_p.tolist()
+                source, lag, p, th = names[i], lags[worst_i], fam_p_rows[i][worst_i], threshold_l[i]
+            elif worst_i == L:
+                source, lag, p, th = "largest_spike", lag_spike[i], p_spike_l[i], level_l[i]
+            else:
+                source, lag, p, th = "seasonal_spike", lag_season[i], p_season_l[i], level_l[i]
+            out.append({"white_noise": False, "summary": _not_white(source, lag, p), "evidence": ev,
+                        "confidence": "strong" if p < th / 10 else "moderate", "structure": structure})
+        elif not port_i:
+            out.append({"white_noise": None, "summary": _UNDETERMINED, "evidence": ev, "confidence": "none",
                         "structure": structure})
+        else:
+            out.append({"white_noise": True, "summary": None, "evidence": ev, "confidence": None,
+                        "structure": structure})
+            todo_white.append(i)
+    if todo_white:
+        rows = np.array(todo_white)
+        moderate = ((smallest[rows] > 4 * alpha) & (np.asarray(ns)[rows] >= options.SMALL_SAMPLE_N)).tolist()
+        best_p = fam_p[rows, best_port[rows]].tolist()
+        for i, mod, p in zip(todo_white, moderate, best_p):
+            v = out[i]
+            v["confidence"] = "moderate" if mod else "weak"
+            v["summary"] = _CLUSTERING if "volatility_clustering" in v["structure"] else _white(names[i], p)
     return out
 
 

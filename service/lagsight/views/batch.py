@@ -14,7 +14,7 @@ import secrets
 from flask import Blueprint, Response, current_app, request, stream_with_context
 from marshmallow import ValidationError, missing
 
-from .. import brief
+from .. import batch_items, brief
 from ..payload import read_json_object
 from ..pipeline import Plan, gc_paused, plan_for, run_blocks
 from ..problems import FieldError, Problem, flatten_messages
@@ -126,6 +126,67 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
     return series, plan
 
 
+def prepare_items(raw: list, shared: dict, cfg, fast: bool = True, booleans: bool = True):
+    """Every item validated, cleaned and planned, in request order.
+
+    Returns ``prepared`` ((series, plan) pairs), ``where`` (for each, its request index and id)
+    and ``errors`` ((request index, error result) pairs). Plain items take the bulk path of
+    :mod:`lagsight.batch_items` when ``fast`` is true; every other item, and any plain item that
+    a bulk check refuses, takes the general path (:func:`_prepare_item`), so both give the same
+    answer. ``booleans`` false promises that the body holds no JSON boolean (see batch_items.bulk_values).
+    """
+    errors: list[tuple[int, dict]] = []
+    prepared: list[tuple[PreparedSeries, Plan]] = []
+    where: list[tuple[int, object]] = []  # prepared position -> (request index, id)
+    seen: dict = {}
+    rows: dict[int, object] = {}
+    own: dict[int, dict] = {}
+    if fast:
+        groups, own = batch_items.candidates(raw, shared, cfg["MAX_POINTS"])
+        for members in groups.values():
+            x, usable = batch_items.bulk_values(raw, members, booleans)
+            rows.update(zip(usable, x))
+    plans: dict = {}
+    for i, item in enumerate(raw):
+        row = rows.get(i)
+        if row is not None:
+            done = _prepare_plain(item, row, own.get(i), shared, cfg, seen, plans, i)
+            if done is not None:
+                prepared.append(done)
+                where.append((i, item["id"]))
+                continue
+        try:
+            prepared.append(_prepare_item(item, shared, cfg, seen, i))
+            where.append((i, _item_id(item)))
+        except Problem as problem:
+            errors.append((i, _error_result(_item_id(item), problem)))
+    return prepared, where, errors
+
+
+def _prepare_plain(item: dict, row, own: dict | None, shared: dict, cfg, seen: dict, plans: dict, index: int):
+    """A plain item whose values passed the bulk checks, prepared and planned; None when something is left
+    for the general path to answer (a repeated id, a period or option that does not fit the series)."""
+    item_id = item["id"]
+    if item_id in seen:
+        return None
+    opts = {**shared, **own} if own else shared
+    period = opts["period"]
+    n = row.size
+    if period is not None and period >= n:
+        return None
+    series = batch_items.prepared(row, item.get("name"), period, opts["missing"])
+    key = (n, period, opts["max_lag"], opts["confidence"], opts["model_df"])
+    plan = plans.get(key)
+    if plan is None:
+        try:
+            plan = plan_for(series, opts, cfg)
+        except Problem:
+            return None
+        plans[key] = plan
+    seen[item_id] = index
+    return series, plan
+
+
 def _first_token(pointer: str) -> str | None:
     """The first reference token of a JSON pointer ("/max_lag/0" -> "max_lag"; "" -> None)."""
     return pointer.split("/")[1] if pointer.startswith("/") else None
@@ -176,17 +237,9 @@ def diagnose_batch():
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
         shared["seed"] = secrets.randbits(63)
-    errors: list[tuple[int, dict]] = []
-    prepared: list[tuple[PreparedSeries, Plan]] = []
-    where: list[tuple[int, object]] = []  # prepared position -> (request index, id)
-    seen: dict = {}
     with gc_paused():  # thousands of small acyclic objects: see pipeline.gc_paused
-        for i, item in enumerate(raw):
-            try:
-                prepared.append(_prepare_item(item, shared, cfg, seen, i))
-                where.append((i, _item_id(item)))
-            except Problem as problem:
-                errors.append((i, _error_result(_item_id(item), problem)))
+        data = request.get_data(cache=True)  # the body as read: no JSON boolean without these bytes
+        prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
     del body, raw  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
     summary = _Summary(len(where) + len(errors))
