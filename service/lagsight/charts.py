@@ -97,9 +97,13 @@ def block_zones(block: dict) -> list:
             for lag, v in zip(block["lags"], block["values"])]
 
 
-def chart_data(values: np.ndarray, labels: list[str] | None, report: dict) -> dict:
-    """The ``charts`` block for one report (its numeric keys must be filled)."""
-    seasonal = seasonal_flags(report["max_lag"], report["period"])
+def chart_data(values: np.ndarray, labels: list[str] | None, report: dict, seasonal: list[bool] | None = None) -> dict:
+    """The ``charts`` block for one report (its numeric keys must be filled).
+
+    ``seasonal`` is :func:`seasonal_flags` for the report's max_lag and period, when the caller
+    has it already (a group of reports shares one); each report gets its own copy.
+    """
+    seasonal = seasonal_flags(report["max_lag"], report["period"]) if seasonal is None else list(seasonal)
     return {
         "time_plot": time_plot(values, labels),
         "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),

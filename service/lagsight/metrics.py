@@ -30,10 +30,18 @@ SERIES = Counter("lagsight_series_analysed", "Series analysed (reports produced)
 POINTS = Counter("lagsight_points_analysed", "Usable observations analysed, summed over series.")
 
 
+#: The (count, latency) children of each label set seen, so a request skips prometheus_client's
+#: label checks; the library keeps the same children, so nothing is counted twice or lost.
+_REQUEST_CHILDREN: dict[tuple[str, str, str], tuple] = {}
+
+
 def record_request(route: str, method: str, status: int, seconds: float) -> None:
     labels = (route, method, str(status))
-    REQUESTS.labels(*labels).inc()
-    LATENCY.labels(*labels).observe(seconds)
+    children = _REQUEST_CHILDREN.get(labels)
+    if children is None:
+        children = _REQUEST_CHILDREN[labels] = (REQUESTS.labels(*labels), LATENCY.labels(*labels))
+    children[0].inc()
+    children[1].observe(seconds)
 
 
 def record_analysed(series: int, points: int) -> None:

@@ -86,6 +86,8 @@ def init_app(app: Flask) -> None:
         seconds = time.perf_counter() - g.get("started", time.perf_counter())
         route = request.url_rule.rule if request.url_rule is not None else "(unmatched)"
         metrics.record_request(route, request.method, response.status_code, seconds)
+        if not access.isEnabledFor(logging.INFO):  # e.g. LAGSIGHT_LOG_LEVEL=WARNING: build no log record
+            return response
         access.info(
             "request", extra={
                 "request_id": rid, "method": request.method, "route": route, "status": response.status_code,

@@ -54,9 +54,9 @@ def read_body(request: Request) -> bytes:
     goes on: a truncated body must never be parsed as if it were whole.
     """
     body = request.get_data(cache=True)
-    limit = request.max_content_length
-    if request.content_length is None and limit is not None and len(body) >= limit:
-        if request.environ["wsgi.input"].read(1):
+    if request.content_length is None:
+        limit = request.max_content_length
+        if limit is not None and len(body) >= limit and request.environ["wsgi.input"].read(1):
             raise Problem("payload-too-large", f"The request body is larger than this deployment's limit of {limit} bytes.")
     return body
 
@@ -69,7 +69,7 @@ def read_json_object(request: Request) -> dict:
             f"Send the body as application/json, or text/csv on /v1/diagnostics (got {request.mimetype or 'no Content-Type'}).",
         )
     body = read_body(request)
-    if not body.strip():
+    if not body or body.isspace():
         raise Problem("malformed-json", "The request body is empty; send a JSON object.")
     try:
         data = orjson.loads(body)

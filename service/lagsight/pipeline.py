@@ -91,6 +91,8 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
 
 def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
     """Group item indices by plan, in order of first appearance, cut into blocks of ``BLOCK_POINTS``."""
+    if len(items) == 1:  # the single request: one block, nothing to group
+        return [(items[0][1], [0])]
     groups: dict[Plan, list[int]] = defaultdict(list)
     for i, (_, plan) in enumerate(items):
         groups[plan].append(i)

@@ -18,6 +18,7 @@ from scipy.special import bdtrc
 
 from . import options
 from .charts import chart_data
+from .charts import seasonal_flags as chart_seasonal_flags
 from .engine.analysis import GroupAnalysis
 from .engine.bands import Band, per_lag_confidence
 from .series import PreparedSeries
@@ -37,17 +38,22 @@ _NOT_COMPUTABLE = {
 _SMALL_ARRAY = 256
 
 
-def _rows(a: np.ndarray) -> list[list]:
-    """Rows of a 2-D float array as lists, with None where a value is not finite."""
+def _finite_rows(a: np.ndarray) -> tuple[list[list], bool]:
+    """Rows of a 2-D float array as lists, and whether every value is finite (else None replaces the others)."""
     rows = a.tolist()
     if a.size <= _SMALL_ARRAY:
         # The sum is finite only if every value is; a sum that overflows takes the slow path below,
         # which gives the same rows.
         if math.isfinite(sum(map(sum, rows))):
-            return rows
+            return rows, True
     elif np.isfinite(a).all():
-        return rows
-    return [[v if math.isfinite(v) else None for v in row] for row in rows]
+        return rows, True
+    return [[v if math.isfinite(v) else None for v in row] for row in rows], False
+
+
+def _rows(a: np.ndarray) -> list[list]:
+    """Rows of a 2-D float array as lists, with None where a value is not finite."""
+    return _finite_rows(a)[0]
 
 
 def _list(a: np.ndarray) -> list:
@@ -60,11 +66,25 @@ class _Correlograms:
     def __init__(self, lags: list[int], values: np.ndarray, band: Band):
         self.lags = lags
         lower, upper = band.lower, band.upper
-        self.values = _rows(values)
-        self.lower = _rows(lower)
-        self.upper = _rows(upper)
-        self.centre = _rows(band.centre)
-        self.se = _rows(band.se)
+        self.values, finite_values = _finite_rows(values)
+        self.lower, finite_lower = _finite_rows(lower)
+        self.upper, finite_upper = _finite_rows(upper)
+        self.centre, finite_centre = _finite_rows(band.centre)
+        self.se, finite_se = _finite_rows(band.se)
+        if values.size <= _SMALL_ARRAY and finite_values and finite_lower and finite_upper and finite_centre and finite_se:
+            # The same comparisons on the same doubles as the array expressions below, without
+            # their NumPy calls (which cost more than the loop on a few rows).
+            self.outside, self.far = [], []
+            for row in zip(self.values, self.lower, self.upper, self.centre, self.se):
+                outside_row, far_row = [], []
+                for lag, v, lo, up, c, se in zip(lags, *row):
+                    if v < lo or v > up:
+                        outside_row.append(lag)
+                        if abs(v - c) > FAR_SE * se:
+                            far_row.append(lag)
+                self.outside.append(outside_row)
+                self.far.append(far_row)
+            return
         outside = (values < lower) | (values > upper)
         far = outside & (np.abs(values - band.centre) > FAR_SE * band.se)
         self.outside = [[lag for lag, o in zip(lags, row) if o] for row in outside.tolist()]
@@ -93,8 +113,12 @@ def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
     for t in analysis.tests:
         stats, pvals = _rows(t.statistic), _rows(t.p_value)
         ses = _rows(t.mc_se) if t.mc_se is not None else None
-        per_row = {k: _list(v) for k, v in t.extras.items() if isinstance(v, np.ndarray)}
-        constant = {k: v for k, v in t.extras.items() if not isinstance(v, np.ndarray)}
+        per_row, constant = {}, {}
+        for k, v in t.extras.items():
+            if isinstance(v, np.ndarray):
+                per_row[k] = _list(v)
+            else:
+                constant[k] = v
         for j, lag in enumerate(t.lags):
             df = t.df[j]
             no_df = t.name in ("ljung_box", "box_pierce") and df is None
@@ -117,7 +141,7 @@ def _test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
                     "reject": None if p is None else p < alpha,
                     "method": t.method,
                     "mc_standard_error": None if ses is None else ses[row][j],
-                    "details": {**constant, **{k: v[row] for k, v in per_row.items()}},
+                    "details": {**constant, **{k: v[row] for k, v in per_row.items()}} if per_row else dict(constant),
                     "meaning": None,
                     "note": note,
                 })
@@ -137,7 +161,8 @@ def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int
     }
 
 
-def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, row: int) -> dict:
+def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, row: int, n: int,
+              seasonal_lags: tuple[int, ...]) -> dict:
     period = series.period
     base = {"period": period, "period_source": series.period_source, "lags": [],
             "suggested_period": analysis.suggested_period[row], "strength": None, "leftover_likely": None,
@@ -149,7 +174,7 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
         return base
     outside, far = set(acf_block["outside"]), set(acf_block["far"])
     base["lags"] = [{"lag": lag, "value": acf_block["values"][lag - 1], "outside": lag in outside, "far": lag in far}
-                    for lag in analysis.spec.seasonal_lags]
+                    for lag in seasonal_lags]
     if not base["lags"]:
         base["note"] = f"max_lag is below the period {period}; raise max_lag to at least {period} to check seasonal lags."
     strength = analysis.seasonal_strength[row]
@@ -158,7 +183,7 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
         "method": "stl",
         "note": None if strength is not None else (
             f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
-            if series.n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
+            if n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
             "\"interpolate\" to get it)." if analysis.n_effective is not None
             else "Not computed: no seasonal lag lies outside the band, so there is no seasonal pattern to "
                  "measure (on noise the STL strength only describes noise)."),
@@ -187,13 +212,16 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
     crit = analysis.ks_critical
     lower = None if crit is None else _list(analysis.expected_cumulative - crit)
     upper = None if crit is None else _list(analysis.expected_cumulative + crit)
+    seasonal_lags = spec.seasonal_lags
+    seasonal_flags = chart_seasonal_flags(spec.max_lag, spec.period)
     reports = []
     for row, s in enumerate(series):
         acf_block = acf.block(row)
         unit_root = analysis.unit_root[row]
+        n = s.n
         reports.append({
             "name": s.name,
-            "n": s.n,
+            "n": n,
             "n_input": s.n_input,
             "n_missing": s.n_missing,
             "max_lag": spec.max_lag,
@@ -209,17 +237,17 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             },
             "acf": acf_block,
             "pacf": pacf.block(row),
-            "exceedances": _exceedances(acf_block, 1.0 - per_lag, spec.seasonal_lags),
+            "exceedances": _exceedances(acf_block, 1.0 - per_lag, seasonal_lags),
             "tests": tests[row],
             "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
-            "seasonal": _seasonal(s, analysis, acf_block, row),
+            "seasonal": _seasonal(s, analysis, acf_block, row, n, seasonal_lags),
             "periodogram": {
                 "frequencies": list(frequencies),
                 "power": power[row],
                 "cumulative": cumulative[row],
                 "lower": None if lower is None else list(lower),
                 "upper": None if upper is None else list(upper),
-                "binned": len(frequencies) < (s.n - 1) // 2,
+                "binned": len(frequencies) < (n - 1) // 2,
             },
             "unit_root": None if unit_root is None else {
                 "test": "augmented_dickey_fuller", "statistic": unit_root[0], "p_value": unit_root[1],
@@ -233,5 +261,5 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "missing": _missing(s, analysis, row),
             "transform": s.transform,
         })
-        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1])
+        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1], seasonal_flags)
     return reports

@@ -18,6 +18,7 @@ from __future__ import annotations
 import hashlib
 import hmac
 import logging
+from functools import lru_cache
 from pathlib import Path
 
 from flask import Flask, current_app, g, request
@@ -78,6 +79,12 @@ def frame_policy(ancestors: str, existing: str | None, html: bool) -> str:
     return "; ".join(directives)
 
 
+@lru_cache(maxsize=64)
+def _cached_frame_policy(ancestors: str, existing: str | None, html: bool) -> str:
+    """:func:`frame_policy` once per distinct input (a handful per deployment), not once per response."""
+    return frame_policy(ancestors, existing, html)
+
+
 def _origin_allowed(origin: str, allowed: tuple[str, ...]) -> bool:
     return bool(origin) and ("*" in allowed or origin in allowed)
 
@@ -122,7 +129,8 @@ def _headers(response):
     h.setdefault("Cache-Control", "no-store")
     h[VERSION_HEADER] = __version__
     ancestors = cfg["FRAME_ANCESTORS"].strip()
-    h["Content-Security-Policy"] = frame_policy(ancestors, h.get("Content-Security-Policy"), response.mimetype == "text/html")
+    h["Content-Security-Policy"] = _cached_frame_policy(ancestors, h.get("Content-Security-Policy"),
+                                                        response.mimetype == "text/html")
     legacy = {"'none'": "DENY", "'self'": "SAMEORIGIN"}.get(ancestors)
     if legacy:
         h["X-Frame-Options"] = legacy

@@ -122,7 +122,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     period, source, frequency = data.get("period"), ("request" if data.get("period") else None), None
     values, labels, axis, stamps = raw, None, None, data.get("timestamps")
     raw_missing = np.isnan(raw)
-    n_null, n_gaps = int(raw_missing.sum()), 0
+    n_null, n_gaps = int(np.count_nonzero(raw_missing)), 0
     if stamps is not None:
         axis = timestamps.describe(stamps, max_points)
         frequency = axis.frequency
@@ -146,14 +146,16 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
             raise _refuse_missing(raw_missing, axis, stamps, n_null, n_gaps)
         values, labels, dropped, filled = _fill_missing(values, method, warnings, labels)
     n_grid = values.size
-    n_before = int(np.count_nonzero(~np.isnan(values)))
+    complete = not n_missing  # no NaN anywhere, so the counts below need no scan of the values
+    n_before = n_grid if complete else int(np.count_nonzero(~np.isnan(values)))
     if period is not None and period >= n_grid and source == "request":
         raise invalid("/period", f"The period ({period}) must be less than the number of values ({n_grid}).")
     values_before = values
     values, steps, front = transforms.apply(values, data.get("transform"), period)
     if labels is not None and front:
         labels = labels[front:]
-    observed = values[~np.isnan(values)]
+    complete = complete and not steps
+    observed = values if complete else values[~np.isnan(values)]
     n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
@@ -168,7 +170,7 @@ def prepare(data: dict, max_points: int) -> PreparedSeries:
     missing_block = {
         "method": method, "count": n_missing, "from_nulls": n_null, "from_gaps": n_gaps,
         "dropped_at_ends": dropped, "interpolated": filled,
-        "remaining": int(np.isnan(values).sum()), "effective_n": None,
+        "remaining": 0 if complete else int(np.count_nonzero(np.isnan(values))), "effective_n": None,
         "note": _missing_note(method, n_missing, dropped, filled),
     }
     transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from flask import Blueprint, Response, current_app, request
 from marshmallow import Schema, ValidationError
+from werkzeug.datastructures import ImmutableMultiDict
 
 from .. import csv_input, options, query, vega_lite
 from ..payload import read_json_object
@@ -24,6 +25,7 @@ _SCHEMA = DiagnosticsRequest()
 _LOAD = DirectLoad(_SCHEMA, DIRECT_FIELDS)
 CSV_TYPES = ("text/csv", "application/csv")
 _ANALYSIS = (*query.ANALYSIS_PARAMS, *query.TRANSFORM_PARAMS)
+_NO_ARGS = ImmutableMultiDict()
 
 
 def load(schema: Schema | DirectLoad, body: dict) -> dict:
@@ -38,6 +40,8 @@ def load(schema: Schema | DirectLoad, body: dict) -> dict:
 def _negotiate(requested: str | None) -> str:
     if requested is not None:
         return requested
+    if "HTTP_ACCEPT" not in request.environ:  # no Accept header: nothing to parse
+        return options.DEFAULT_FORMAT
     accept = request.accept_mimetypes
     if not accept:
         return options.DEFAULT_FORMAT
@@ -78,8 +82,13 @@ def _with_lines(problem: Problem, raw: dict) -> Problem:
     return problem
 
 
+def _query_args():
+    """The query parameters; a request without a query string skips parsing one."""
+    return request.args if request.environ.get("QUERY_STRING") else _NO_ARGS
+
+
 def _read_request() -> dict:
-    args = request.args
+    args = _query_args()
     if request.method == "GET":
         query.check_known(args, (*query.OUTPUT_PARAMS, *_ANALYSIS, "values", "timestamps"))
         return _from_query(args)
@@ -95,7 +104,7 @@ def _read_request() -> dict:
 @bp.route("/v1/diagnostics", methods=["GET", "POST"])
 def diagnose():
     """Diagnose one series and answer with its report (JSON), its correlogram table (CSV) or a chart."""
-    out = query.output_options(request.args)
+    out = query.output_options(_query_args())
     fmt = _negotiate(out["format"])
     body = _read_request()
     raw = body.pop("_raw", {})
