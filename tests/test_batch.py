@@ -202,6 +202,8 @@ def _problem(r, status: int) -> dict:
     ({}, "/series"),
     ({"series": []}, "/series"),
     ({"series": {"id": "a"}}, "/series"),
+    ({"series": None}, "/series"),
+    ({"series": "a,b"}, "/series"),
     ({"series": [{"id": "a", "values": [1, 2, 3]}], "confidence": 0}, "/confidence"),
     ({"series": [{"id": "a", "values": [1, 2, 3]}], "model_df": "2"}, "/model_df"),
     ({"series": [{"id": "a", "values": [1, 2, 3]}], "values": [1, 2, 3]}, "/values"),
