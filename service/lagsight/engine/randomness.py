@@ -37,8 +37,10 @@ def _median(x: np.ndarray) -> np.ndarray:
     h = n // 2
     if n % 2:
         return np.partition(x, h, axis=1)[:, h : h + 1]
-    part = np.partition(x, (h - 1, h), axis=1)
-    return part[:, h - 1 : h] / 2.0 + part[:, h : h + 1] / 2.0
+    # One selection: the h-th order statistic lands at h with the h smaller values before it,
+    # so the (h-1)-th is their maximum (about 4x cheaper than selecting both).
+    part = np.partition(x, h, axis=1)
+    return np.maximum.reduce(part[:, :h], axis=1, keepdims=True) / 2.0 + part[:, h : h + 1] / 2.0
 
 
 def runs_about_median(x: np.ndarray):
