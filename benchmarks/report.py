@@ -132,6 +132,8 @@ def render(r: dict, previous: str = "") -> str:
         "",
         f"## 1. {b['m']:,} series x {b['n']} points, max_lag {b['max_lag']}, period {b['period']} (in process)",
         "",
+        "In-process measurements (1 and 5) run with one BLAS thread, as every service worker does.",
+        "",
         "| case | median | min | max |",
         "| --- | --- | --- | --- |",
     ]
