@@ -113,10 +113,12 @@ def jarque_bera(d: np.ndarray, scaled: bool = False):
     return stat, chdtrc(2, stat), skew, kurt
 
 
-def mcleod_li(d: np.ndarray, lags: list[int]):
+def mcleod_li(d: np.ndarray, lags: list[int], scaled: bool = False):
     """McLeod-Li test: Ljung-Box on the autocorrelations of the squared centred values, df = lag.
 
-    Rows whose squares are constant (for example +-c alternating) get NaN.
+    Rows whose squares are constant (for example +-c alternating) get NaN. ``scaled=True`` says
+    the rows come from ``autocorrelation.center`` (magnitudes below 2), so their squares need no
+    rescaling against overflow; the statistics are the same either way.
 
     Returns
     -------
@@ -129,7 +131,7 @@ def mcleod_li(d: np.ndarray, lags: list[int]):
     p = np.full((m, len(lags)), np.nan)
     ok = ~constant
     if ok.any():
-        r = acf(sq if ok.all() else sq[ok], max(lags))
+        r = acf(sq if ok.all() else sq[ok], max(lags), rescale=not scaled)
         s, _, pv = portmanteau(r, n, lags, 0, "ljung_box")
         stat[ok], p[ok] = s, pv
     return stat, p
