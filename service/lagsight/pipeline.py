@@ -43,7 +43,8 @@ class Plan:
 def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
     """Resolve the defaults that depend on the data and check the limits that depend on n.
 
-    ``opts`` holds the loaded analysis options; ``limits`` is a mapping with MAX_LAG,
+    ``opts`` holds the loaded analysis options (with ``detail`` "brief" the engine leaves out
+    what only the full report reads); ``limits`` is a mapping with MAX_LAG,
     MAX_REPLICATES and MAX_SIMULATED_VALUES (the deployment settings).
     """
     n = series.n
@@ -85,6 +86,7 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
         p_values="monte_carlo" if monte_carlo else "asymptotic",
         replicates=replicates,
         seed=seed,
+        report_extras=opts.get("detail", options.DEFAULT_DETAIL) == "full",
     )
     return Plan(n, spec, series.length, mask is not None)
 

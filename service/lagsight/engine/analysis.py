@@ -49,6 +49,7 @@ class Spec:
     replicates: int = 0
     seed: int | None = None
     seasonal_strength: bool = True
+    report_extras: bool = True  # suggested period and unit-root check (read only by the full report)
 
     @property
     def seasonal_lags(self) -> tuple[int, ...]:
@@ -279,10 +280,10 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
             for i, value in zip(rows.tolist(), seasonality.stl_strengths(x[rows], spec.period).tolist()):
                 strength[i] = value
     suggested: list = [None] * m
-    if spec.period is None and complete:
+    if spec.period is None and complete and spec.report_extras:
         suggested = [seasonality.suggest_period(r[i], band.upper[i], power[i], n) for i in range(m)]
     unit_root: list = [None] * m
-    if complete and n >= 10:
+    if complete and n >= 10 and spec.report_extras:
         for i in np.flatnonzero(stationarity.decays_slowly(r)).tolist():
             unit_root[i] = stationarity.adf(x[i])
     return GroupAnalysis(

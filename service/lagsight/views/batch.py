@@ -232,7 +232,7 @@ def diagnose_batch():
     shared = load(_REQUEST, body)
     _check_shared(shared, cfg)
     raw = shared.pop("series")
-    detail = shared.pop("detail")
+    detail = shared["detail"]  # stays among the options: plan_for reads it
     if shared.get("p_values") == "monte_carlo" and shared.get("seed") is None:
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
