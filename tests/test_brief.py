@@ -277,7 +277,8 @@ def test_brief_leaves_out_what_only_the_full_report_reads(client, monkeypatch):
     from lagsight.engine import seasonality, stationarity
 
     calls = []
-    monkeypatch.setattr(seasonality, "suggest_period", lambda *args: calls.append("suggest_period"))
+    monkeypatch.setattr(seasonality, "suggest_periods",
+                        lambda r, *args: calls.append("suggest_period") or [None] * len(r))
     monkeypatch.setattr(stationarity, "adf", lambda *args: calls.append("adf"))
     series = [s for s in _series_set() if s["id"] in ("walk", "ar-5", "noise-1", "cycle-4")]
     brief = client.post(URL, json={"series": series, "detail": "brief"})
