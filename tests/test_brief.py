@@ -279,7 +279,7 @@ def test_brief_leaves_out_what_only_the_full_report_reads(client, monkeypatch):
     calls = []
     monkeypatch.setattr(seasonality, "suggest_periods",
                         lambda r, *args: calls.append("suggest_period") or [None] * len(r))
-    monkeypatch.setattr(stationarity, "adf", lambda *args: calls.append("adf"))
+    monkeypatch.setattr(stationarity, "adf_rows", lambda x: calls.append("adf") or [None] * len(x))
     series = [s for s in _series_set() if s["id"] in ("walk", "ar-5", "noise-1", "cycle-4")]
     brief = client.post(URL, json={"series": series, "detail": "brief"})
     assert brief.status_code == 200 and calls == []
