@@ -12,7 +12,7 @@ from scipy.special import chdtrc
 
 from lagsight import options
 from lagsight.engine.analysis import analyse
-from lagsight.pipeline import plan_for, run
+from lagsight.pipeline import BLOCK_POINTS, plan_for, run
 from lagsight.series import PreparedSeries
 
 from . import timing, workloads
@@ -39,17 +39,30 @@ def full_reports(x: np.ndarray, max_lag: int, period: int | None) -> list[dict]:
     return run([(s, plan_for(s, opts, _limits(max_lag))) for s in series])
 
 
+def _block_rows(n: int) -> int:
+    """Rows per engine block, as the service cuts a group (pipeline.BLOCK_POINTS values per block)."""
+    return max(1, BLOCK_POINTS // n)
+
+
 def engine_only(x: np.ndarray, max_lag: int, period: int | None, seasonal_strength: bool = True):
-    """The engine pass alone, with the service's default analyses (every test, bands, periodogram).
+    """The engine pass alone, with the service's default analyses (every test, bands, periodogram),
+    run as the service runs it: one pass per block of ``pipeline.BLOCK_POINTS`` values.
 
     ``seasonal_strength=False`` leaves out the STL seasonal strength, the one analysis that runs a
     decomposition per series (for series with a seasonal lag outside the band), to show the cost of
-    the vectorised rest.
+    the vectorised rest. Returns the GroupAnalysis of each block.
     """
     spec = plan_for(prepared(x[:1], period)[0], {**_OPTS, "max_lag": max_lag}, _limits(max_lag)).spec
     if not seasonal_strength:
         spec = replace(spec, seasonal_strength=False)
-    return analyse(x, spec)
+    rows = _block_rows(x.shape[1])
+    return [analyse(x[start:start + rows], spec) for start in range(0, x.shape[0], rows)]
+
+
+def numpy_floor_blocks(x: np.ndarray, max_lag: int, lags: list[int]):
+    """The floor computed in the engine's blocks (cache-sized arrays are cheaper for it too)."""
+    rows = _block_rows(x.shape[1])
+    return [numpy_floor(x[start:start + rows], max_lag, lags) for start in range(0, x.shape[0], rows)]
 
 
 def numpy_floor(x: np.ndarray, max_lag: int, lags: list[int]):
@@ -94,6 +107,7 @@ def measure_batch(m: int, n: int, max_lag: int, period: int, repeats: int, defau
     sub = x[:default_loop_rows]
     cases = {
         "numpy_floor": lambda: numpy_floor(x, max_lag, lags),
+        "numpy_floor_blocks": lambda: numpy_floor_blocks(x, max_lag, lags),
         "engine": lambda: engine_only(x, max_lag, period),
         "engine_without_stl": lambda: engine_only(x, max_lag, period, seasonal_strength=False),
         "full_report": lambda: full_reports(x, max_lag, period),
@@ -101,7 +115,7 @@ def measure_batch(m: int, n: int, max_lag: int, period: int, repeats: int, defau
         "statsmodels_loop_default_pacf_subset": lambda: statsmodels_loop(sub, max_lag, lags, None),
     }
     times = timing.interleaved(cases, repeats)
-    check = engine_only(x[:50], max_lag, period)
+    check = engine_only(x[:50], max_lag, period)[0]
     ref = statsmodels_loop(x[:50], max_lag, lags)
     agreement = max(float(np.max(np.abs(check.acf[i] - ref[i][0][1:]))) for i in range(50))
     pacf_agreement = max(float(np.max(np.abs(check.pacf[i] - ref[i][1][1:]))) for i in range(50))

@@ -42,10 +42,11 @@ def targets(r: dict) -> list[tuple[str, str, str, str]]:
                  ">= 100x faster", f"{strict:,.0f}x", _status(strict >= 100, f"{100 / strict:.1f}x short")))
     vec = bt["statsmodels_loop"] / bt["engine_without_stl"]
     rows.append(("1. engine without STL seasonal strength vs same-estimator loop", "(shown)", f"{vec:,.0f}x", "-"))
-    floor_ratio = bt["engine"] / bt["numpy_floor"]
+    floor = min(bt["numpy_floor"], bt.get("numpy_floor_blocks", bt["numpy_floor"]))  # the cheaper way of the two
+    floor_ratio = bt["engine"] / floor
     rows.append(("1. engine vs bare NumPy floor", "<= 3x the floor", f"{floor_ratio:.2f}x",
                  _status(floor_ratio <= 3, f"{floor_ratio / 3:.1f}x over")))
-    floor_vec = bt["engine_without_stl"] / bt["numpy_floor"]
+    floor_vec = bt["engine_without_stl"] / floor
     rows.append(("1. engine without STL vs bare NumPy floor", "(shown)", f"{floor_vec:.2f}x", "-"))
     full = as_written / bt["full_report"]
     rows.append(("1. full report (engine + report + sentences) vs loop as written; vs same-estimator loop",
@@ -132,12 +133,16 @@ def render(r: dict, previous: str = "") -> str:
         "",
         f"## 1. {b['m']:,} series x {b['n']} points, max_lag {b['max_lag']}, period {b['period']} (in process)",
         "",
+        "In-process measurements (1 and 5) run with one BLAS thread, as every service worker does.",
+        "",
         "| case | median | min | max |",
         "| --- | --- | --- | --- |",
     ]
     labels = {
-        "numpy_floor": "bare NumPy floor: batched real-FFT ACF + Ljung-Box only",
-        "engine": "engine, service defaults: ACF, PACF, bands, every test, periodogram, STL seasonal strength",
+        "numpy_floor": "bare NumPy floor: batched real-FFT ACF + Ljung-Box only, the whole batch at once",
+        "numpy_floor_blocks": "the same floor in the engine's blocks (the floor of the targets is the cheaper of the two)",
+        "engine": "engine, service defaults: ACF, PACF, bands, every test, periodogram, STL seasonal strength "
+                  "(in the service's blocks of 2**18 values)",
         "engine_without_stl": "engine without the STL seasonal strength (run per flagged series)",
         "full_report": "full report: plan, engine, report dicts, verdict, sentences, advice, cautions",
         "statsmodels_loop": "same-estimator statsmodels loop: acf + pacf(method=\"ldb\") + acorr_ljungbox(boxpierce) "

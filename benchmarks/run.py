@@ -11,6 +11,8 @@ import json
 import time
 from pathlib import Path
 
+from threadpoolctl import threadpool_limits
+
 from . import engine_bench, http_bench, load, machine, workloads
 from .report import render
 from .server import Server
@@ -36,13 +38,15 @@ def measure(sizes: dict, repeats: int, tool: str, log=print) -> dict:
     started = time.time()
     results: dict = {"machine": machine.describe(), "repeats": repeats, "load_tool": tool}
     b = sizes["batch"]
-    log(f"1. batch of {b['m']} x {b['n']}: engine, full report, NumPy floor, statsmodels loops")
-    results["batch"] = engine_bench.measure_batch(b["m"], b["n"], b["max_lag"], b["period"], repeats,
-                                                  b["default_loop_rows"])
-    s = sizes["scaling"]
-    log("5. scaling with length and batch size")
-    results["scaling"] = engine_bench.measure_scaling(s["lengths"], s["batch_sizes"], s["max_lag"], s["batch_n"],
-                                                      s["batch_lag"], repeats)
+    # In-process measurements run with one BLAS thread, as every service worker does (gunicorn_conf).
+    with threadpool_limits(1):
+        log(f"1. batch of {b['m']} x {b['n']}: engine, full report, NumPy floor, statsmodels loops")
+        results["batch"] = engine_bench.measure_batch(b["m"], b["n"], b["max_lag"], b["period"], repeats,
+                                                      b["default_loop_rows"])
+        s = sizes["scaling"]
+        log("5. scaling with length and batch size")
+        results["scaling"] = engine_bench.measure_scaling(s["lengths"], s["batch_sizes"], s["max_lag"],
+                                                          s["batch_n"], s["batch_lag"], repeats)
     with Server(workers=2) as server:
         log("2. the batch through HTTP")
         x = workloads.batch(b["m"], b["n"])

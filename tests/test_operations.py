@@ -165,3 +165,24 @@ def test_cli_prints_the_settings_table(capsys):
 def test_bad_setting_stops_the_factory():
     with pytest.raises(ValueError, match="LAGSIGHT_AUTH_TOKENS_FILE"):
         create_app({"TESTING": True, "AUTH_TOKENS_FILE": "/nonexistent/tokens"})
+
+
+@pytest.mark.parametrize("given, expected", [(None, 1), ("3", 3)])
+def test_gunicorn_workers_run_blas_on_one_thread_unless_told_otherwise(tmp_path, given, expected):
+    """The gunicorn settings module sets the BLAS thread variables before NumPy loads (checked in a
+    fresh interpreter, where NumPy's BLAS reads them); an operator's own value is kept."""
+    import os
+    import subprocess
+    import sys
+
+    env = {k: v for k, v in os.environ.items()
+           if k not in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")}
+    env["PROMETHEUS_MULTIPROC_DIR"] = str(tmp_path)
+    if given is not None:
+        env["OPENBLAS_NUM_THREADS"] = given
+    code = ("import lagsight.gunicorn_conf, numpy\n"
+            "from threadpoolctl import threadpool_info\n"
+            "print(max(i['num_threads'] for i in threadpool_info() if i['user_api'] == 'blas'))")
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert int(out.stdout.split()[-1]) == min(expected, os.cpu_count() or 1)

@@ -151,7 +151,7 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None
             p = chdtrc(spec.short_lag, stat)
             out.append(TestArrays(name, [spec.short_lag], [spec.short_lag], stat, p, stat))
         elif name == "mcleod_li":
-            stat, p = randomness.mcleod_li(d, [spec.short_lag])
+            stat, p = randomness.mcleod_li(d, [spec.short_lag], scaled=True)
             out.append(TestArrays(name, [spec.short_lag], [spec.short_lag], stat, p, stat))
         elif name == "runs":
             z, p, runs = (randomness.runs_about_median(x) if mask is None

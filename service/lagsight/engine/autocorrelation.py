@@ -45,13 +45,17 @@ def uses_fft(n: int, max_lag: int) -> bool:
     return DIRECT_NS * n * max_lag > FFT_NS * size * np.log2(size)
 
 
-def center(x: np.ndarray) -> np.ndarray:
+def center(x: np.ndarray, rescale: bool = True) -> np.ndarray:
     """Return each row rescaled by an exact power of two and with its mean removed.
 
     Parameters
     ----------
     x : ndarray, shape (m, n)
         Finite values.
+    rescale : bool, default True
+        False skips the rescaling for rows known to be of moderate magnitude (for example
+        squares of already centred rows); autocorrelations come out the same, bit for bit,
+        because a power-of-two scaling is exact.
 
     Returns
     -------
@@ -60,13 +64,16 @@ def center(x: np.ndarray) -> np.ndarray:
         magnitude. Autocorrelations are invariant to both operations.
     """
     x = np.asarray(x, dtype=np.float64)
-    # max |x| as max(max x, -min x): the same value without a temporary array the size of x
-    peak = np.maximum(np.max(x, axis=1, keepdims=True), -np.min(x, axis=1, keepdims=True))
-    _, exponent = np.frexp(np.where(peak > 0, peak, 1.0))
-    d = np.ldexp(x, -exponent)  # exact: only the exponent changes
     n = x.shape[1]
-    # add.reduce / n is what ndarray.mean computes, without its wrapper's overhead
-    d -= np.add.reduce(d, axis=1, keepdims=True) / n  # in place: one working copy of the data
+    if rescale:
+        # max |x| as max(max x, -min x): the same value without a temporary array the size of x
+        peak = np.maximum(np.max(x, axis=1, keepdims=True), -np.min(x, axis=1, keepdims=True))
+        _, exponent = np.frexp(np.where(peak > 0, peak, 1.0))
+        d = np.ldexp(x, -exponent)  # exact: only the exponent changes
+        # add.reduce / n is what ndarray.mean computes, without its wrapper's overhead
+        d -= np.add.reduce(d, axis=1, keepdims=True) / n  # in place: one working copy of the data
+    else:
+        d = x - np.add.reduce(x, axis=1, keepdims=True) / n
     d -= np.add.reduce(d, axis=1, keepdims=True) / n  # second pass: removes the first pass's rounding
     return d
 
@@ -114,7 +121,7 @@ def autocovariance(d: np.ndarray, max_lag: int, method: str = "auto") -> np.ndar
     return c / n
 
 
-def acf(x: np.ndarray, max_lag: int, method: str = "auto") -> np.ndarray:
+def acf(x: np.ndarray, max_lag: int, method: str = "auto", rescale: bool = True) -> np.ndarray:
     """Sample autocorrelations r_1..r_max_lag of each row.
 
     Parameters
@@ -124,6 +131,8 @@ def acf(x: np.ndarray, max_lag: int, method: str = "auto") -> np.ndarray:
     max_lag : int
         Highest lag, ``1 <= max_lag <= n - 1``.
     method : {"auto", "direct", "fft"}, default "auto"
+    rescale : bool, default True
+        See :func:`center`.
 
     Returns
     -------
@@ -136,5 +145,5 @@ def acf(x: np.ndarray, max_lag: int, method: str = "auto") -> np.ndarray:
     >>> acf(np.array([[10000001.0, 10000003.0, 10000002.0]]), 1)
     array([[-0.5]])
     """
-    c = autocovariance(center(x), max_lag, method)
+    c = autocovariance(center(x, rescale), max_lag, method)
     return c[:, 1:] / c[:, :1]

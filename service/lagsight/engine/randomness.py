@@ -37,8 +37,10 @@ def _median(x: np.ndarray) -> np.ndarray:
     h = n // 2
     if n % 2:
         return np.partition(x, h, axis=1)[:, h : h + 1]
-    part = np.partition(x, (h - 1, h), axis=1)
-    return part[:, h - 1 : h] / 2.0 + part[:, h : h + 1] / 2.0
+    # One selection: the h-th order statistic lands at h with the h smaller values before it,
+    # so the (h-1)-th is their maximum (about 4x cheaper than selecting both).
+    part = np.partition(x, h, axis=1)
+    return np.maximum.reduce(part[:, :h], axis=1, keepdims=True) / 2.0 + part[:, h : h + 1] / 2.0
 
 
 def runs_about_median(x: np.ndarray):
@@ -111,10 +113,12 @@ def jarque_bera(d: np.ndarray, scaled: bool = False):
     return stat, chdtrc(2, stat), skew, kurt
 
 
-def mcleod_li(d: np.ndarray, lags: list[int]):
+def mcleod_li(d: np.ndarray, lags: list[int], scaled: bool = False):
     """McLeod-Li test: Ljung-Box on the autocorrelations of the squared centred values, df = lag.
 
-    Rows whose squares are constant (for example +-c alternating) get NaN.
+    Rows whose squares are constant (for example +-c alternating) get NaN. ``scaled=True`` says
+    the rows come from ``autocorrelation.center`` (magnitudes below 2), so their squares need no
+    rescaling against overflow; the statistics are the same either way.
 
     Returns
     -------
@@ -127,7 +131,7 @@ def mcleod_li(d: np.ndarray, lags: list[int]):
     p = np.full((m, len(lags)), np.nan)
     ok = ~constant
     if ok.any():
-        r = acf(sq if ok.all() else sq[ok], max(lags))
+        r = acf(sq if ok.all() else sq[ok], max(lags), rescale=not scaled)
         s, _, pv = portmanteau(r, n, lags, 0, "ljung_box")
         stat[ok], p[ok] = s, pv
     return stat, p

@@ -68,17 +68,20 @@ def _stl_operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 #: Built operators, least recently used first (at most OPERATORS_KEPT shapes per process).
-_operators: OrderedDict[tuple[int, int], tuple[np.ndarray, np.ndarray]] = OrderedDict()
+_operators: OrderedDict[tuple[int, int], np.ndarray] = OrderedDict()
 OPERATORS_KEPT = 8
 _lock = threading.Lock()  # the two tables are shared by a worker's threads
 
 
-def _operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
+def _operator(n: int, period: int) -> np.ndarray:
+    """[S + R | R] as one n x 2n matrix: x @ it gives the seasonal-plus-remainder and the remainder
+    of every row in one matrix product."""
     key = (n, period)
     if key in _operators:
         _operators.move_to_end(key)
         return _operators[key]
-    ops = _operators[key] = _stl_operator(n, period)
+    seasonal, remainder = _stl_operator(n, period)
+    ops = _operators[key] = np.hstack([seasonal + remainder, remainder])
     while len(_operators) > OPERATORS_KEPT:
         _operators.popitem(last=False)
     return ops
@@ -103,8 +106,8 @@ def _use_operator(m: int, n: int, period: int) -> bool:
     return False
 
 
-def _strength(seasonal: np.ndarray, remainder: np.ndarray) -> np.ndarray:
-    total = np.var(seasonal + remainder, axis=-1)
+def _strength(seasonal_plus_remainder: np.ndarray, remainder: np.ndarray) -> np.ndarray:
+    total = np.var(seasonal_plus_remainder, axis=-1)
     with np.errstate(divide="ignore", invalid="ignore"):
         value = np.where(total > 0, 1.0 - np.var(remainder, axis=-1) / total, 0.0)
     return np.round(np.maximum(value, 0.0), DECIMALS)
@@ -117,10 +120,10 @@ def stl_strengths(x: np.ndarray, period: int) -> np.ndarray:
     with _lock:
         ops = _operator(n, period) if _use_operator(m, n, period) else None
     if ops is not None:
-        seasonal_op, remainder_op = ops
-        return _strength(x @ seasonal_op, x @ remainder_op)
+        y = x @ ops
+        return _strength(y[:, :n], y[:, n:])
     fits = [STL(row, period=period).fit() for row in x]
-    return _strength(np.stack([f.seasonal for f in fits]), np.stack([f.resid for f in fits]))
+    return _strength(np.stack([f.seasonal + f.resid for f in fits]), np.stack([f.resid for f in fits]))
 
 
 def stl_strength(x: np.ndarray, period: int) -> float:
