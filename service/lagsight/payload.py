@@ -11,12 +11,16 @@ from .problems import Problem, invalid
 JSON_TYPES = ("application/json",)
 
 
-def _media_type(request: Request) -> str:
+def media_type(request: Request) -> str:
+    """The body's media type, lower case, without parameters ("" when not given)."""
+    raw = request.environ.get("CONTENT_TYPE")
+    if raw == "application/json":  # the usual header, exactly: nothing to parse
+        return raw
     return (request.mimetype or "").lower()
 
 
 def is_json(request: Request) -> bool:
-    media = _media_type(request)
+    media = media_type(request)
     return media in JSON_TYPES or media.endswith("+json")
 
 

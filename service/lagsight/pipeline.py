@@ -26,6 +26,8 @@ from .problems import invalid
 from .report import build_reports
 from .series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 
+#: The default tests in report order (as plan_for orders any requested set).
+_DEFAULT_TESTS = tuple(t for t in options.TEST_NAMES if t in options.DEFAULT_TESTS)
 #: Values per engine block (2**18 float64 = 2 MiB per copy of the data).
 BLOCK_POINTS = 1 << 18
 
@@ -56,7 +58,8 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
                               limits["MAX_LAG"])
     if mask is not None:
         max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
-    tests = tuple(t for t in options.TEST_NAMES if t in (opts.get("tests") or options.DEFAULT_TESTS))
+    chosen = opts.get("tests")
+    tests = tuple(t for t in options.TEST_NAMES if t in chosen) if chosen else _DEFAULT_TESTS
     monte_carlo = opts.get("p_values", options.DEFAULT_P_VALUES) == "monte_carlo"
     replicates = opts.get("replicates", options.DEFAULT_REPLICATES) if monte_carlo else 0
     seed = opts.get("seed")

@@ -12,7 +12,7 @@ from marshmallow import Schema, ValidationError
 from werkzeug.datastructures import ImmutableMultiDict
 
 from .. import csv_input, options, query, vega_lite
-from ..payload import read_json_object
+from ..payload import media_type, read_json_object
 from ..pipeline import plan_for, run
 from ..problems import Problem, flatten_messages
 from ..schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
@@ -92,7 +92,7 @@ def _read_request() -> dict:
     if request.method == "GET":
         query.check_known(args, (*query.OUTPUT_PARAMS, *_ANALYSIS, "values", "timestamps"))
         return _from_query(args)
-    if (request.mimetype or "").lower() in CSV_TYPES:
+    if media_type(request) in CSV_TYPES:
         query.check_known(args, (*query.OUTPUT_PARAMS, *query.CSV_PARAMS, *_ANALYSIS))
         raw = csv_input.read_series(request.get_data(cache=True), args)
         fields = {k: v for k, v in raw.items() if not k.startswith("_")}
