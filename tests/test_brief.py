@@ -277,8 +277,9 @@ def test_brief_leaves_out_what_only_the_full_report_reads(client, monkeypatch):
     from lagsight.engine import seasonality, stationarity
 
     calls = []
-    monkeypatch.setattr(seasonality, "suggest_period", lambda *args: calls.append("suggest_period"))
-    monkeypatch.setattr(stationarity, "adf", lambda *args: calls.append("adf"))
+    monkeypatch.setattr(seasonality, "suggest_periods",
+                        lambda r, *args: calls.append("suggest_period") or [None] * len(r))
+    monkeypatch.setattr(stationarity, "adf_rows", lambda x: calls.append("adf") or [None] * len(x))
     series = [s for s in _series_set() if s["id"] in ("walk", "ar-5", "noise-1", "cycle-4")]
     brief = client.post(URL, json={"series": series, "detail": "brief"})
     assert brief.status_code == 200 and calls == []

@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from scipy import stats
+from scipy.signal import lfilter
 from statsmodels import datasets as smd
 from statsmodels.sandbox.stats.runs import runstest_1samp
 from statsmodels.stats.diagnostic import acorr_ljungbox
@@ -200,3 +201,39 @@ def test_batched_stl_operator_equals_statsmodels_fits():
     batched = seasonality.stl_strengths(x, period)
     one_by_one = np.array([seasonality.stl_strengths(row[None], period)[0] for row in x])
     np.testing.assert_array_equal(batched, one_by_one)
+
+
+def test_mackinnon_p_values_match_statsmodels():
+    # Reference: statsmodels.tsa.adfvalues.mackinnonp(t, regression="c", N=1) (MacKinnon 1994).
+    from statsmodels.tsa.adfvalues import mackinnonp
+
+    from lagsight.engine.stationarity import mackinnon_p
+
+    grid = np.concatenate([np.linspace(-25, 5, 3001), [-18.83, -1.61, 2.74]])
+    ours = mackinnon_p(grid)
+    ref = np.array([mackinnonp(t, regression="c", N=1) for t in grid])
+    np.testing.assert_allclose(ours, ref, rtol=1e-13, atol=0)
+
+
+def test_batched_unit_root_check_matches_adfuller_row_by_row():
+    # Reference: statsmodels.tsa.stattools.adfuller(x, maxlag=Schwert's lags, autolag=None) per series,
+    # on simulated random walks and AR(1) paths (seeded nulls), one with constant differences (rank-deficient
+    # design, handed to adfuller itself) and one of rounded values.
+    import warnings
+
+    from statsmodels.tsa.stattools import adfuller
+
+    from lagsight.engine import stationarity
+
+    rng = np.random.default_rng(8)
+    for n in (10, 31, 120, 700):
+        x = np.cumsum(rng.standard_normal((12, n)), axis=1)
+        x[3] = 2.0 * np.arange(n) + 1.0
+        x[4] = np.round(x[4])
+        x[5:8] = lfilter([1.0], [1.0, -0.9], rng.standard_normal((3, n)), axis=1)
+        for row, (stat, p, used) in zip(x, stationarity.adf_rows(x)):
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                ref = adfuller(row, maxlag=stationarity._schwert_lags(n), autolag=None)
+            assert used == ref[2]
+            assert stat == pytest.approx(ref[0], rel=1e-11, abs=1e-12) and p == pytest.approx(ref[1], rel=1e-10, abs=1e-14)

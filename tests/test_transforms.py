@@ -180,3 +180,13 @@ def test_batch_series_take_their_own_missing_and_transform_with_pointers_under_t
     assert results[3]["error"]["errors"][0]["pointer"] == "/series/3/transform/box_cox"
     single = client.post(URL, json={k: v for k, v in series[0].items() if k != "id"}).get_json()
     assert single["acf"] == results[0]["acf"] and single["tests"] == results[0]["tests"]
+
+
+@pytest.mark.parametrize("values", [[], [float("nan")], [2.0], [2.0, float("nan"), 2.0]])
+def test_box_cox_estimate_needs_two_distinct_observed_values(values):
+    """Too few observed values (or all equal) to estimate lambda: a 422 pointing at box_cox, not a crash."""
+    from lagsight.problems import Problem
+
+    with pytest.raises(Problem) as caught:
+        transforms.apply(np.array(values, dtype=np.float64), {"box_cox": "estimate"}, None)
+    assert [e.pointer for e in caught.value.errors] == ["/transform/box_cox"]

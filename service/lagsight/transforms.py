@@ -113,8 +113,9 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
         source = "request"
         if lam == options.BOX_COX_ESTIMATE:
             obs = x[~np.isnan(x)]
-            if obs.min() == obs.max():
-                raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series.")
+            if obs.size < 2 or obs.min() == obs.max():
+                raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series or from fewer "
+                                                    "than two observed values.")
             with warnings.catch_warnings():  # scipy warns when it keeps lambda within the float range
                 warnings.simplefilter("ignore", UserWarning)
                 lam, source = float(stats.boxcox_normmax(obs, method="mle")), "estimated"

@@ -281,11 +281,13 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
                 strength[i] = value
     suggested: list = [None] * m
     if spec.period is None and complete and spec.report_extras:
-        suggested = [seasonality.suggest_period(r[i], band.upper[i], power[i], n) for i in range(m)]
+        suggested = seasonality.suggest_periods(r, band.upper, power, n)
     unit_root: list = [None] * m
     if complete and n >= 10 and spec.report_extras:
-        for i in np.flatnonzero(stationarity.decays_slowly(r)).tolist():
-            unit_root[i] = stationarity.adf(x[i])
+        slow = np.flatnonzero(stationarity.decays_slowly(r))
+        if slow.size:
+            for i, result in zip(slow.tolist(), stationarity.adf_rows(x[slow])):
+                unit_root[i] = result
     return GroupAnalysis(
         n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
         strength, suggested, unit_root, n_eff,

@@ -132,22 +132,25 @@ def stl_strength(x: np.ndarray, period: int) -> float:
 
 
 def suggest_period(r: np.ndarray, upper: np.ndarray, power: np.ndarray, n: int) -> int | None:
-    """A candidate seasonal period for one series, or None.
+    """A candidate seasonal period for one series, or None (see :func:`suggest_periods`)."""
+    return suggest_periods(r[None, :], upper[None, :], power[None, :], n)[0]
+
+
+def suggest_periods(r: np.ndarray, upper: np.ndarray, power: np.ndarray, n: int) -> list:
+    """A candidate seasonal period for each row, or None; r, upper (m, K) and power (m, q).
 
     The candidate is the lag k >= 2 with the largest autocorrelation among local
-    peaks that lie above the band, kept only when the periodogram's largest
-    ordinate sits at a frequency within one Fourier step of 1/k (the two views
-    agree). This is a suggestion, not a test (common practice, no source).
+    peaks that lie above the band (the first such lag on ties), kept only when the
+    periodogram's largest ordinate sits at a frequency within one Fourier step of
+    1/k (the two views agree). This is a suggestion, not a test (common practice,
+    no source).
     """
-    K = r.size
-    if K < 3 or power.size == 0:
-        return None
-    k = np.arange(2, K)  # lags 2..K-1 have neighbours on both sides
-    peaks = (r[1:-1] > r[:-2]) & (r[1:-1] >= r[2:]) & (r[1:-1] > upper[1:-1])
-    if not peaks.any():
-        return None
-    best = int(k[peaks][np.argmax(r[1:-1][peaks])])
-    j = int(np.argmax(power)) + 1  # Fourier index of the largest ordinate
-    if abs(j - n / best) <= 1.0:
-        return best
-    return None
+    m, K = r.shape
+    if K < 3 or power.shape[1] == 0:
+        return [None] * m
+    mid = r[:, 1:-1]  # lags 2..K-1 have neighbours on both sides
+    peaks = (mid > r[:, :-2]) & (mid >= r[:, 2:]) & (mid > upper[:, 1:-1])
+    best = np.argmax(np.where(peaks, mid, -np.inf), axis=1) + 2
+    j = np.argmax(power, axis=1) + 1  # Fourier index of the largest ordinate
+    keep = peaks.any(axis=1) & (np.abs(j - n / best) <= 1.0)
+    return [int(b) if k else None for b, k in zip(best.tolist(), keep.tolist())]
