@@ -226,6 +226,14 @@ class _Summary:
 def diagnose_batch():
     """Diagnose every series of a batch; one bad series never sinks the others."""
     media = _negotiate()
+    # Tens of thousands of small acyclic objects (the parsed body, the prepared series, the results)
+    # live and die inside this request: the cyclic collector stays paused until they are freed, so
+    # that it never scans them (see pipeline.gc_paused). A streamed answer pauses it block by block.
+    with gc_paused():
+        return _answer(media)
+
+
+def _answer(media: str) -> Response:
     body = read_json_object(request)
     cfg = current_app.config
     _check_size(body, cfg)
@@ -237,10 +245,9 @@ def diagnose_batch():
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
         shared["seed"] = secrets.randbits(63)
-    with gc_paused():  # thousands of small acyclic objects: see pipeline.gc_paused
-        data = request.get_data(cache=True)  # the body as read: no JSON boolean without these bytes
-        prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
-    del body, raw  # the parsed request is no longer needed: free it before the engine runs
+    data = request.get_data(cache=True)  # the body as read: no JSON boolean without these bytes
+    prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
+    del body, raw, data  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
     summary = _Summary(len(where) + len(errors))
     notes = _brief_notes(prepared) if detail == "brief" else {}
@@ -248,18 +255,18 @@ def diagnose_batch():
         return Response(stream_with_context(_stream(errors, prepared, where, summary, detail, notes)),
                         mimetype=NDJSON)
     results: list = [None] * (len(where) + len(errors))
-    with gc_paused():
-        for i, result in errors:
-            results[i] = result
-        for block in run_blocks(prepared, detail):
-            for j, report in block:
-                i, item_id = where[j]
-                results[i] = {"id": item_id, **report}
-        for result in results:
-            summary.add(result)
+    for i, result in errors:
+        results[i] = result
+    for block in run_blocks(prepared, detail):
+        for j, report in block:
+            i, item_id = where[j]
+            results[i] = {"id": item_id, **report}
+    for result in results:
+        summary.add(result)
+    answer = {"results": results, "summary": summary.counts}
     if detail == "brief":
-        return json_response({"detail": detail, "results": results, "summary": summary.counts, **notes})
-    return json_response({"results": results, "summary": summary.counts})
+        answer = {"detail": detail, **answer, **notes}
+    return json_response(answer)  # the results are freed on return, the collector still paused
 
 
 def _brief_notes(prepared: list[tuple[PreparedSeries, Plan]]) -> dict:
