@@ -186,3 +186,22 @@ def test_gunicorn_workers_run_blas_on_one_thread_unless_told_otherwise(tmp_path,
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stderr
     assert int(out.stdout.split()[-1]) == min(expected, os.cpu_count() or 1)
+
+
+def test_gunicorn_master_freezes_the_preloaded_app_before_forking(tmp_path):
+    """pre_fork moves the loaded application's objects out of the collector's generations (gc.freeze),
+    so a worker's full collection does not walk them; checked in a fresh interpreter."""
+    import os
+    import subprocess
+    import sys
+
+    env = dict(os.environ, PROMETHEUS_MULTIPROC_DIR=str(tmp_path))
+    code = ("import gc, lagsight.gunicorn_conf as conf\n"
+            "from lagsight.wsgi import app\n"
+            "before = any(o is app for o in gc.get_objects())\n"
+            "conf.pre_fork(None, None)\n"
+            "after = any(o is app for o in gc.get_objects())\n"
+            "print(before, after, gc.is_tracked(app), gc.get_freeze_count() > 10000)")
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split()[-4:] == ["True", "False", "True", "True"]

@@ -3,9 +3,10 @@
 ``lagsight serve`` uses this file; a deployment can use it directly (see
 docs/DEPLOYMENT.md). Values come from :mod:`lagsight.config`, so the one table
 in docs/CONFIGURATION.md documents them. It also prepares the directory through
-which the workers share their Prometheus counts and makes gunicorn's own log
-lines JSON like the service's.
+which the workers share their Prometheus counts, makes gunicorn's own log
+lines JSON like the service's, and freezes the preloaded objects before each fork.
 """
+import gc
 import glob
 import os
 import shutil
@@ -82,6 +83,18 @@ def post_worker_init(worker):
 
     worker.handle_exit = stop_listening_then_drain
     signal.signal(signal.SIGTERM, stop_listening_then_drain)
+
+
+def pre_fork(server, worker):
+    """Freeze the preloaded application's objects before each worker is forked (the master runs this).
+
+    The loaded modules (NumPy, SciPy, statsmodels, Flask and the app) are about 145,000 objects that
+    live as long as the process. Frozen, the workers' occasional full garbage collection skips them:
+    about 0.4 ms instead of about 60 ms measured on one worker, a pause that otherwise stalls every
+    request queued behind it. It also keeps the collector from writing to pages the workers share
+    with the master. Requests' own objects are collected as usual.
+    """
+    gc.freeze()
 
 
 def child_exit(server, worker):
