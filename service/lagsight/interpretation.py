@@ -86,6 +86,12 @@ def _tests(tests: dict[str, list[dict]], name: str) -> list[dict]:
 def _max_standardised(block: dict, lags: list[int]) -> tuple[float, int]:
     values, centre, se = block["values"], block["centre"], block["standard_error"]
     best, where = -1.0, lags[0]
+    if lags is block["lags"]:  # every lag, in order: walk the lists side by side
+        for lag, v, c, s in zip(lags, values, centre, se):
+            z = abs(v - c) / s
+            if z > best:
+                best, where = z, lag
+        return best, where
     for lag in lags:
         i = lag - 1
         z = abs(values[i] - centre[i]) / se[i]
