@@ -219,7 +219,11 @@ def test_brief_answer_says_the_cautions_once(client):
     assert "not proof" in text and "asymptotic" in text and "short series" in text
     analysed = len(series)
     # Multiple testing across series: chance flags = sum of 1 - confidence over the series analysed.
-    assert f"Of the {analysed} series analysed here, up to about {0.1 * analysed:.0f} could be called" in text
+    expected = 0.1 * analysed
+    assert f"Of the {analysed} series analysed here, up to about {expected:.1f} could be called" in text
+    copies = [{"id": i, "values": s["values"]} for i, s in enumerate(series * 5)]  # 0.05 x copies >= 10
+    many = client.post(URL, json={"series": copies, "detail": "brief"}).get_json()
+    assert f"up to about {0.05 * len(copies):.0f} could be called" in " ".join(many["cautions"])
     assert 'detail "full"' in body["full_report"]
     for r in body["results"]:
         assert set(r) == {"id", *FIELDS}

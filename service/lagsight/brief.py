@@ -300,17 +300,22 @@ def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: boo
         "A white-noise verdict is not proof of white noise: it says only that the sample gives no strong "
         "evidence of autocorrelation at the lags checked.",
         f"Bands and p-values are large-sample (asymptotic) approximations, rough for short series (below n = "
-        f"{options.SMALL_SAMPLE_N} each such result carries a short_series warning); p_values \"monte_carlo\" "
-        "gives p-values that hold at any length.",
+        f"{options.SMALL_SAMPLE_N} a result with asymptotic p-values carries a short_series warning); p_values "
+        "\"monte_carlo\" gives p-values that hold at any length.",
         "Multiple testing: each verdict adjusts for the many lags and tests of its own series (the per-test reject "
         "flags do not), but nothing adjusts across series. Of the "
-        f"{analysed} series analysed here, up to about {chance_flags:.0f} could be called not white noise by chance "
+        f"{analysed} series analysed here, up to about {_count(chance_flags)} could be called not white noise by chance "
         "alone at the chosen confidence even if every one were white noise.",
     ]
     if any_without_model_df:
         out.append("If these values are residuals of fitted ARMA models, set model_df to each model's number of "
                    "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
     return out
+
+
+def _count(expected: float) -> str:
+    """An expected count for a sentence: whole above 10, one decimal below."""
+    return f"{expected:.0f}" if expected >= 10 else f"{expected:.1f}"
 
 
 #: Where the rest of each series' report is (the brief answer says it once).
