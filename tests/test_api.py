@@ -6,6 +6,7 @@ import pytest
 
 from lagsight import create_app
 
+from .load_tools import assert_direct_load_agrees
 from .spec_tools import assert_valid
 
 URL = "/v1/diagnostics"
@@ -211,29 +212,10 @@ SCHEMA_ONLY_BODIES = [
 
 @pytest.mark.parametrize("body", DIRECT_BODIES + SCHEMA_ONLY_BODIES)
 def test_direct_load_agrees_with_the_schema(body):
-    from marshmallow import ValidationError
-
     from lagsight.schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
 
     schema = DiagnosticsRequest()
-    direct = DirectLoad(schema, DIRECT_FIELDS)
-    try:
-        expected = schema.load(body)
-    except ValidationError as err:
-        with pytest.raises(ValidationError) as got:
-            direct.load(body)
-        assert got.value.messages == err.messages
-        return
-    if body in DIRECT_BODIES:
-        direct.schema = None  # the direct path must answer these on its own, without the schema's load
-    got = direct.load(body)
-    assert set(got) == set(expected)
-    for key, value in expected.items():
-        if isinstance(value, np.ndarray):
-            np.testing.assert_array_equal(got[key], value)
-            assert got[key].dtype == value.dtype
-        else:
-            assert got[key] == value and type(got[key]) is type(value), key
+    assert_direct_load_agrees(schema, DirectLoad(schema, DIRECT_FIELDS), body, body in DIRECT_BODIES)
 
 
 def test_direct_load_refuses_names_that_are_not_fields():

@@ -7,6 +7,7 @@ import pytest
 
 from lagsight import create_app, pipeline
 
+from .load_tools import assert_direct_load_agrees
 from .spec_tools import assert_valid
 
 URL = "/v1/diagnostics/batch"
@@ -344,26 +345,10 @@ FULL_ONLY_ITEMS = [
 
 @pytest.mark.parametrize("item", DIRECT_ITEMS + FULL_ONLY_ITEMS)
 def test_direct_item_load_agrees_with_the_schema(item):
-    from marshmallow import ValidationError
-
     from lagsight.schema import BatchSeries
-    from lagsight.views.batch import load_item
+    from lagsight.views.batch import ITEM_LOAD
 
-    try:
-        expected = BatchSeries().load(item)
-    except ValidationError as err:
-        with pytest.raises(ValidationError) as got:
-            load_item(item)
-        assert got.value.messages == err.messages
-        return
-    got = load_item(item)
-    assert set(got) == set(expected)
-    for key, value in expected.items():
-        if isinstance(value, np.ndarray):
-            np.testing.assert_array_equal(got[key], value)
-            assert got[key].dtype == value.dtype
-        else:
-            assert got[key] == value and type(got[key]) is type(value), key
+    assert_direct_load_agrees(BatchSeries(), ITEM_LOAD, item, item in DIRECT_ITEMS)
 
 
 def test_monte_carlo_batch_shares_one_seed_and_one_null_per_length(client, monkeypatch):

@@ -32,7 +32,8 @@ import numpy as np
 
 from . import options
 from .engine.analysis import GroupAnalysis, TestArrays
-from .interpretation import _sidak_p, fmt_p
+from .interpretation import (SUMMARY_CLUSTERING, SUMMARY_UNDETERMINED, _sidak_p, short_series_warning,
+                             summary_not_white, summary_white)
 from .report import _test_rows
 from .series import PreparedSeries
 
@@ -41,37 +42,10 @@ FIELDS = ("name", "n", "n_missing", "max_lag", "period", "verdict", "tests", "ex
           "warnings")
 
 _PORTMANTEAU = ("ljung_box", "box_pierce")
-_SPIKE_WHAT = {"largest_spike": "the spike at lag {lag}", "seasonal_spike": "the seasonal lag {lag}",
-               "ljung_box": "the Ljung-Box test up to lag {lag}", "box_pierce": "the Box-Pierce test up to lag {lag}"}
-
-# The verdict sentences and the short-series warning read exactly as interpretation.verdict and
-# interpretation.interpret write them; tests/test_brief.py compares them on every kind of series.
-_UNDETERMINED = ("No judgement: no portmanteau lag has degrees of freedom left after model_df, and no spike "
-                 "stands out; raise max_lag or check model_df.")
-_CLUSTERING = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
-               "independent noise.")
-
-
 #: Verdict structure kinds by bit (1 autocorrelation, 2 seasonal, 4 volatility clustering, 8 non-random order,
 #: 16 uneven spectrum), in the order interpretation._structure lists them.
 _KINDS = ("autocorrelation", "seasonal", "volatility_clustering", "non_random_order", "uneven_spectrum")
 _STRUCTURES = [tuple(k for b, k in enumerate(_KINDS) if code >> b & 1) for code in range(32)]
-
-
-def _not_white(source: str, lag: int, p: float) -> str:
-    return f"Not white noise: autocorrelation remains ({_SPIKE_WHAT[source].format(lag=lag)}, {fmt_p(p)})."
-
-
-def _white(name: str, p: float) -> str:
-    label = "Ljung-Box" if name == "ljung_box" else "Box-Pierce"
-    return (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
-            f"{label} {fmt_p(p)}).")
-
-
-def _short_series_warning(n: int) -> dict:
-    return {"code": "short_series", "message": (
-        f"n = {n} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
-        "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")}
 
 
 def _row_slice(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
@@ -228,10 +202,10 @@ def _verdicts(analysis: GroupAnalysis, ns: list[int], alpha: float) -> list[dict
                 source, lag, p, th = "largest_spike", lag_spike[i], p_spike_l[i], level_l[i]
             else:
                 source, lag, p, th = "seasonal_spike", lag_season[i], p_season_l[i], level_l[i]
-            out.append({"white_noise": False, "summary": _not_white(source, lag, p), "evidence": ev,
+            out.append({"white_noise": False, "summary": summary_not_white(source, lag, p), "evidence": ev,
                         "confidence": "strong" if p < th / 10 else "moderate", "structure": structure})
         elif not port_i:
-            out.append({"white_noise": None, "summary": _UNDETERMINED, "evidence": ev, "confidence": "none",
+            out.append({"white_noise": None, "summary": SUMMARY_UNDETERMINED, "evidence": ev, "confidence": "none",
                         "structure": structure})
         else:
             out.append({"white_noise": True, "summary": None, "evidence": ev, "confidence": None,
@@ -244,7 +218,7 @@ def _verdicts(analysis: GroupAnalysis, ns: list[int], alpha: float) -> list[dict
         for i, mod, p in zip(todo_white, moderate, best_p):
             v = out[i]
             v["confidence"] = "moderate" if mod else "weak"
-            v["summary"] = _CLUSTERING if "volatility_clustering" in v["structure"] else _white(names[i], p)
+            v["summary"] = SUMMARY_CLUSTERING if "volatility_clustering" in v["structure"] else summary_white(names[i], p)
     return out
 
 
@@ -273,7 +247,7 @@ def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
     for i, s in enumerate(series):
         warnings = list(s.warnings)
         if short and ns[i] < options.SMALL_SAMPLE_N:
-            warnings.append(_short_series_warning(ns[i]))
+            warnings.append(short_series_warning(ns[i]))
         out.append({
             "name": s.name,
             "n": ns[i],

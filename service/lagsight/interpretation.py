@@ -106,6 +106,31 @@ def _sidak_p(z: float, count: int) -> float:
     return -math.expm1(count * math.log1p(-tail)) if tail < 1.0 else 1.0
 
 
+#: Verdict summaries; brief.py builds the same verdict from arrays and uses these too.
+SUMMARY_UNDETERMINED = ("No judgement: no portmanteau lag has degrees of freedom left after model_df, and no spike "
+                        "stands out; raise max_lag or check model_df.")
+SUMMARY_CLUSTERING = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
+                      "independent noise.")
+_EVIDENCE_WHAT = {"ljung_box": "the Ljung-Box test up to lag {lag}", "box_pierce": "the Box-Pierce test up to lag {lag}",
+                  "largest_spike": "the spike at lag {lag}", "seasonal_spike": "the seasonal lag {lag}"}
+
+
+def summary_not_white(source: str, lag: int, p: float) -> str:
+    return f"Not white noise: autocorrelation remains ({_EVIDENCE_WHAT[source].format(lag=lag)}, {fmt_p(p)})."
+
+
+def summary_white(test_name: str, p: float) -> str:
+    label = "Ljung-Box" if test_name == "ljung_box" else "Box-Pierce"
+    return (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
+            f"{label} {fmt_p(p)}).")
+
+
+def short_series_warning(n: int) -> dict:
+    return {"code": "short_series", "message": (
+        f"n = {n} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
+        "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")}
+
+
 def verdict(report: dict, tests: dict[str, list[dict]] | None = None) -> dict:
     """The verdict object (see the module docstring for the rule)."""
     tests = tests_by_name(report) if tests is None else tests
@@ -136,26 +161,17 @@ def verdict(report: dict, tests: dict[str, list[dict]] | None = None) -> dict:
     if against:
         worst = min(against, key=lambda e: e["p_value"] / e["threshold"])
         strength = "strong" if worst["p_value"] < worst["threshold"] / 10 else "moderate"
-        what = {"ljung_box": f"the Ljung-Box test up to lag {worst['lag']}",
-                "box_pierce": f"the Box-Pierce test up to lag {worst['lag']}",
-                "largest_spike": f"the spike at lag {worst['lag']}",
-                "seasonal_spike": f"the seasonal lag {worst['lag']}"}[worst["source"]]
-        summary = f"Not white noise: autocorrelation remains ({what}, {fmt_p(worst['p_value'])})."
+        summary = summary_not_white(worst["source"], worst["lag"], worst["p_value"])
         return {"white_noise": False, "summary": summary, "evidence": evidence, "confidence": strength,
                 "structure": structure}
     if not portmanteau:
-        return {"white_noise": None, "summary": "No judgement: no portmanteau lag has degrees of freedom left after "
-                "model_df, and no spike stands out; raise max_lag or check model_df.", "evidence": evidence,
+        return {"white_noise": None, "summary": SUMMARY_UNDETERMINED, "evidence": evidence,
                 "confidence": "none", "structure": structure}
     smallest = min(e["p_value"] / e["threshold"] * alpha for e in evidence)  # on the scale of alpha
     strength = "moderate" if smallest > 4 * alpha and report["n"] >= options.SMALL_SAMPLE_N else "weak"
     best = min(portmanteau, key=lambda t: t["p_value"])
-    label = "Ljung-Box" if best["name"] == "ljung_box" else "Box-Pierce"
-    summary = (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
-               f"{label} {fmt_p(best['p_value'])}).")
-    if "volatility_clustering" in structure:
-        summary = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
-                   "independent noise.")
+    summary = (SUMMARY_CLUSTERING if "volatility_clustering" in structure
+               else summary_white(best["name"], best["p_value"]))
     return {"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength,
             "structure": structure}
 
@@ -448,7 +464,5 @@ def interpret(report: dict) -> dict:
     report["advice"] = advice(report, tests)
     report["cautions"] = cautions(report)
     if report["n"] < options.SMALL_SAMPLE_N and report["p_values"]["method"] == "asymptotic":
-        report["warnings"].append({"code": "short_series", "message": (
-            f"n = {report['n']} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
-            "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")})
+        report["warnings"].append(short_series_warning(report["n"]))
     return report

@@ -131,11 +131,6 @@ def stl_strength(x: np.ndarray, period: int) -> float:
     return float(stl_strengths(x, period)[0])
 
 
-def suggest_period(r: np.ndarray, upper: np.ndarray, power: np.ndarray, n: int) -> int | None:
-    """A candidate seasonal period for one series, or None (see :func:`suggest_periods`)."""
-    return suggest_periods(r[None, :], upper[None, :], power[None, :], n)[0]
-
-
 def suggest_periods(r: np.ndarray, upper: np.ndarray, power: np.ndarray, n: int) -> list:
     """A candidate seasonal period for each row, or None; r, upper (m, K) and power (m, q).
 
