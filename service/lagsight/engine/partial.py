@@ -14,8 +14,10 @@ lags; each step is vectorised over the series.
 Two implementations give every row the same bits: each step is a fixed sequence of
 correctly rounded multiplications, subtractions and divisions, and the one sum,
 sum_j phi_{k-1,j} r_{k-j}, is accumulated in order j = 1, 2, ... in both (a running
-sum, never a pairwise or blocked reduction). Many series take the NumPy version;
-a few series, where NumPy's per-call overhead would dominate, take plain Python floats.
+sum, never a pairwise or blocked reduction). Many series take the NumPy version, where
+the sum is one reduction over the leading axis of a (terms x series) array: NumPy adds
+such rows one after another, element by element (tests/test_engine_rows.py checks the
+bits). A few series, where NumPy's per-call overhead would dominate, take plain Python floats.
 
 References
 ----------
@@ -28,12 +30,10 @@ from __future__ import annotations
 import numpy as np
 
 
-#: Below this many (series x lags) the plain-float recursion is cheaper than NumPy calls
-#: (about 35 ns per multiply-add against about 12 us of calls per lag; benchmarks/).
-SCALAR_MAX_WORK = 350
-#: From this many series on, the running sum is one multiply-add call per term (less memory
-#: traffic than add.accumulate's partial sums); below it, one accumulate call per lag.
-ACCUMULATE_BELOW = 1000
+#: Below this many (series x lags) the plain-float recursion is cheaper than NumPy calls: its
+#: cost grows as series x lags**2 (about 0.1 us per term), NumPy's as the lags (about 13 us of
+#: calls per lag, nearly whatever the number of series); measured on the benchmark machine.
+SCALAR_MAX_WORK = 130
 
 
 def pacf(r: np.ndarray) -> np.ndarray:
@@ -56,26 +56,22 @@ def pacf(r: np.ndarray) -> np.ndarray:
         return np.array([_pacf_floats(row) for row in r.tolist()], dtype=np.float64).reshape(m, K)
     # Lag-major layout (K, m): each step works on contiguous vectors over the series.
     rt = np.ascontiguousarray(r.T)
-    out = np.zeros((K, m))
+    out = np.empty((K, m))
     phi = np.zeros((K, m))
     out[0] = phi[0] = rt[0]
     err = 1.0 - rt[0] * rt[0]  # normalised prediction error variance
-    s, term = np.empty(m), np.empty(m)
+    terms = np.empty((K, m))
     with np.errstate(divide="ignore", invalid="ignore"):
         for k in range(1, K):
-            # The running sum in order j = 0..k-1, as in _pacf_floats: for many series one
-            # multiply-add per j on long vectors; for fewer, add.accumulate (sequential) in one call.
-            if m >= ACCUMULATE_BELOW:
-                np.multiply(phi[0], rt[k - 1], out=s)
-                for j in range(1, k):
-                    s += np.multiply(phi[j], rt[k - 1 - j], out=term)
-            else:
-                s = np.add.accumulate(phi[:k] * rt[k - 1 :: -1], axis=0)[-1]
-            num = rt[k] - s
-            kk = np.where(err > 1e-15, num / err, 0.0)
+            # The running sum in order j = 0..k-1, as in _pacf_floats: a reduction over the leading
+            # axis adds the rows of the terms one after another. With one series that axis would be
+            # the only one, and NumPy sums a lone axis pairwise; add.accumulate is sequential.
+            t = np.multiply(phi[:k], rt[k - 1 :: -1], out=terms[:k])
+            s = np.add.reduce(t, axis=0) if m > 1 else np.add.accumulate(t, axis=0)[-1]
+            kk = np.where(err > 1e-15, np.subtract(rt[k], s, out=s) / err, 0.0)
             np.maximum(kk, -1.0, out=kk)
             np.minimum(kk, 1.0, out=kk)
-            phi[:k] -= kk * phi[k - 1 :: -1]  # numpy copies the overlapping reversed operand first
+            phi[:k] -= np.multiply(phi[k - 1 :: -1], kk, out=terms[:k])
             phi[k] = kk
             out[k] = kk
             err *= 1.0 - kk * kk
