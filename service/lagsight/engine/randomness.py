@@ -31,16 +31,16 @@ def _two_sided(z: np.ndarray) -> np.ndarray:
 def _median(x: np.ndarray) -> np.ndarray:
     """Row medians, shape (m, 1): the mean of the two middle order statistics when n is even.
 
-    Halved before adding: the same value as ``np.median`` (halving is exact), without its
-    wrapper overhead, and no overflow to infinity for values near the float64 limit."""
+    By a full sort: NumPy's vectorised sort of short rows costs less than a selection
+    (np.partition) and gives the same order statistics. Halved before adding: the same value
+    as ``np.median`` (halving is exact), without its wrapper overhead, and no overflow to
+    infinity for values near the float64 limit."""
     n = x.shape[1]
     h = n // 2
+    ordered = np.sort(x, axis=1)
     if n % 2:
-        return np.partition(x, h, axis=1)[:, h : h + 1]
-    # One selection: the h-th order statistic lands at h with the h smaller values before it,
-    # so the (h-1)-th is their maximum (about 4x cheaper than selecting both).
-    part = np.partition(x, h, axis=1)
-    return np.maximum.reduce(part[:, :h], axis=1, keepdims=True) / 2.0 + part[:, h : h + 1] / 2.0
+        return ordered[:, h : h + 1]
+    return ordered[:, h - 1 : h] / 2.0 + ordered[:, h : h + 1] / 2.0
 
 
 def runs_about_median(x: np.ndarray):
@@ -81,9 +81,13 @@ def turning_points(x: np.ndarray):
     """
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[1]
-    mid, left, right = x[:, 1:-1], x[:, :-2], x[:, 2:]
-    # Comparisons, not differences: the same answer for finite values, and nothing can overflow.
-    count = ((mid > left) & (mid > right) | (mid < left) & (mid < right)).sum(axis=1).astype(np.float64)
+    # The sign of each step, -1, 0 or +1 (for finite values the sign of a difference is the order
+    # of the two values, even where the difference overflows to infinity): a strict peak or trough
+    # is where two successive steps have opposite signs, that is where their product is negative.
+    with np.errstate(over="ignore"):
+        step = np.diff(x, axis=1)
+    sign = (step > 0).view(np.int8) - (step < 0).view(np.int8)
+    count = np.count_nonzero(sign[:, :-1] * sign[:, 1:] < 0, axis=1).astype(np.float64)
     z = (count - 2.0 * (n - 2) / 3.0) / np.sqrt((16.0 * n - 29.0) / 90.0)
     return z, _two_sided(z), count
 
