@@ -25,6 +25,8 @@ References
 """
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 from scipy.special import chdtrc
 
@@ -57,18 +59,27 @@ def portmanteau(r: np.ndarray, n: int, lags, model_df: int = 0, kind: str = "lju
     if kind not in PORTMANTEAU_TESTS:
         raise ValueError(f"kind must be one of {PORTMANTEAU_TESTS}, got {kind!r}")
     r = np.asarray(r, dtype=np.float64)
-    idx = np.asarray(lags, dtype=np.intp) - 1
-    k = np.arange(1, r.shape[1] + 1)
-    if kind == "ljung_box":
-        terms = r**2 / (n - k)
-        scale = n * (n + 2.0)
-    else:
-        terms = r**2
-        scale = float(n)
-    statistic = scale * np.cumsum(terms, axis=1)[:, idx]
-    df = idx + 1 - int(model_df)
-    p_value = np.full(statistic.shape, np.nan)
+    lags = tuple(int(h) for h in lags)
+    weights = _weights(n, lags, kind)  # (L, h_max)
+    squares = r[:, : weights.shape[1]] ** 2
+    # One weighted sum per tested lag: sum_k w_k r_k^2 over k <= h, w_k zero beyond h (np.vecdot
+    # is a ufunc, so a row gets the same bits alone or among others).
+    statistic = np.vecdot(squares[:, None, :], weights)
+    df = np.asarray(lags, dtype=np.intp) - int(model_df)
     ok = df > 0
+    if ok.all():
+        return statistic, df, chdtrc(df, statistic)  # = chi2.sf(statistic, df)
+    p_value = np.full(statistic.shape, np.nan)
     if ok.any():
-        p_value[:, ok] = chdtrc(df[ok], statistic[:, ok])  # = chi2.sf(statistic, df)
+        p_value[:, ok] = chdtrc(df[ok], statistic[:, ok])
     return statistic, df, p_value
+
+
+@lru_cache(maxsize=256)
+def _weights(n: int, lags: tuple[int, ...], kind: str) -> np.ndarray:
+    """Row l holds the weight of r_k^2 in the statistic at lag lags[l], k = 1..max(lags)."""
+    k = np.arange(1, max(lags) + 1)
+    per_lag = n * (n + 2.0) / (n - k) if kind == "ljung_box" else np.full(k.shape, float(n))
+    weights = np.where(k[None, :] <= np.asarray(lags)[:, None], per_lag[None, :], 0.0)
+    weights.flags.writeable = False
+    return weights

@@ -131,6 +131,9 @@ def mcleod_li(d: np.ndarray, lags: list[int], scaled: bool = False):
     m, n = d.shape
     sq = d * d
     constant = np.maximum.reduce(sq, axis=1) == np.minimum.reduce(sq, axis=1)
+    if not constant.any():
+        s, _, p = portmanteau(acf(sq, max(lags), rescale=not scaled), n, lags, 0, "ljung_box")
+        return s, p
     stat = np.full((m, len(lags)), np.nan)
     p = np.full((m, len(lags)), np.nan)
     ok = ~constant
