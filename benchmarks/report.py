@@ -133,7 +133,9 @@ def render(r: dict, previous: str = "") -> str:
         "",
         f"## 1. {b['m']:,} series x {b['n']} points, max_lag {b['max_lag']}, period {b['period']} (in process)",
         "",
-        "In-process measurements (1 and 5) run with one BLAS thread, as every service worker does.",
+        "In-process measurements (1 and 5) run as every service worker does: one BLAS thread, and "
+        + (f"up to {r['heap_keep_mb']} MiB of freed memory kept for reuse (`LAGSIGHT_HEAP_KEEP_MB`; every case alike)."
+           if r.get("heap_keep_mb") else "the C library's default handling of freed memory."),
         "",
         "| case | median | min | max |",
         "| --- | --- | --- | --- |",

@@ -13,6 +13,8 @@ from pathlib import Path
 
 from threadpoolctl import threadpool_limits
 
+from lagsight import config, heap
+
 from . import engine_bench, http_bench, load, machine, workloads
 from .report import render
 from .server import Server
@@ -38,7 +40,9 @@ def measure(sizes: dict, repeats: int, tool: str, log=print) -> dict:
     started = time.time()
     results: dict = {"machine": machine.describe(), "repeats": repeats, "load_tool": tool}
     b = sizes["batch"]
-    # In-process measurements run with one BLAS thread, as every service worker does (gunicorn_conf).
+    # In-process measurements run as every service worker does (gunicorn_conf): one BLAS thread, and
+    # freed array memory kept for reuse (lagsight.heap; it applies to every case alike).
+    results["heap_keep_mb"] = config.load()["HEAP_KEEP_MB"] if heap.keep_freed_memory(config.load()["HEAP_KEEP_MB"]) else 0
     with threadpool_limits(1):
         log(f"1. batch of {b['m']} x {b['n']}: engine, full report, NumPy floor, statsmodels loops")
         results["batch"] = engine_bench.measure_batch(b["m"], b["n"], b["max_lag"], b["period"], repeats,

@@ -205,3 +205,32 @@ def test_gunicorn_master_freezes_the_preloaded_app_before_forking(tmp_path):
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stderr
     assert out.stdout.split()[-4:] == ["True", "False", "True", "True"]
+
+
+def test_gunicorn_workers_keep_freed_array_memory_for_reuse(tmp_path):
+    """With the gunicorn settings loaded, engine blocks after the first reuse the pages freed by the
+    ones before (almost no new page faults); with LAGSIGHT_HEAP_KEEP_MB=0 the C library's defaults
+    hand freed arrays back to the kernel and fault them in again. Checked in fresh interpreters."""
+    import os
+    import platform
+    import subprocess
+    import sys
+
+    if platform.libc_ver()[0] != "glibc":
+        pytest.skip("mallopt thresholds are glibc's")
+    code = ("import resource, numpy as np, lagsight.gunicorn_conf\n"
+            "from lagsight.engine.analysis import Spec, analyse\n"
+            "x = np.random.default_rng(5).standard_normal((2184, 120))\n"
+            "spec = Spec(max_lag=24, confidence=0.95, model_df=0, test_lags=(12, 24), short_lag=24, period=12)\n"
+            "analyse(x, spec)\n"
+            "before = resource.getrusage(resource.RUSAGE_SELF).ru_minflt\n"
+            "for _ in range(4):\n"
+            "    analyse(x, spec)\n"
+            "print(resource.getrusage(resource.RUSAGE_SELF).ru_minflt - before)")
+    counts = {}
+    for keep in ("32", "0"):
+        env = dict(os.environ, PROMETHEUS_MULTIPROC_DIR=str(tmp_path), LAGSIGHT_HEAP_KEEP_MB=keep)
+        out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
+        assert out.returncode == 0, out.stderr
+        counts[keep] = int(out.stdout.split()[-1])
+    assert counts["32"] * 10 < counts["0"], counts

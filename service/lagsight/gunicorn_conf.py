@@ -4,7 +4,8 @@
 docs/DEPLOYMENT.md). Values come from :mod:`lagsight.config`, so the one table
 in docs/CONFIGURATION.md documents them. It also prepares the directory through
 which the workers share their Prometheus counts, makes gunicorn's own log
-lines JSON like the service's, and freezes the preloaded objects before each fork.
+lines JSON like the service's, freezes the preloaded objects before each fork, and lets the
+workers keep freed array memory for reuse (:mod:`lagsight.heap`).
 """
 import gc
 import glob
@@ -21,7 +22,7 @@ for _threads in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_threads, "1")
 
 from lagsight import config as _config  # imports no metrics: prometheus_client must see the directory first
-from lagsight import server_errors, whole_response
+from lagsight import heap, server_errors, whole_response
 
 whole_response.install()  # header and body in one write: a killed worker never leaves a half-sent response
 server_errors.install()  # gunicorn's own 400/414/431/... answers in the problem+json shape
@@ -29,6 +30,9 @@ server_errors.install()  # gunicorn's own 400/414/431/... answers in the problem
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"  # read by prometheus_client when it is first imported
 
 _s = _config.load()
+
+# Set in the master, so every forked worker inherits it (see lagsight.heap).
+heap.keep_freed_memory(_s["HEAP_KEEP_MB"])
 
 bind = [f"{_s['HOST']}:{_s['PORT']}"]
 workers = _s["WORKERS"]
