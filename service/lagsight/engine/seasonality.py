@@ -74,14 +74,16 @@ _lock = threading.Lock()  # the two tables are shared by a worker's threads
 
 
 def _operator(n: int, period: int) -> np.ndarray:
-    """[S + R | R] as one n x 2n matrix: x @ it gives the seasonal-plus-remainder and the remainder
-    of every row in one matrix product."""
+    """[S + R | R] as one n x 2n matrix, each half's columns centred: x @ it gives the
+    seasonal-plus-remainder and the remainder of every row, each minus its own mean, in one
+    matrix product (so their variances are plain mean squares)."""
     key = (n, period)
     if key in _operators:
         _operators.move_to_end(key)
         return _operators[key]
     seasonal, remainder = _stl_operator(n, period)
-    ops = _operators[key] = np.hstack([seasonal + remainder, remainder])
+    halves = [seasonal + remainder, remainder]
+    ops = _operators[key] = np.hstack([h - h.mean(axis=1, keepdims=True) for h in halves])
     while len(_operators) > OPERATORS_KEPT:
         _operators.popitem(last=False)
     return ops
@@ -106,10 +108,15 @@ def _use_operator(m: int, n: int, period: int) -> bool:
     return False
 
 
-def _strength(seasonal_plus_remainder: np.ndarray, remainder: np.ndarray) -> np.ndarray:
-    total = np.var(seasonal_plus_remainder, axis=-1)
+def _strength(seasonal_plus_remainder: np.ndarray, remainder: np.ndarray, centred: bool = False) -> np.ndarray:
+    """F_S per row; ``centred`` says both components already have mean zero per row."""
+    if centred:
+        total = np.vecdot(seasonal_plus_remainder, seasonal_plus_remainder)
+        rest = np.vecdot(remainder, remainder)
+    else:
+        total, rest = np.var(seasonal_plus_remainder, axis=-1), np.var(remainder, axis=-1)
     with np.errstate(divide="ignore", invalid="ignore"):
-        value = np.where(total > 0, 1.0 - np.var(remainder, axis=-1) / total, 0.0)
+        value = np.where(total > 0, 1.0 - rest / total, 0.0)
     return np.round(np.maximum(value, 0.0), DECIMALS)
 
 
@@ -121,7 +128,7 @@ def stl_strengths(x: np.ndarray, period: int) -> np.ndarray:
         ops = _operator(n, period) if _use_operator(m, n, period) else None
     if ops is not None:
         y = x @ ops
-        return _strength(y[:, :n], y[:, n:])
+        return _strength(y[:, :n], y[:, n:], centred=True)
     fits = [STL(row, period=period).fit() for row in x]
     return _strength(np.stack([f.seasonal + f.resid for f in fits]), np.stack([f.resid for f in fits]))
 

@@ -58,7 +58,10 @@ def periodogram(d: np.ndarray) -> np.ndarray:
 def cumulative_periodogram(power: np.ndarray) -> np.ndarray:
     """Normalised cumulative periodogram C_j, j = 1..q (the last is 1); shape (m, q)."""
     c = np.cumsum(power, axis=1)
-    total = c[:, -1:]
+    total = c[:, -1:].copy()
+    if (total > 0).all():
+        c /= total  # in place: the usual case, every row with some power
+        return c
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(total > 0, c / total, np.nan)
 
