@@ -76,10 +76,10 @@ SETTINGS: dict[str, Setting] = {
                          "Seconds to hold an idle keep-alive connection (gthread workers; sync workers close).", "server"),
     "MAX_REQUESTS": Setting("LAGSIGHT_MAX_REQUESTS", 0, non_negative_int,
                             "Recycle a worker after this many requests (0 = never); 10% jitter is added.", "server"),
-    "HEAP_KEEP_MB": Setting("LAGSIGHT_HEAP_KEEP_MB", 32, non_negative_int,
+    "HEAP_KEEP_MB": Setting("LAGSIGHT_HEAP_KEEP_MB", 64, non_negative_int,
                             "MiB of freed memory each worker keeps for reuse rather than returning it to the kernel at "
-                            "once (arrays up to an eighth of it come from the heap); spares large batches repeated page "
-                            "faults. glibc only; 0 keeps the C library's defaults.", "server"),
+                            "once (arrays up to half of it, at most 32 MiB, come from the heap); spares large batches "
+                            "repeated page faults. glibc only; 0 keeps the C library's defaults.", "server"),
     # limits
     "MAX_BODY_BYTES": Setting("LAGSIGHT_MAX_BODY_BYTES", options.DEFAULT_LIMITS["max_body_bytes"], positive_int,
                               "Largest request body in bytes, with or without Content-Length (413 beyond)."),

@@ -15,15 +15,20 @@ import ctypes
 M_TRIM_THRESHOLD = -1
 M_MMAP_THRESHOLD = -3
 #: Arrays up to this share of the kept memory come from the heap (larger ones are mapped and unmapped).
-HEAP_SHARE = 8
+HEAP_SHARE = 2
+#: glibc's own ceiling for M_MMAP_THRESHOLD on 64-bit systems (HEAP_MAX_SIZE / 2).
+MMAP_THRESHOLD_MAX = 32 << 20
 
 
 def keep_freed_memory(megabytes: int) -> bool:
     """Let the process keep up to ``megabytes`` MiB of freed memory for reuse.
 
-    Arrays up to ``megabytes / 8`` MiB are taken from the heap (glibc's M_MMAP_THRESHOLD, which also
-    stops glibc from moving that threshold by itself), and the heap returns free memory to the
-    kernel only beyond ``megabytes`` (M_TRIM_THRESHOLD). Returns True when both took effect; False
+    Arrays up to ``megabytes / 2`` MiB (at most 32) are taken from the heap (glibc's
+    M_MMAP_THRESHOLD), and the heap returns free memory to the kernel only beyond ``megabytes``
+    (M_TRIM_THRESHOLD). glibc moves both thresholds by itself until either is set, up to 32 and
+    64 MiB, but only after a freed array of each size has been mapped once, and with a trim
+    threshold only twice the largest array seen: a block's dozens of arrays of a few MiB still
+    exceed it. Setting both fixes them where glibc's own adjustment would end up anyway. Returns True when both took effect; False
     for 0 (leave the defaults) or where the C library has no ``mallopt``.
     """
     if megabytes <= 0:
@@ -34,5 +39,5 @@ def keep_freed_memory(megabytes: int) -> bool:
         return False
     mallopt.argtypes, mallopt.restype = (ctypes.c_int, ctypes.c_int), ctypes.c_int
     size = megabytes << 20
-    heap_arrays = max(size // HEAP_SHARE, 128 << 10)
+    heap_arrays = min(max(size // HEAP_SHARE, 128 << 10), MMAP_THRESHOLD_MAX)
     return bool(mallopt(M_MMAP_THRESHOLD, heap_arrays)) and bool(mallopt(M_TRIM_THRESHOLD, size))
