@@ -122,6 +122,22 @@ def test_ks_p_values_follow_scipy_kstwo(m):
     np.testing.assert_allclose(spectrum.ks_p_value(d, m + 1), stats.kstwo.sf(d, m), rtol=1e-4, atol=1e-12)
 
 
+@pytest.mark.parametrize("m", [17, 18, 101, 444, 999, 1000])
+def test_shipped_ks_table_holds_scipy_kstwo_values(m):
+    # Reference: scipy.stats.kstwo.sf (exact), recomputed here on the table's grid; the shipped
+    # file stores log P(D_m > d) as float32 (python -m lagsight.engine.ks_table rebuilds it).
+    from lagsight.engine import ks_table
+
+    np.testing.assert_allclose(ks_table.log_sf(m), ks_table.exact_log_sf(m), rtol=1e-6, atol=1e-6)
+
+
+@pytest.mark.parametrize("m", [5, 16, 17, 58, 300, 1000])
+@pytest.mark.parametrize("confidence", [0.8, 0.95, 0.99, 0.999])
+def test_ks_critical_values_follow_scipy_kstwo(m, confidence):
+    # Reference: scipy.stats.kstwo.isf (exact); a root search on the tabulated function for 16 < m <= 1000.
+    assert spectrum.ks_critical(m + 1, confidence) == pytest.approx(stats.kstwo.isf(1 - confidence, m), rel=2e-5)
+
+
 def test_ks_p_values_beyond_the_table_use_stephens_within_half_a_percent():
     # Reference: scipy.stats.kstwo.sf (exact, slow at this size); Stephens (1970) approximation beyond 1000 points.
     m = 2000

@@ -17,9 +17,9 @@ Kolmogorov-Smirnov statistic
 
 with the p-value of the one-sample KS distribution on m = q - 1 points: exact
 (``scipy.stats.kstwo``) for m <= 16; for 16 < m <= 1000 the exact survival
-function tabulated once per m on 240 points and interpolated in log scale
-(monotone cubic; relative error about 1e-5, checked against ``kstwo`` in the
-tests); for m > 1000, where the exact computation takes seconds, Stephens'
+function tabulated per m on 239 points (computed once and shipped with the
+package, :mod:`.ks_table`) and interpolated in log scale (monotone cubic; relative
+error about 1e-5, checked against ``kstwo`` in the tests); for m > 1000, where the exact computation takes seconds, Stephens'
 approximation [3]_ P(K > (sqrt(m) + 0.12 + 0.11/sqrt(m)) D) with K the
 limiting Kolmogorov distribution (absolute error below 0.005 there). The chart
 band around the line j/q is +-D_crit, D_crit the upper 1 - confidence quantile.
@@ -41,7 +41,11 @@ from scipy import fft as sp_fft
 from functools import lru_cache
 
 from scipy.interpolate import PchipInterpolator
+from scipy.optimize import brentq
 from scipy.stats import kstwo, kstwobign
+
+from . import ks_table
+from .ks_table import EXACT_MAX_POINTS, TABLE_MAX_POINTS
 
 #: Charts get at most this many periodogram points; longer spectra are averaged in equal blocks.
 CHART_POINTS = 512
@@ -79,22 +83,16 @@ def ks_statistic(cumulative: np.ndarray) -> np.ndarray:
     return np.maximum(upper.max(axis=1), lower.max(axis=1))
 
 
-EXACT_MAX_POINTS = 16
-TABLE_MAX_POINTS = 1000
-
-
 def _stephens(m: int) -> float:
     return np.sqrt(m) + 0.12 + 0.11 / np.sqrt(m)
 
 
-@lru_cache(maxsize=64)
+@lru_cache(maxsize=256)
 def _ks_table(m: int) -> tuple[float, PchipInterpolator]:
-    """log P(D_m > d) interpolated over d in [1/(2m), 1] from 240 exact values."""
-    lo = 1.0 / (2 * m)
-    knee = min(1.0, 3.5 / np.sqrt(m))
-    grid = np.unique(np.concatenate([np.linspace(lo, knee, 200), np.linspace(knee, 1.0, 40)]))
-    log_sf = np.log(np.maximum(kstwo.sf(grid, m), 1e-300))
-    return lo, PchipInterpolator(grid, log_sf)
+    """log P(D_m > d) interpolated over d in [1/(2m), 1] from the 239 exact values shipped for m
+    (:mod:`.ks_table`; computing them here would cost 20 to 100 ms per m)."""
+    points = ks_table.grid(m)
+    return points[0], PchipInterpolator(points, ks_table.log_sf(m))
 
 
 def ks_p_value(statistic: np.ndarray, q: int) -> np.ndarray:
@@ -115,13 +113,19 @@ def ks_p_value(statistic: np.ndarray, q: int) -> np.ndarray:
 
 @lru_cache(maxsize=256)
 def ks_critical(q: int, confidence: float) -> float | None:
-    """Half-width of the cumulative periodogram band at the given coverage (cached: the
-    exact quantile needs a root search over the survival function)."""
+    """Half-width of the cumulative periodogram band at the given coverage: the d with
+    P(D_m > d) = 1 - confidence, exact up to 16 points, by a root search on the tabulated
+    survival function up to 1000 (``kstwo.isf`` costs about 5 ms per m there), and by
+    Stephens' approximation beyond."""
     m = q - 1
     if m < 1:
         return None
-    if m <= TABLE_MAX_POINTS:
+    if m <= EXACT_MAX_POINTS:
         return float(kstwo.isf(1.0 - confidence, m))
+    if m <= TABLE_MAX_POINTS:
+        lo, log_sf = _ks_table(m)
+        target = np.log(1.0 - confidence)  # log_sf falls from 0 at lo to about -690 at 1: one crossing
+        return float(brentq(lambda d: float(log_sf(d)) - target, lo, 1.0, xtol=1e-14, rtol=1e-13))
     return float(kstwobign.isf(1.0 - confidence) / _stephens(m))
 
 
