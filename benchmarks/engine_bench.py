@@ -124,6 +124,26 @@ def measure_batch(m: int, n: int, max_lag: int, period: int, repeats: int, defau
             "max_abs_diff_acf_vs_statsmodels": agreement, "max_abs_diff_pacf_vs_statsmodels": pacf_agreement}
 
 
+def mixed_reports(series: list[np.ndarray]) -> list[dict]:
+    """Full reports for series of different lengths (each with its default max_lag): one engine pass
+    per length, and whatever each new length costs (tables, operators) paid as a worker would."""
+    items = []
+    for i, row in enumerate(series):
+        s = PreparedSeries(row, row.size, 0, None, None, None, f"meter-{i}")
+        items.append((s, plan_for(s, _OPTS, _limits(options.DEFAULT_LIMITS["max_lag"]))))
+    return run(items)
+
+
+def measure_mixed(m: int, shortest: int, longest: int, repeats: int) -> dict:
+    """m series of lengths drawn between ``shortest`` and ``longest``: a portal's batch of unequal histories."""
+    rng = np.random.default_rng(17)
+    lengths = rng.integers(shortest, longest + 1, m)
+    series = [workloads.long_series(int(n), seed=i) for i, n in enumerate(lengths)]
+    t = timing.interleaved({"full_report": lambda: mixed_reports(series)}, repeats)
+    return {"m": m, "shortest": shortest, "longest": longest, "distinct_lengths": len(set(lengths.tolist())),
+            "full_report": t["full_report"]["median"], "times": t}
+
+
 def _slope(sizes: list[int], seconds: list[float]) -> float:
     """Least-squares slope of log(time) on log(size)."""
     return float(np.polyfit(np.log(sizes), np.log(seconds), 1)[0])

@@ -292,6 +292,18 @@ def render(r: dict, previous: str = "") -> str:
         f"Slope of log time on log batch size: engine {sc['slope_batch']['engine']:.2f}, full report"
         f" {sc['slope_batch']['full_report']:.2f}.",
         "",
+    ]
+    mx = sc.get("mixed")
+    if mx:
+        out += [
+            f"Unequal lengths: {mx['m']:,} series of {mx['shortest']:,} to {mx['longest']:,} points"
+            f" ({mx['distinct_lengths']:,} distinct lengths, each with its default max_lag), full reports:"
+            f" {_ms(mx['full_report'])}, {mx['full_report'] / mx['m'] * 1e3:.2f} ms per series. Each length is"
+            " its own engine pass, and a length's first series adds under a millisecond more (the exact"
+            " Kolmogorov-Smirnov table is shipped with the package, not computed per length).",
+            "",
+        ]
+    out += [
         "## Analysis",
         "",
         _notes(previous),

@@ -28,12 +28,14 @@ FULL = {
                 "max_lag": 100, "batch_n": 120, "batch_lag": 24},
     "throughput": {"n": 120, "seconds": 10, "connections": 16},
     "long": {"n": 1_000_000, "max_lag": 100},
+    "mixed": {"m": 2_000, "shortest": 100, "longest": 1_000},
 }
 QUICK = {
     "batch": {"m": 60, "n": 120, "max_lag": 24, "period": 12, "default_loop_rows": 10},
     "scaling": {"lengths": [1_000, 4_000], "batch_sizes": [10, 40], "max_lag": 100, "batch_n": 120, "batch_lag": 24},
     "throughput": {"n": 120, "seconds": 1, "connections": 2},
     "long": {"n": 5_000, "max_lag": 100},
+    "mixed": {"m": 20, "shortest": 100, "longest": 300},
 }
 
 
@@ -57,6 +59,8 @@ def measure(sizes: dict, repeats: int, tool: str, log=print, only: set[str] | No
             log("5. scaling with length and batch size")
             results["scaling"] = engine_bench.measure_scaling(s["lengths"], s["batch_sizes"], s["max_lag"],
                                                               s["batch_n"], s["batch_lag"], repeats)
+            mx = sizes["mixed"]
+            results["scaling"]["mixed"] = engine_bench.measure_mixed(mx["m"], mx["shortest"], mx["longest"], repeats)
     if wanted & {"2", "3", "4"}:
         with Server(workers=2) as server:
             if "2" in wanted:
