@@ -194,9 +194,12 @@ DIRECT_BODIES = [
      "band": "bartlett", "p_values": "monte_carlo", "replicates": 199, "seed": 5, "missing": "pairwise"},
     {"values": [1, None, 3, 4], "missing": "interpolate", "transform": {"log": True, "difference": 1}},
     {"values": [1, 2, 3, 4], "transform": None},
+    {"values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02", "2024-01-03"]},
 ]
 SCHEMA_ONLY_BODIES = [
-    {"values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02", "2024-01-03"]},
+    {"values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02"]},  # the schema-level length rule
+    {"values": [1, 2, 3], "timestamps": ["2024-01-01", None, "2024-01-03"]},
+    {"values": [1, 2, 3], "timestamps": ["2024-01-01", "2024-01-02", "2" * 65]},
     {"values": [1, 2, 3], "tests": ["runs", "runs"]},
     {"values": [1, 2, 3], "colour": "red"},
     {"values": [1, 2, "3"]},
@@ -212,10 +215,10 @@ SCHEMA_ONLY_BODIES = [
 
 @pytest.mark.parametrize("body", DIRECT_BODIES + SCHEMA_ONLY_BODIES)
 def test_direct_load_agrees_with_the_schema(body):
-    from lagsight.schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
+    from lagsight.schema import DIRECT_CHECKS, DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
 
     schema = DiagnosticsRequest()
-    assert_direct_load_agrees(schema, DirectLoad(schema, DIRECT_FIELDS), body, body in DIRECT_BODIES)
+    assert_direct_load_agrees(schema, DirectLoad(schema, DIRECT_FIELDS, DIRECT_CHECKS), body, body in DIRECT_BODIES)
 
 
 def test_direct_load_refuses_names_that_are_not_fields():

@@ -133,6 +133,29 @@ class TransformFields(Schema):
     detrend = fields.String(load_default=None, allow_none=True, validate=validate.OneOf(options.DETREND_KINDS))
 
 
+MAX_STAMP_LENGTH = 64
+
+
+class StampList(fields.List):
+    """``fields.List(fields.String(1 to 64 characters))`` that takes a list of such strings in one
+    pass; anything else goes through the List's own item by item load, for its usual errors (a
+    batch of series with 120 stamps each spent about 0.3 ms per series in that load)."""
+
+    def __init__(self, **kwargs):
+        super().__init__(fields.String(validate=validate.Length(min=1, max=MAX_STAMP_LENGTH)), **kwargs)
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if type(value) is list and all(type(s) is str and 0 < len(s) <= MAX_STAMP_LENGTH for s in value):
+            return list(value)
+        return super()._deserialize(value, attr, data, **kwargs)
+
+
+def stamps_match_values(data: dict) -> bool:
+    """The one schema-level rule of a series: as many timestamps as values (when both are there)."""
+    stamps, values = data.get("timestamps"), data.get("values")
+    return stamps is None or values is None or len(stamps) == len(values)
+
+
 class SeriesFields(Schema):
     """The fields that describe one series (shared by the single and batch requests)."""
 
@@ -140,7 +163,7 @@ class SeriesFields(Schema):
         unknown = RAISE
 
     values = NumberArray(required=True)
-    timestamps = fields.List(fields.String(validate=validate.Length(min=1, max=64)), load_default=None)
+    timestamps = StampList(load_default=None)
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     name = fields.String(load_default=None, allow_none=True, validate=validate.Length(max=200))
     missing = fields.String(load_default=options.DEFAULT_MISSING, validate=validate.OneOf(options.MISSING_METHODS))
@@ -148,8 +171,8 @@ class SeriesFields(Schema):
 
     @validates_schema
     def _timestamps_match(self, data, **kwargs):
-        stamps, values = data.get("timestamps"), data.get("values")
-        if stamps is not None and values is not None and len(stamps) != len(values):
+        if not stamps_match_values(data):
+            stamps, values = data["timestamps"], data["values"]
             raise ValidationError(
                 f"Must have the same length as values ({len(values)}), got {len(stamps)}.", "timestamps"
             )
@@ -192,14 +215,17 @@ class DirectLoad:
 
     A schema load visits every declared field and runs the schema's hooks whatever the body
     holds, which costs more than validating a 120-point series itself. A body whose keys are
-    all in ``keys`` (fields with no schema-level check) and that holds every required field is
-    loaded field by field with the same fields, so the same conversions and validators, and the
-    same defaults; any other body, and any body a field refuses, goes through the schema's own
-    load, which gives the usual error messages. tests/test_api.py checks that both agree.
+    all in ``keys`` and that holds every required field is loaded field by field with the same
+    fields, so the same conversions and validators, and the same defaults; ``checks`` are the
+    schema-level rules those keys take part in, as functions of the loaded fields that say whether
+    the rule holds. Any other body, any body a field refuses and any that fails a check goes
+    through the schema's own load, which gives the usual error messages. tests/test_api.py and
+    tests/test_batch.py check that both agree.
     """
 
-    def __init__(self, schema: Schema, keys):
+    def __init__(self, schema: Schema, keys, checks=()):
         self.schema = schema
+        self.checks = tuple(checks)
         self.fields = schema.fields
         self.keys = frozenset(keys)
         unknown = self.keys - set(self.fields)
@@ -217,15 +243,18 @@ class DirectLoad:
             try:
                 for key, value in body.items():
                     data[key] = self.fields[key].deserialize(value, key, body)
-                return data
+                if all(check(data) for check in self.checks):
+                    return data
             except ValidationError:
                 pass
         return self.schema.load(body)
 
 
-#: Fields of the single request that no schema-level check reads (timestamps and tests have one).
-DIRECT_FIELDS = ("values", "period", "name", "missing", "transform", "max_lag", "confidence", "model_df", "band",
-                 "p_values", "replicates", "seed")
+#: Fields of the single request loaded directly; timestamps with the check they share with values
+#: (DIRECT_CHECKS); tests keep the schema's load (its schema-level check is not mirrored here).
+DIRECT_FIELDS = ("values", "timestamps", "period", "name", "missing", "transform", "max_lag", "confidence",
+                 "model_df", "band", "p_values", "replicates", "seed")
+DIRECT_CHECKS = (stamps_match_values,)
 
 
 class SeriesId(fields.Field):

@@ -18,7 +18,7 @@ from .. import batch_items, brief
 from ..payload import read_json_object
 from ..pipeline import Plan, gc_paused, plan_for, run_blocks
 from ..problems import FieldError, Problem, flatten_messages
-from ..schema import BATCH_OVERRIDES, SERIES_OVERRIDES, BatchRequest, BatchSeries, DirectLoad
+from ..schema import BATCH_OVERRIDES, DIRECT_CHECKS, SERIES_OVERRIDES, BatchRequest, BatchSeries, DirectLoad
 from ..serialisation import dumps, json_response
 from ..series import PreparedSeries, prepare
 from .diagnostics import load
@@ -70,10 +70,12 @@ def _item_id(item):
 
 #: A series of plain fields (no schema-level checks) is loaded field by field (see schema.DirectLoad):
 #: marshmallow's full load costs about 0.1 ms per series, most of a 10,000-series batch's validation.
-ITEM_LOAD = DirectLoad(_SERIES, ("id", "values", "name", "period", "max_lag", "confidence", "model_df"))
+ITEM_LOAD = DirectLoad(_SERIES, ("id", "values", "timestamps", "name", "period", "max_lag", "confidence", "model_df"),
+                       DIRECT_CHECKS)
 
 
-def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[PreparedSeries, Plan]:
+def _prepare_item(item, shared: dict, cfg, seen: dict, index: int, axes: dict | None = None,
+                  ) -> tuple[PreparedSeries, Plan]:
     """Validate, clean and plan one series; raise a Problem whose pointers start at the body's root
     (under ``/series/<index>``, or at the shared option when a shared value does not fit this series)."""
     prefix = f"/series/{index}"
@@ -94,7 +96,7 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int) -> tuple[Prep
     for key in SERIES_OVERRIDES:  # the series' own fields, as series.prepare reads them
         data[key] = opts[key]
     try:
-        series = prepare(data, cfg["MAX_POINTS"])
+        series = prepare(data, cfg["MAX_POINTS"], axes)
         plan = plan_for(series, opts, cfg)
     except Problem as problem:
         problem.errors = [  # a shared option that does not fit this series keeps its own (top-level) pointer
@@ -126,6 +128,7 @@ def prepare_items(raw: list, shared: dict, cfg, fast: bool = True, booleans: boo
             x, usable = batch_items.bulk_values(raw, members, booleans)
             rows.update(zip(usable, x))
     plans: dict = {}
+    axes: dict = {}  # timestamps -> time axis, shared by the series of this request that send the same stamps
     for i, item in enumerate(raw):
         row = rows.get(i)
         if row is not None:
@@ -135,7 +138,7 @@ def prepare_items(raw: list, shared: dict, cfg, fast: bool = True, booleans: boo
                 where.append((i, item["id"]))
                 continue
         try:
-            prepared.append(_prepare_item(item, shared, cfg, seen, i))
+            prepared.append(_prepare_item(item, shared, cfg, seen, i, axes))
             where.append((i, _item_id(item)))
         except Problem as problem:
             errors.append((i, _error_result(_item_id(item), problem)))

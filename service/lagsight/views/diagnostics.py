@@ -15,14 +15,14 @@ from .. import csv_input, options, query, vega_lite
 from ..payload import media_type, read_json_object
 from ..pipeline import plan_for, run
 from ..problems import Problem, flatten_messages
-from ..schema import DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
+from ..schema import DIRECT_CHECKS, DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
 from ..serialisation import json_response
 from ..serialisation_csv import correlogram_table
 from ..series import prepare
 
 bp = Blueprint("diagnostics", __name__)
 _SCHEMA = DiagnosticsRequest()
-_LOAD = DirectLoad(_SCHEMA, DIRECT_FIELDS)
+_LOAD = DirectLoad(_SCHEMA, DIRECT_FIELDS, DIRECT_CHECKS)
 CSV_TYPES = ("text/csv", "application/csv")
 _ANALYSIS = (*query.ANALYSIS_PARAMS, *query.TRANSFORM_PARAMS)
 _NO_ARGS = ImmutableMultiDict()
