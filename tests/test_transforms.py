@@ -53,6 +53,47 @@ def test_box_cox_estimated_lambda_against_statsmodels_profile_likelihood():
     np.testing.assert_allclose(y, stats.boxcox(x, lmbda=steps[0]["lambda"]), rtol=1e-14)
 
 
+def _positive_reference_series() -> dict[str, np.ndarray]:
+    """Positive series from statsmodels.datasets (macrodata, co2 without its gaps, nile, sunspots + 1, elnino)."""
+    macro = sm.datasets.macrodata.load_pandas().data
+    return {
+        "realgdp": _gdp(),
+        "cpi": macro["cpi"].to_numpy(dtype=float),
+        "unemp": macro["unemp"].to_numpy(dtype=float),
+        "co2": _co2_weekly().dropna().to_numpy(dtype=float),
+        "nile": sm.datasets.nile.load_pandas().data["volume"].to_numpy(dtype=float),
+        "sunspots_plus_1": sm.datasets.sunspots.load_pandas().data["SUNACTIVITY"].to_numpy(dtype=float) + 1.0,
+        "elnino": sm.datasets.elnino.load_pandas().data.iloc[:, 1:].to_numpy(dtype=float).ravel(),
+    }
+
+
+@pytest.mark.parametrize("name", sorted(_positive_reference_series()))
+def test_box_cox_estimated_lambda_against_scipy_boxcox_normmax(name):
+    # Reference: scipy.stats.boxcox_normmax(x, method="mle"), the same likelihood and optimiser run
+    # through scipy's own (slower) evaluation: the lambdas agree to the optimiser's tolerance.
+    import warnings
+
+    x = _positive_reference_series()[name]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        expected = stats.boxcox_normmax(x, method="mle")
+    assert transforms.box_cox_lambda(x) == pytest.approx(expected, rel=1e-6, abs=1e-7)
+
+
+def test_box_cox_estimate_keeps_scipys_constraint_against_overflow():
+    # Reference: scipy.stats.boxcox_normmax, which lowers lambda (with a warning) when the optimum would
+    # send the transformed values past float64's range / 10000; values near 1e100 (invented, as a check).
+    import warnings
+
+    x = 1e100 * (1 + 0.01 * np.random.default_rng(6).standard_normal(60)) ** 3
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        expected = stats.boxcox_normmax(x, method="mle")
+    assert caught, "the case must be one scipy constrains"
+    assert transforms.box_cox_lambda(x) == expected
+    assert np.isfinite(stats.boxcox(x, lmbda=expected)).all()
+
+
 @pytest.mark.parametrize("d,D,m", [(1, 0, None), (2, 0, None), (0, 1, 4), (1, 1, 4), (2, 2, 4), (0, 1, 12)])
 def test_differences_against_statsmodels_diff(d, D, m):
     x = _gdp()
@@ -190,3 +231,16 @@ def test_box_cox_estimate_needs_two_distinct_observed_values(values):
     with pytest.raises(Problem) as caught:
         transforms.apply(np.array(values, dtype=np.float64), {"box_cox": "estimate"}, None)
     assert [e.pointer for e in caught.value.errors] == ["/transform/box_cox"]
+
+
+def test_box_cox_with_an_extreme_estimated_lambda_is_refused_with_its_cause(client):
+    """Values that vary little relative to their level (50 +- 1, 40 points, seeded) get a flat likelihood
+    and an extreme estimated lambda (about -11.9); the transformed values then differ only at rounding
+    level. The 422 points at box_cox and names the lambda, not just "constant"."""
+    values = (50 + np.random.default_rng(5).standard_normal(40)).round(3).tolist()
+    r = client.post(URL, json={"values": values, "transform": {"box_cox": "estimate"}})
+    assert r.status_code == 422, r.get_json()
+    error = r.get_json()["errors"][0]
+    assert error["pointer"] == "/transform/box_cox"
+    assert "lambda -11.85 (estimated)" in error["detail"] and "Send a lambda" in error["detail"]
+    assert client.post(URL, json={"values": values, "transform": {"box_cox": 0}}).status_code == 200

@@ -169,8 +169,14 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
     if observed.min() == observed.max() or (steps and _rounding_only(observed, values_before)):  # not np.ptp: max - min overflows for values near +-1.8e308
         what = " after the transforms" if steps else ""
-        raise invalid("/transform" if steps else "/values",
-                      f"The series is constant{what}; autocorrelation is undefined when there is no variation.")
+        detail = f"The series is constant{what}; autocorrelation is undefined when there is no variation."
+        box_cox = next((step for step in steps if step["step"] == "box_cox"), None)
+        if box_cox is not None and _varies(values_before):
+            raise invalid("/transform/box_cox", detail + f" The Box-Cox transform with lambda {box_cox['lambda']:.4g} "
+                          f"({box_cox['lambda_source']}) left the variation only at rounding level: values that vary "
+                          "little relative to their level can make an estimated lambda extreme. Send a lambda (0 is "
+                          "the log), or leave the Box-Cox transform out.")
+        raise invalid("/transform" if steps else "/values", detail)
     if period is not None and period >= values.size:
         warnings.append(_warning("period_too_long", f"The timestamps suggest a period of {period}, but the series "
                                                     f"has only {values.size} values; no seasonal check was made."))
@@ -184,6 +190,12 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
     transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}
     return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings,
                           labels, missing_block, transform_block)
+
+
+def _varies(before: np.ndarray) -> bool:
+    """The values sent (missing ones aside) are not all equal."""
+    seen = before[~np.isnan(before)]
+    return seen.size > 0 and bool(seen.min() != seen.max())
 
 
 def _rounding_only(after: np.ndarray, before: np.ndarray) -> bool:
