@@ -12,18 +12,18 @@ near 0 no seasonal pattern, near 1 a seasonal pattern that dominates the noise.
 The engine computes it only for series with a seasonal lag outside the band, and
 reports it to 6 decimals.
 
-STL without its robustness iterations (the statsmodels default) is a linear map of
-the series: for a given length n and period the seasonal and remainder components
-are S x and R x for fixed n x n matrices. When at least n series of length n need
-the strength at once (and n <= OPERATOR_MAX_N), S and R are built from n STL fits
-of the unit vectors (cached per n and period) and applied to all the series by one
-matrix product; this agrees with fitting each series to rounding (about 1e-15),
-far below the 6 reported decimals, and replaces thousands of fits in a batch.
-Series that arrive a few at a time (single requests of a common length) are fitted
-one by one until as many rows of that length and period have been fitted as the
-operator costs to build (n fits); then it is built and used from there on. This
-rent-or-buy rule never spends more than twice the cheaper of the two choices made
-with hindsight, and makes repeated requests of one shape cheap.
+The decomposition is :func:`.stl.decompose`, a vectorised implementation of the same STL
+that agrees with statsmodels' to rounding. Without robustness iterations (the default)
+STL is a linear map of the series: for a given length n and period the seasonal and
+remainder components are S x and R x for fixed n x n matrices. When at least n series
+of length n need the strength at once (and n <= OPERATOR_MAX_N), S and R are built by
+decomposing the n unit vectors (cached per n and period) and applied to all the series
+by one matrix product, cheaper than decomposing each series; this agrees with the direct
+decomposition to rounding (about 1e-15), far below the 6 reported decimals. Series that
+arrive a few at a time (single requests of a common length) are decomposed directly until
+as many rows of that length and period have been decomposed as the operator costs to build
+(n rows); then it is built and used from there on. This rent-or-buy rule never spends more
+than twice the cheaper of the two choices made with hindsight.
 
 References
 ----------
@@ -38,16 +38,17 @@ import threading
 from collections import OrderedDict
 
 import numpy as np
-from statsmodels.tsa.seasonal import STL
+
+from . import stl
 
 #: Longest series for which the linear STL operator (two n x n matrices) is built.
 OPERATOR_MAX_N = 1000
-#: Longest series for which rows fitted one by one count towards building the operator
+#: Longest series for which rows decomposed directly count towards building the operator
 #: (two matrices of at most 2 x 400 x 400 x 8 bytes = 2.5 MB per cached shape).
 RENT_MAX_N = 400
 DECIMALS = 6
 
-#: Rows fitted one by one so far, per (n, period) below RENT_MAX_N (bounded: cleared when full).
+#: Rows decomposed directly so far, per (n, period) below RENT_MAX_N (bounded: cleared when full).
 _fitted_rows: dict[tuple[int, int], int] = {}
 _FITTED_KEYS_MAX = 256
 
@@ -61,10 +62,8 @@ def _scaled(x: np.ndarray) -> np.ndarray:
 def _stl_operator(n: int, period: int) -> tuple[np.ndarray, np.ndarray]:
     """Matrices S, R with seasonal = x @ S and remainder = x @ R for every series x of length n."""
     eye = np.eye(n)
-    fits = [STL(eye[j], period=period).fit() for j in range(n)]
-    seasonal = np.stack([f.seasonal for f in fits])  # row j: the response to the unit vector e_j
-    remainder = np.stack([f.resid for f in fits])
-    return seasonal, remainder
+    seasonal, trend = stl.decompose(eye, period)  # row j: the response to the unit vector e_j
+    return seasonal, eye - seasonal - trend
 
 
 #: Built operators, least recently used first (at most OPERATORS_KEPT shapes per process).
@@ -129,8 +128,9 @@ def stl_strengths(x: np.ndarray, period: int) -> np.ndarray:
     if ops is not None:
         y = x @ ops
         return _strength(y[:, :n], y[:, n:], centred=True)
-    fits = [STL(row, period=period).fit() for row in x]
-    return _strength(np.stack([f.seasonal + f.resid for f in fits]), np.stack([f.resid for f in fits]))
+    seasonal, trend = stl.decompose(x, period)
+    remainder = x - seasonal - trend
+    return _strength(seasonal + remainder, remainder)
 
 
 def stl_strength(x: np.ndarray, period: int) -> float:

@@ -1,0 +1,168 @@
+"""STL decomposition of many series at once, vectorised over rows.
+
+The decomposition is that of Cleveland et al. (1990) with the settings the seasonal strength
+is documented with (``statsmodels.tsa.seasonal.STL(x, period=p)`` defaults): seasonal window 7,
+trend window the odd integer at or above 1.5 p / (1 - 1.5 / 7), low-pass window the odd
+integer above p, local-linear fits, every point fitted (jumps of 1), no robustness weights,
+five inner passes. Without robustness weights every loess fit is a fixed linear combination
+of the values in its window, whose coefficients depend only on the window and the point's
+place in it; they are computed once per (length, window) and applied to every row with one
+``np.vecdot`` call over sliding windows. A row therefore gets the same arithmetic, and the same
+bits, alone or among others. The results agree with statsmodels' STL to rounding (about
+1e-13 relative; tests/test_engine_reference.py), at a fraction of its cost for long series
+(statsmodels fits each point in a loop: about 0.36 us per point and trend-window value).
+
+References
+----------
+.. [1] Cleveland, R. B., Cleveland, W. S., McRae, J. E. and Terpenning, I. (1990). STL: a
+   seasonal-trend decomposition procedure based on loess. J. Official Statistics 6, 3-73.
+"""
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
+
+SEASONAL_WINDOW = 7
+INNER_PASSES = 5
+
+
+def windows(period: int) -> tuple[int, int]:
+    """(trend, low-pass) windows for a period, as statsmodels' STL chooses them by default."""
+    trend = int(np.ceil(1.5 * period / (1 - 1.5 / SEASONAL_WINDOW)))
+    trend += trend % 2 == 0
+    low_pass = period + 1
+    low_pass += low_pass % 2 == 0
+    return trend, low_pass
+
+
+def _fit_weights(n: int, window: int, xs: np.ndarray, nleft: np.ndarray, width: int) -> tuple[np.ndarray, np.ndarray]:
+    """Local-linear loess coefficients at points ``xs`` (1-based) from the ``width`` values starting at
+    ``nleft`` (1-based) of a series of length n smoothed with window ``window``.
+
+    Returns (coefficients (P, width), undefined (P,)): undefined where every tricube weight is zero
+    (the caller substitutes a value, as the original routine does).
+    """
+    xs = xs.astype(np.float64)
+    left = nleft.astype(np.float64)
+    pos = left[:, None] + np.arange(width, dtype=np.float64)[None, :]
+    h = np.maximum(xs - left, left + width - 1 - xs)
+    if window > n:
+        h = h + (window - n) // 2
+    r = np.abs(pos - xs[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tricube = (1.0 - (r / h[:, None]) ** 3) ** 3
+    w = np.where(r <= 0.001 * h[:, None], 1.0, np.where(r <= 0.999 * h[:, None], tricube, 0.0))
+    total = w.sum(axis=1)
+    undefined = total <= 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = w / total[:, None]
+        centre = (w * pos).sum(axis=1)
+        spread = (w * (pos - centre[:, None]) ** 2).sum(axis=1)
+        slope = (xs - centre) / spread
+        linear = (h > 0) & (np.sqrt(spread) > 0.001 * (n - 1.0))
+        w = np.where(linear[:, None], w * (slope[:, None] * (pos - centre[:, None]) + 1.0), w)
+    return np.where(undefined[:, None], 0.0, w), undefined
+
+
+@lru_cache(maxsize=64)
+def _smoother(n: int, window: int) -> tuple[int, int, np.ndarray]:
+    """Loess of a length-n series with ``window``, every point: (width, head, coefficients (width, width)).
+
+    Row p of the coefficients fits the point at place p of its window. The first ``head`` points use
+    the first window at places 0..head-1, the middle points the window centred on them at place
+    head-1, the last points the last window at places head..width-1.
+    """
+    if window >= n:
+        width, head = n, n
+        xs = np.arange(1, n + 1)
+        coef, undefined = _fit_weights(n, window, xs, np.ones(n, dtype=np.int64), n)
+    else:
+        width, head = window, (window + 2) // 2
+        places = np.arange(window)
+        coef, undefined = _fit_weights(n, window, places + 1, np.ones(window, dtype=np.int64), window)
+        # the middle and last points: same places, their own window (coefficients depend on place only,
+        # apart from the last windows, which are the same first-window shape mirrored by position)
+        tail = np.arange(head, window)
+        coef_tail, undefined_tail = _fit_weights(n, window, n - window + tail + 1,
+                                                 np.full(tail.size, n - window + 1), window)
+        coef[head:], undefined[head:] = coef_tail, undefined_tail
+        middle_x = np.array([head + 1])  # point head+1 has the window starting at 2, place head-1
+        coef_mid, undefined_mid = _fit_weights(n, window, middle_x, np.array([2]), window)
+        coef = np.concatenate([coef, coef_mid])
+        undefined = np.concatenate([undefined, undefined_mid])
+    if undefined.any():  # cannot happen: a point inside its own window has weight 1
+        raise AssertionError("loess weights undefined inside the window")
+    coef.flags.writeable = False
+    return width, head, coef
+
+
+def smooth(y: np.ndarray, window: int) -> np.ndarray:
+    """Loess (local linear, tricube, ``window`` nearest values) of every row of y at every point."""
+    m, n = y.shape
+    if n < 2:
+        return y.copy()
+    width, head, coef = _smoother(n, window)
+    if width == n:
+        return np.vecdot(y[:, None, :], coef[:n])
+    view = sliding_window_view(y, width, axis=1)  # (m, n - width + 1, width), no copy
+    out = np.empty((m, n))
+    out[:, :head] = np.vecdot(view[:, :1, :], coef[:head])
+    out[:, head:head + n - width] = np.vecdot(view[:, 1:, :], coef[width])
+    out[:, head + n - width:] = np.vecdot(view[:, -1:, :], coef[head:width])
+    return out
+
+
+@lru_cache(maxsize=64)
+def _ends(k: int) -> tuple[np.ndarray, bool, np.ndarray, bool]:
+    """Coefficients extrapolating a cycle-subseries of k values one step before and after its ends."""
+    width = min(SEASONAL_WINDOW, k)
+    before, undefined_before = _fit_weights(k, SEASONAL_WINDOW, np.array([0]), np.array([1]), width)
+    after, undefined_after = _fit_weights(k, SEASONAL_WINDOW, np.array([k + 1]),
+                                          np.array([max(1, k - SEASONAL_WINDOW + 1)]), width)
+    return before[0], bool(undefined_before[0]), after[0], bool(undefined_after[0])
+
+
+def _cycle_subseries(y: np.ndarray, period: int) -> np.ndarray:
+    """Each cycle-subseries smoothed and extended by one value at each end: shape (m, n + 2 period)."""
+    m, n = y.shape
+    full = -(-n // period)  # values in the longest subseries
+    padded = np.zeros((m, full * period))
+    padded[:, :n] = y
+    sub = padded.reshape(m, full, period)  # sub[:, i, j] = y[i * period + j]
+    out = np.zeros((m, full + 2, period))
+    longer = n - (full - 1) * period  # subseries 0..longer-1 have `full` values, the others full - 1
+    for k, cols in ((full, slice(0, longer)), (full - 1, slice(longer, period))):
+        if k < 1 or cols.start >= cols.stop:
+            continue
+        z = np.ascontiguousarray(sub[:, :k, cols].transpose(0, 2, 1)).reshape(-1, k)  # one row per subseries
+        fitted = smooth(z, SEASONAL_WINDOW) if k >= 2 else z.copy()
+        before, nan_before, after, nan_after = _ends(k)
+        width = before.size
+        first = fitted[:, 0] if nan_before else np.vecdot(z[:, :width], before)
+        last = fitted[:, -1] if nan_after else np.vecdot(z[:, k - width:], after)
+        block = np.concatenate([first[:, None], fitted, last[:, None]], axis=1)  # (rows, k + 2)
+        out[:, :k + 2, cols] = block.reshape(m, -1, k + 2).transpose(0, 2, 1)
+    return out.reshape(m, -1)[:, : n + 2 * period]
+
+
+def _moving_average(x: np.ndarray, width: int) -> np.ndarray:
+    total = np.concatenate([np.zeros((x.shape[0], 1)), np.cumsum(x, axis=1)], axis=1)
+    return (total[:, width:] - total[:, :-width]) / float(width)
+
+
+def decompose(x: np.ndarray, period: int) -> tuple[np.ndarray, np.ndarray]:
+    """Seasonal and trend components of every row of x (m, n), n >= 2 * period + 1."""
+    x = np.atleast_2d(np.asarray(x, dtype=np.float64))
+    n = x.shape[1]
+    trend_window, low_pass_window = windows(period)
+    trend = np.zeros_like(x)
+    seasonal = trend
+    for _ in range(INNER_PASSES):
+        cycle = _cycle_subseries(x - trend, period)
+        low = _moving_average(_moving_average(_moving_average(cycle, period), period), 3)
+        low = smooth(low, low_pass_window)
+        seasonal = cycle[:, period:period + n] - low
+        trend = smooth(x - seasonal, trend_window)
+    return seasonal, trend
