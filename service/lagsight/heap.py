@@ -35,7 +35,7 @@ def keep_freed_memory(megabytes: int) -> bool:
         return False
     try:
         mallopt = ctypes.CDLL(None).mallopt  # the C library this interpreter already uses
-    except (OSError, AttributeError):
+    except (OSError, AttributeError, TypeError):  # no such C library call here (or no process-wide handle)
         return False
     mallopt.argtypes, mallopt.restype = (ctypes.c_int, ctypes.c_int), ctypes.c_int
     size = megabytes << 20
