@@ -226,3 +226,16 @@ def test_direct_load_refuses_names_that_are_not_fields():
 
     with pytest.raises(ValueError, match="colour"):
         DirectLoad(DiagnosticsRequest(), ("values", "colour"))
+
+
+def test_period_too_long_to_decompose_reports_strength_as_not_computed(client):
+    """Period 1,049 needs an STL trend window of 2,003 values, above the 2,001 decomposed: the strength is
+    null with the reason (the seasonal lags are still checked); 1,048 is decomposed."""
+    n = 2 * 1049 + 50
+    values = (3 * np.sin(2 * np.pi * np.arange(n) / 1049) + np.random.default_rng(4).standard_normal(n)).tolist()
+    body = client.post(URL, json={"values": values, "period": 1049, "max_lag": 1060}).get_json()
+    strength = body["seasonal"]["strength"]
+    assert strength["value"] is None and "2003" in strength["note"] and "2001" in strength["note"]
+    assert body["seasonal"]["lags"][0]["lag"] == 1049 and body["seasonal"]["lags"][0]["outside"]
+    done = client.post(URL, json={"values": values, "period": 1048, "max_lag": 1060}).get_json()
+    assert done["seasonal"]["strength"]["value"] is not None

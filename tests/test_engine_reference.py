@@ -178,3 +178,20 @@ def test_stl_edge_shapes_match_statsmodels_row_by_row(n, period):
         np.testing.assert_allclose(trend[i], fit.trend, rtol=0, atol=1e-11)
         alone = stl.decompose(x[i:i + 1], period)
         assert np.array_equal(alone[0][0], seasonal[i]) and np.array_equal(alone[1][0], trend[i])
+
+
+def test_stl_at_the_longest_supported_window_matches_statsmodels():
+    # Reference: statsmodels' STL at period 1,048, whose trend window (2,001) is the longest decomposed;
+    # the coefficient tables are computed in blocks of rows there.
+    from statsmodels.tsa.seasonal import STL
+
+    from lagsight.engine import stl
+
+    period = 1048
+    assert stl.supports(period) and not stl.supports(period + 1)
+    n = 2 * period + 40
+    x = 5 + np.sin(2 * np.pi * np.arange(n) / period) + 0.3 * np.random.default_rng(9).standard_normal(n)
+    fit = STL(x, period=period).fit()
+    seasonal, trend = stl.decompose(x[None, :], period)
+    np.testing.assert_allclose(seasonal[0], fit.seasonal, rtol=0, atol=1e-11)
+    np.testing.assert_allclose(trend[0], fit.trend, rtol=0, atol=1e-11)

@@ -20,6 +20,7 @@ from . import options
 from .charts import chart_data
 from .charts import seasonal_flags as chart_seasonal_flags
 from .engine.analysis import GroupAnalysis
+from .engine import stl
 from .engine.bands import Band, per_lag_confidence
 from .series import PreparedSeries
 
@@ -183,7 +184,10 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
         "method": "stl",
         "note": None if strength is not None else (
             f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
-            if n < 2 * period + 1 else "Not computed: STL needs a complete series (use missing "
+            if n < 2 * period + 1 else
+            f"Not computed: period {period} needs an STL trend window of {stl.windows(period)[0]} values, above the "
+            f"{stl.MAX_TREND_WINDOW} this service decomposes; the seasonal lags above still show the cycle."
+            if not stl.supports(period) else "Not computed: STL needs a complete series (use missing "
             "\"interpolate\" to get it)." if analysis.n_effective is not None
             else "Not computed: no seasonal lag lies outside the band, so there is no seasonal pattern to "
                  "measure (on noise the STL strength only describes noise)."),

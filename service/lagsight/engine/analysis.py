@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import chdtrc
 
-from . import randomness, seasonality, spectrum, stationarity
+from . import randomness, seasonality, spectrum, stationarity, stl
 from .autocorrelation import autocovariance, center
 from .bands import Band, acf_band, pacf_band
 from .masked import center_observed, masked_acf, masked_portmanteau
@@ -274,7 +274,8 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
         seasonal_flag = np.zeros(m, dtype=bool)
     complete = mask is None
     strength: list = [None] * m
-    if complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1:
+    if (complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1
+            and stl.supports(spec.period)):
         rows = np.flatnonzero(seasonal_flag)
         if rows.size:
             for i, value in zip(rows.tolist(), seasonality.stl_strengths(x[rows], spec.period).tolist()):

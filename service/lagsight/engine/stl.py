@@ -19,6 +19,8 @@ References
 """
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
 from functools import lru_cache
 
 import numpy as np
@@ -26,6 +28,19 @@ from numpy.lib.stride_tricks import sliding_window_view
 
 SEASONAL_WINDOW = 7
 INNER_PASSES = 5
+#: Longest trend window decomposed (periods up to 1,048): a window of w values costs w x w loess
+#: coefficients (32 MB at 2,001) and about w operations per point and pass. Longer periods are not
+#: decomposed; the report says so (statsmodels' loop would take minutes there).
+MAX_TREND_WINDOW = 2001
+#: Loess coefficient tables kept per process, least recently used first, within this many bytes.
+CACHE_BYTES = 96 << 20
+#: Rows of coefficients computed at a time (bounds the temporary arrays of a long window).
+WEIGHT_ROWS = 256
+
+
+def supports(period: int) -> bool:
+    """Whether a period's trend window is within MAX_TREND_WINDOW."""
+    return windows(period)[0] <= MAX_TREND_WINDOW
 
 
 def windows(period: int) -> tuple[int, int]:
@@ -37,7 +52,20 @@ def windows(period: int) -> tuple[int, int]:
     return trend, low_pass
 
 
+#: The longest period decomposed (its trend window is at most MAX_TREND_WINDOW): 1,048.
+MAX_PERIOD = next(p for p in range(MAX_TREND_WINDOW, 1, -1) if windows(p)[0] <= MAX_TREND_WINDOW)
+
+
 def _fit_weights(n: int, window: int, xs: np.ndarray, nleft: np.ndarray, width: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_fit_rows` a block of WEIGHT_ROWS points at a time."""
+    if xs.size <= WEIGHT_ROWS:
+        return _fit_rows(n, window, xs, nleft, width)
+    parts = [_fit_rows(n, window, xs[i:i + WEIGHT_ROWS], nleft[i:i + WEIGHT_ROWS], width)
+             for i in range(0, xs.size, WEIGHT_ROWS)]
+    return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
+
+
+def _fit_rows(n: int, window: int, xs: np.ndarray, nleft: np.ndarray, width: int) -> tuple[np.ndarray, np.ndarray]:
     """Local-linear loess coefficients at points ``xs`` (1-based) from the ``width`` values starting at
     ``nleft`` (1-based) of a series of length n smoothed with window ``window``.
 
@@ -66,8 +94,28 @@ def _fit_weights(n: int, window: int, xs: np.ndarray, nleft: np.ndarray, width: 
     return np.where(undefined[:, None], 0.0, w), undefined
 
 
-@lru_cache(maxsize=64)
+_smoothers: OrderedDict[tuple[int, int], tuple[int, int, np.ndarray]] = OrderedDict()
+_smoothers_lock = threading.Lock()
+
+
 def _smoother(n: int, window: int) -> tuple[int, int, np.ndarray]:
+    """:func:`_build_smoother`, kept in a least-recently-used table of at most CACHE_BYTES."""
+    key = (n, window)
+    with _smoothers_lock:
+        if key in _smoothers:
+            _smoothers.move_to_end(key)
+            return _smoothers[key]
+    built = _build_smoother(n, window)
+    with _smoothers_lock:
+        _smoothers[key] = built
+        while sum(entry[2].nbytes for entry in _smoothers.values()) > CACHE_BYTES and len(_smoothers) > 1:
+            _smoothers.popitem(last=False)
+        if built[2].nbytes > CACHE_BYTES:
+            _smoothers.pop(key, None)
+    return built
+
+
+def _build_smoother(n: int, window: int) -> tuple[int, int, np.ndarray]:
     """Loess of a length-n series with ``window``, every point: (width, head, coefficients (width, width)).
 
     Row p of the coefficients fits the point at place p of its window. The first ``head`` points use
@@ -153,7 +201,9 @@ def _moving_average(x: np.ndarray, width: int) -> np.ndarray:
 
 
 def decompose(x: np.ndarray, period: int) -> tuple[np.ndarray, np.ndarray]:
-    """Seasonal and trend components of every row of x (m, n), n >= 2 * period + 1."""
+    """Seasonal and trend components of every row of x (m, n), n >= 2 * period + 1, supports(period)."""
+    if not supports(period):
+        raise ValueError(f"period {period} needs a trend window above {MAX_TREND_WINDOW} values")
     x = np.atleast_2d(np.asarray(x, dtype=np.float64))
     n = x.shape[1]
     trend_window, low_pass_window = windows(period)

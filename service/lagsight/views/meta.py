@@ -4,6 +4,7 @@ from __future__ import annotations
 from flask import Blueprint, current_app
 
 from .. import __version__, options
+from ..engine import stl
 from ..engine.portmanteau import PORTMANTEAU_TESTS
 from ..interpretation import MEANINGS
 from ..interpretation import __doc__ as DECISION_RULE
@@ -45,7 +46,8 @@ def methods():
             {"name": "ljung_box", "description": "Ljung-Box portmanteau test, Q = n(n+2) sum r_k^2/(n-k), chi-square on lag - model_df df."},
             {"name": "box_pierce", "description": "Box-Pierce portmanteau test, Q = n sum r_k^2, chi-square on lag - model_df df."},
             {"name": "seasonal", "description": "Autocorrelations at the period m and its multiples 2m, 3m within max_lag; "
-                                                "seasonal strength from STL; a suggested period when none is known."},
+                                                f"seasonal strength from STL (periods up to {stl.MAX_PERIOD:,}, series with a "
+                                                "seasonal lag outside the band); a suggested period when none is known."},
             {"name": "periodogram", "description": "Periodogram at the Fourier frequencies and its normalised cumulative sum."},
             {"name": "unit_root", "description": "Augmented Dickey-Fuller test, run when the ACF decays slowly, to back advice to difference."},
         ],
