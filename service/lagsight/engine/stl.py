@@ -116,30 +116,29 @@ def _smoother(n: int, window: int) -> tuple[int, int, np.ndarray]:
 
 
 def _build_smoother(n: int, window: int) -> tuple[int, int, np.ndarray]:
-    """Loess of a length-n series with ``window``, every point: (width, head, coefficients (width, width)).
+    """Loess coefficients of a length-n series smoothed with ``window``: (width, head, coefficients).
 
-    Row p of the coefficients fits the point at place p of its window. The first ``head`` points use
-    the first window at places 0..head-1, the middle points the window centred on them at place
-    head-1, the last points the last window at places head..width-1.
+    When the window covers the series (window >= n), width = head = n and row p of the (n, n)
+    coefficients fits point p from the whole series. Otherwise width = window and the
+    (width + 1, width) coefficients hold: rows 0..head-1, the first ``head`` points from the first
+    window (each at its place in it); rows head..width-1, the last points from the last window;
+    row width, every middle point from the window centred on it (place head-1). As in the original
+    routine, the first and last windows are fitted at their own positions.
     """
     if window >= n:
+        coef, undefined = _fit_weights(n, window, np.arange(1, n + 1), np.ones(n, dtype=np.int64), n)
         width, head = n, n
-        xs = np.arange(1, n + 1)
-        coef, undefined = _fit_weights(n, window, xs, np.ones(n, dtype=np.int64), n)
     else:
         width, head = window, (window + 2) // 2
-        places = np.arange(window)
-        coef, undefined = _fit_weights(n, window, places + 1, np.ones(window, dtype=np.int64), window)
-        # the middle and last points: same places, their own window (coefficients depend on place only,
-        # apart from the last windows, which are the same first-window shape mirrored by position)
-        tail = np.arange(head, window)
-        coef_tail, undefined_tail = _fit_weights(n, window, n - window + tail + 1,
-                                                 np.full(tail.size, n - window + 1), window)
-        coef[head:], undefined[head:] = coef_tail, undefined_tail
-        middle_x = np.array([head + 1])  # point head+1 has the window starting at 2, place head-1
-        coef_mid, undefined_mid = _fit_weights(n, window, middle_x, np.array([2]), window)
-        coef = np.concatenate([coef, coef_mid])
-        undefined = np.concatenate([undefined, undefined_mid])
+        first = np.arange(head)
+        last = np.arange(head, window)
+        parts = [
+            _fit_weights(n, window, first + 1, np.ones(head, dtype=np.int64), window),
+            _fit_weights(n, window, n - window + last + 1, np.full(last.size, n - window + 1), window),
+            _fit_weights(n, window, np.array([head + 1]), np.array([2]), window),  # the window starting at 2
+        ]
+        coef = np.concatenate([part[0] for part in parts])
+        undefined = np.concatenate([part[1] for part in parts])
     if undefined.any():  # cannot happen: a point inside its own window has weight 1
         raise AssertionError("loess weights undefined inside the window")
     coef.flags.writeable = False
