@@ -424,3 +424,23 @@ def test_series_that_share_timestamps_have_them_described_once(client, monkeypat
     body = client.post(URL, json={"series": series}).get_json()
     assert body["summary"]["errors"] == 0 and all(r["frequency"] == "daily" for r in body["results"])
     assert calls == [30, 29]
+
+
+@pytest.mark.parametrize("detail", ["full", "brief"])
+def test_batch_answer_keeps_request_order_across_blocks_and_errors(client, small_blocks, detail):
+    """Results in request order across several engine blocks, with errors first, in the middle and last;
+    the summary counts them; the brief answer's notes follow; the body is plain compact JSON with its
+    length declared."""
+    series = [{"id": "bad-first", "values": [1, 2]}]
+    series += [{"id": f"ok-{k}", "values": _noise(40 + k % 3, 500 + k)} for k in range(12)]
+    series.insert(7, {"id": "bad-middle", "values": [1, "x", 3]})
+    series.append({"id": "bad-last", "values": [4, 4, 4, 4]})
+    r = client.post(URL, json={"series": series, "detail": detail})
+    assert r.status_code == 200
+    answer = orjson.loads(r.data)
+    assert orjson.dumps(answer) == r.data
+    assert [res["id"] for res in answer["results"]] == [s["id"] for s in series]
+    assert answer["summary"]["errors"] == 3 and answer["summary"]["series"] == len(series)
+    assert list(answer) == (["detail", "results", "summary", "cautions", "full_report"] if detail == "brief"
+                            else ["results", "summary"])
+    assert int(r.headers["Content-Length"]) == len(r.data)
