@@ -24,3 +24,25 @@ def test_quick_benchmark_run_writes_every_measurement(tmp_path):
     assert results["throughput"]["median"]["diagnosis"]["rps"] > 0
     assert results["long_memory"]["peak_increase_kib"] is not None
     assert len(report.targets(results)) >= 9
+
+
+@pytest.mark.slow
+def test_engine_free_what_if_serves_the_same_reports_from_its_cache():
+    """benchmarks.ceiling's server caches the engine's result: the diagnosis it serves is the real one,
+    byte for byte, on the first request and on a cached repeat (so its requests/s bound is about the
+    same work minus the engine)."""
+    import orjson
+
+    from benchmarks import ceiling, workloads
+    from benchmarks.http_bench import post
+    from benchmarks.server import Server
+
+    body = orjson.dumps({"values": workloads.batch(3, 120)[0].tolist(), "period": 12})
+    answers = []
+    for app in ("benchmarks.noop_app:app", "benchmarks.engine_free_app:app", "benchmarks.engine_free_app:app"):
+        with Server(workers=1, app=app) as server:
+            answers.append(post(server, "/v1/diagnostics", body))
+            answers.append(post(server, "/v1/diagnostics", body))
+    assert len(set(answers)) == 1
+    result = ceiling.measure(seconds=1, rounds=1, connections=2)
+    assert result["engine"]["diagnosis_rps"] > 0 and result["engine_free"]["diagnosis_rps"] > 0
