@@ -1,7 +1,6 @@
 """The real server: gunicorn on a free loopback port answers a real request."""
 from __future__ import annotations
 
-import os
 import signal
 import socket
 import subprocess
