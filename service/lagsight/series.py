@@ -167,16 +167,10 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
     n = observed.size
     if n < options.MIN_POINTS:
         raise invalid("/values", f"Need at least {options.MIN_POINTS} usable values, got {n}.")
-    if observed.min() == observed.max() or (steps and _rounding_only(observed, values_before)):  # not np.ptp: max - min overflows for values near +-1.8e308
+    if observed.min() == observed.max() or (steps and transforms.rounding_only(observed, values_before)):  # not np.ptp: max - min overflows for values near +-1.8e308
         what = " after the transforms" if steps else ""
-        detail = f"The series is constant{what}; autocorrelation is undefined when there is no variation."
-        box_cox = next((step for step in steps if step["step"] == "box_cox"), None)
-        if box_cox is not None and _varies(values_before):
-            raise invalid("/transform/box_cox", detail + f" The Box-Cox transform with lambda {box_cox['lambda']:.4g} "
-                          f"({box_cox['lambda_source']}) left the variation only at rounding level: values that vary "
-                          "little relative to their level can make an estimated lambda extreme. Send a lambda (0 is "
-                          "the log), or leave the Box-Cox transform out.")
-        raise invalid("/transform" if steps else "/values", detail)
+        raise invalid("/transform" if steps else "/values",
+                      f"The series is constant{what}; autocorrelation is undefined when there is no variation.")
     if period is not None and period >= values.size:
         warnings.append(_warning("period_too_long", f"The timestamps suggest a period of {period}, but the series "
                                                     f"has only {values.size} values; no seasonal check was made."))
@@ -190,19 +184,6 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
     transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}
     return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings,
                           labels, missing_block, transform_block)
-
-
-def _varies(before: np.ndarray) -> bool:
-    """The values sent (missing ones aside) are not all equal."""
-    seen = before[~np.isnan(before)]
-    return seen.size > 0 and bool(seen.min() != seen.max())
-
-
-def _rounding_only(after: np.ndarray, before: np.ndarray) -> bool:
-    """True when the transformed values vary only at the level of rounding error of the values sent
-    (for example a straight line, differenced): their spread is below 1e-12 of the largest value."""
-    scale = float(np.nanmax(np.abs(before)))
-    return float(after.max()) - float(after.min()) <= 1e-12 * scale
 
 
 def _missing_note(method: str, count: int, dropped: int, filled: int) -> str | None:

@@ -104,6 +104,19 @@ def box_cox_lambda(obs: np.ndarray) -> float:
         return float(stats.boxcox_normmax(obs, method="mle"))
 
 
+def _varies(x: np.ndarray) -> bool:
+    """The observed (non-NaN) values are not all equal."""
+    seen = x[~np.isnan(x)]
+    return seen.size > 0 and bool(seen.min() != seen.max())
+
+
+def rounding_only(after: np.ndarray, before: np.ndarray) -> bool:
+    """True when transformed values vary only at the level of rounding error of the values they came
+    from (for example a straight line, differenced): their spread is below 1e-12 of the largest value."""
+    scale = float(np.nanmax(np.abs(before)))
+    return float(np.nanmax(after)) - float(np.nanmin(after)) <= 1e-12 * scale
+
+
 def _check_finite(x: np.ndarray, what: str, pointer: str) -> None:
     """NaN marks a missing value; an infinity means a step overflowed the float64 range."""
     bad = np.isinf(x)
@@ -155,9 +168,15 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
                 raise invalid(f"{pointer}/box_cox", "Cannot estimate lambda for a constant series or from fewer "
                                                     "than two observed values.")
             lam, source = box_cox_lambda(obs), "estimated"
+        before = x
         with np.errstate(over="ignore"):
             x = special.boxcox(x, lam)
         _check_finite(x, "The Box-Cox transform", f"{pointer}/box_cox")
+        if _varies(before) and rounding_only(x, before):
+            raise invalid(f"{pointer}/box_cox", f"The series is constant after the Box-Cox transform with lambda "
+                          f"{lam:.4g} ({source}): it left the variation only at rounding level, and autocorrelation "
+                          "is undefined without variation. Values that vary little relative to their level can make "
+                          "an estimated lambda extreme. Send a lambda (0 is the log), or leave the Box-Cox transform out.")
         steps.append(_step("box_cox", lambda_=float(lam), lambda_source=source, n_after=_observed(x)))
     d = spec.get("difference") or 0
     for _ in range(d):
