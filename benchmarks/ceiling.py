@@ -1,4 +1,4 @@
-"""What-if for measurement 3: ``python -m benchmarks.ceiling`` (a minute; prints, writes nothing).
+"""What-if for measurement 3: ``python -m benchmarks.ceiling`` (about two minutes; prints, writes nothing).
 
 Serves the single 120-point diagnosis twice, side by side with the no-op route of the same
 server: with the real engine, and with the engine's result cached (``engine_free_app``), so
@@ -8,34 +8,24 @@ the requests/s target. BENCHMARKS.md quotes a run of it.
 from __future__ import annotations
 
 import argparse
-import statistics
 
-import orjson
-
-from . import load, workloads
-from .http_bench import post
+from . import load
+from .http_bench import measure_single_throughput
+from .report import paired
 from .server import Server
 
 
 def measure(seconds: int = 6, rounds: int = 3, connections: int = 16) -> dict:
-    x = workloads.batch(3, 120)
-    body = orjson.dumps({"values": x[0].tolist(), "period": 12})
+    """Measurement 3's rounds (benchmarks.http_bench) on the real server and on the engine-free one."""
     tool = load.available_tool("wrk")
     out = {}
     for label, app in (("engine", "benchmarks.noop_app:app"), ("engine_free", "benchmarks.engine_free_app:app")):
-        rps: dict[str, list[float]] = {"noop": [], "diagnosis": []}
         with Server(workers=2, app=app) as server:
-            post(server, "/v1/diagnostics", body)
-            for _ in range(rounds):
-                for name, path in (("noop", "/bench/noop"), ("diagnosis", "/v1/diagnostics")):
-                    if tool == "wrk":
-                        r = load.wrk(server.base + path, body, seconds, connections, threads=2)
-                    else:
-                        r = load.python_load("127.0.0.1", server.port, path, body, seconds, connections)
-                    rps[name].append(r["rps"])
-        share = statistics.median(d / n for d, n in zip(rps["diagnosis"], rps["noop"]))
-        out[label] = {"noop_rps": statistics.median(rps["noop"]), "diagnosis_rps": statistics.median(rps["diagnosis"]),
-                      "share": share}
+            result = measure_single_throughput(server, 120, seconds, rounds, connections, tool)
+        rps = {name: [r["rps"] for r in rs] for name, rs in result["rounds"].items()}
+        out[label] = {"noop_rps": result["median"]["noop"]["rps"],
+                      "diagnosis_rps": result["median"]["diagnosis"]["rps"],
+                      "share": paired(rps["diagnosis"], rps["noop"])}
     return {"tool": tool, "seconds": seconds, "rounds": rounds, "connections": connections, **out}
 
 

@@ -39,7 +39,7 @@ def test_engine_free_what_if_serves_the_same_reports_from_its_cache():
 
     body = orjson.dumps({"values": workloads.batch(3, 120)[0].tolist(), "period": 12})
     answers = []
-    for app in ("benchmarks.noop_app:app", "benchmarks.engine_free_app:app", "benchmarks.engine_free_app:app"):
+    for app in ("benchmarks.noop_app:app", "benchmarks.engine_free_app:app"):
         with Server(workers=1, app=app) as server:
             answers.append(post(server, "/v1/diagnostics", body))
             answers.append(post(server, "/v1/diagnostics", body))
