@@ -12,8 +12,8 @@ from scipy.special import chdtrc
 
 from lagsight import options
 from lagsight.engine.analysis import analyse
+from lagsight.inputs.series import PreparedSeries
 from lagsight.pipeline import BLOCK_POINTS, plan_for, run
-from lagsight.series import PreparedSeries
 
 from . import timing, workloads
 

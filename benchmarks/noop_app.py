@@ -9,7 +9,7 @@ from __future__ import annotations
 from flask import Blueprint, request
 
 from lagsight import create_app
-from lagsight.serialisation import json_response
+from lagsight.web.responses import json_response
 
 bench = Blueprint("bench", __name__)
 

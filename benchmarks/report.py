@@ -199,7 +199,7 @@ def render(r: dict, previous: str = "") -> str:
     out += [
         "## 2. The same batch through HTTP",
         "",
-        f"gunicorn with the service's own settings (`lagsight.gunicorn_conf`, 2 sync workers, preloaded) on 127.0.0.1;"
+        f"gunicorn with the service's own settings (`lagsight.serving.gunicorn_conf`, 2 sync workers, preloaded) on 127.0.0.1;"
         f" the client encodes the body with orjson ({h['request_bytes'] / 2**20:.1f} MiB), posts it, reads and decodes"
         " the whole answer. The cases run side by side in each round. `detail: \"full\"` (the default) answers each"
         " series' whole report: correlogram and partial correlogram with bands, periodogram, chart data, sentences,"

@@ -14,7 +14,8 @@ from pathlib import Path
 
 from threadpoolctl import threadpool_limits
 
-from lagsight import config, heap
+from lagsight import config
+from lagsight.serving import heap
 
 from . import engine_bench, http_bench, load, machine, workloads
 from .report import render
@@ -46,7 +47,7 @@ def measure(sizes: dict, repeats: int, tool: str, log=print, only: set[str] | No
     results: dict = {"machine": machine.describe(), "repeats": repeats, "load_tool": tool}
     b = sizes["batch"]
     # In-process measurements run as every service worker does (gunicorn_conf): one BLAS thread, and
-    # freed array memory kept for reuse (lagsight.heap; it applies to every case alike).
+    # freed array memory kept for reuse (lagsight.serving.heap; it applies to every case alike).
     keep = config.load()["HEAP_KEEP_MB"]
     results["heap_keep_mb"] = keep if heap.keep_freed_memory(keep) else 0
     with threadpool_limits(1):

@@ -21,7 +21,7 @@ def free_port() -> int:
 
 
 class Server:
-    """gunicorn -c python:lagsight.gunicorn_conf <app> (default benchmarks.noop_app:app) on 127.0.0.1,
+    """gunicorn -c python:lagsight.serving.gunicorn_conf <app> (default benchmarks.noop_app:app) on 127.0.0.1,
     bounded start-up wait."""
 
     def __init__(self, workers: int = 2, timeout: int = 300, app: str = "benchmarks.noop_app:app"):
@@ -38,7 +38,7 @@ class Server:
                    PYTHONPATH=os.pathsep.join(filter(None, [str(ROOT), os.environ.get("PYTHONPATH")])))
         env.pop("PROMETHEUS_MULTIPROC_DIR", None)
         self.proc = subprocess.Popen(
-            [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", self.app],
+            [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.serving.gunicorn_conf", self.app],
             stdout=subprocess.DEVNULL, stderr=self.log, env=env, cwd=ROOT)
         deadline = time.monotonic() + 60
         while True:

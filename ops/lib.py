@@ -77,13 +77,13 @@ def wait_ready(port: int, deadline_s: float = 60.0) -> None:
 
 
 def start_gunicorn(port: int, workers: int, log_path: Path, env: dict | None = None) -> subprocess.Popen:
-    """gunicorn with the production config file (lagsight.gunicorn_conf) on 127.0.0.1:port, in its own process group."""
+    """gunicorn with the production config file (lagsight.serving.gunicorn_conf) on 127.0.0.1:port, in its own process group."""
     environ = {**os.environ, "LAGSIGHT_HOST": LOOPBACK, "LAGSIGHT_PORT": str(port), "LAGSIGHT_WORKERS": str(workers),
                **(env or {})}
     environ.pop("PROMETHEUS_MULTIPROC_DIR", None)
     log = open(log_path, "ab")
     proc = subprocess.Popen(
-        [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"],
+        [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.serving.gunicorn_conf", "lagsight.serving.wsgi:app"],
         stdout=log, stderr=log, env=environ, start_new_session=True,
     )
     log.close()

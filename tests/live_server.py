@@ -56,7 +56,7 @@ def _serve(cmd: list[str], env: dict, log_path: Path, port: int, probe: str, sta
 def gunicorn(log_path: Path, workers: int = 2, env: dict | None = None, start_timeout: float = 60.0):
     """Start gunicorn on 127.0.0.1:<free port>, wait for /healthz, yield the base URL, stop it with SIGTERM."""
     port = free_port()
-    cmd = [sys.executable, "-m", "gunicorn", "lagsight.wsgi:app", "--bind", f"127.0.0.1:{port}",
+    cmd = [sys.executable, "-m", "gunicorn", "lagsight.serving.wsgi:app", "--bind", f"127.0.0.1:{port}",
            "--workers", str(workers), "--no-control-socket", "--timeout", "60"]
     with _serve(cmd, {**os.environ, **(env or {})}, log_path, port, "/healthz", start_timeout, False) as (base, _):
         yield base
@@ -64,14 +64,14 @@ def gunicorn(log_path: Path, workers: int = 2, env: dict | None = None, start_ti
 
 @contextmanager
 def live_gunicorn(tmp_path: Path, env: dict | None = None, workers: int = 1, start_timeout: float = 60.0):
-    """Like :func:`gunicorn`, but with the production config file (lagsight.gunicorn_conf, LAGSIGHT_* settings),
+    """Like :func:`gunicorn`, but with the production config file (lagsight.serving.gunicorn_conf, LAGSIGHT_* settings),
     ready only when /readyz passes, and failing the test if the server died while it ran."""
     port = free_port()
     environ = {**os.environ, "LAGSIGHT_HOST": "127.0.0.1", "LAGSIGHT_PORT": str(port),
                "LAGSIGHT_WORKERS": str(workers), **(env or {})}
     environ.pop("PROMETHEUS_MULTIPROC_DIR", None)
     log_path = tmp_path / f"gunicorn-{port}.log"
-    cmd = [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.gunicorn_conf", "lagsight.wsgi:app"]
+    cmd = [sys.executable, "-m", "gunicorn", "-c", "python:lagsight.serving.gunicorn_conf", "lagsight.serving.wsgi:app"]
     with _serve(cmd, environ, log_path, port, "/readyz", start_timeout, True) as (base, proc):
         yield base
         assert proc.poll() is None, "gunicorn died during the test:\n" + log_path.read_text(errors="replace")[-3000:]

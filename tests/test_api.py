@@ -166,7 +166,7 @@ def test_not_found_and_method_not_allowed(client):
 
 
 def test_crash_answers_in_problem_shape_without_trace(app, monkeypatch, caplog):
-    import lagsight.views.diagnostics as view
+    import lagsight.web.diagnostics as view
 
     def boom(*a, **k):
         raise RuntimeError("secret internal detail")
@@ -215,14 +215,19 @@ SCHEMA_ONLY_BODIES = [
 
 @pytest.mark.parametrize("body", DIRECT_BODIES + SCHEMA_ONLY_BODIES)
 def test_direct_load_agrees_with_the_schema(body):
-    from lagsight.schema import DIRECT_CHECKS, DIRECT_FIELDS, DiagnosticsRequest, DirectLoad
+    from lagsight.inputs.schema import (
+        DIRECT_CHECKS,
+        DIRECT_FIELDS,
+        DiagnosticsRequest,
+        DirectLoad,
+    )
 
     schema = DiagnosticsRequest()
     assert_direct_load_agrees(schema, DirectLoad(schema, DIRECT_FIELDS, DIRECT_CHECKS), body, body in DIRECT_BODIES)
 
 
 def test_direct_load_refuses_names_that_are_not_fields():
-    from lagsight.schema import DiagnosticsRequest, DirectLoad
+    from lagsight.inputs.schema import DiagnosticsRequest, DirectLoad
 
     with pytest.raises(ValueError, match="colour"):
         DirectLoad(DiagnosticsRequest(), ("values", "colour"))

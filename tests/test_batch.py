@@ -1,8 +1,8 @@
 """POST /v1/diagnostics/batch: same reports as the single route, per-series errors, limits, streaming."""
 from __future__ import annotations
 
-import orjson
 import numpy as np
+import orjson
 import pytest
 
 from lagsight import create_app, pipeline
@@ -292,12 +292,12 @@ def test_ndjson_is_sent_block_by_block(app, small_blocks):
 
 def test_the_first_ndjson_block_is_sent_before_the_next_is_computed(app, monkeypatch, small_blocks):
     """Nothing between the view and the server (logging, headers) may read the stream ahead."""
-    import lagsight.views.batch as view
+    import lagsight.web.batch as view
 
     real, computed = view.run_blocks, []
 
-    def counting(items, *args):
-        for block in real(items, *args):
+    def counting(items, *args, **kwargs):
+        for block in real(items, *args, **kwargs):
             computed.append(len(block))
             yield block
 
@@ -313,12 +313,12 @@ def test_the_first_ndjson_block_is_sent_before_the_next_is_computed(app, monkeyp
 
 
 def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, small_blocks):
-    import lagsight.views.batch as view
+    import lagsight.web.batch as view
 
     real = view.run_blocks
 
-    def fail_after_first(items, *args):
-        blocks = real(items, *args)
+    def fail_after_first(items, *args, **kwargs):
+        blocks = real(items, *args, **kwargs)
         yield next(blocks)
         raise RuntimeError("secret internal detail")
 
@@ -354,8 +354,8 @@ FULL_ONLY_ITEMS = [
 
 @pytest.mark.parametrize("item", DIRECT_ITEMS + FULL_ONLY_ITEMS)
 def test_direct_item_load_agrees_with_the_schema(item):
-    from lagsight.schema import BatchSeries
-    from lagsight.views.batch import ITEM_LOAD
+    from lagsight.inputs.schema import BatchSeries
+    from lagsight.web.batch import ITEM_LOAD
 
     assert_direct_load_agrees(BatchSeries(), ITEM_LOAD, item, item in DIRECT_ITEMS)
 
@@ -413,7 +413,7 @@ def test_integer_ids_beyond_64_bits_fail_only_their_series(client, big):
 
 def test_series_that_share_timestamps_have_them_described_once(client, monkeypatch):
     """Parsing and describing 120 stamps costs about 1 ms; a batch describes each distinct list once."""
-    from lagsight import timestamps
+    from lagsight.inputs import timestamps
 
     calls = []
     real = timestamps.describe

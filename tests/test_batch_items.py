@@ -1,4 +1,4 @@
-"""The bulk path for plain batch items (lagsight.batch_items) answers exactly as the general path.
+"""The bulk path for plain batch items (lagsight.inputs.batch_items) answers exactly as the general path.
 
 Each batch is posted twice: as it is, and with the bulk path switched off (every item through
 the schema, series.prepare and plan_for one at a time). Results, errors and their pointers must
@@ -10,8 +10,9 @@ import numpy as np
 import orjson
 import pytest
 
-from lagsight import batch_items, create_app
-from lagsight.views import batch as view
+from lagsight import create_app
+from lagsight.inputs import batch_items
+from lagsight.web import batch as view
 
 URL = "/v1/diagnostics/batch"
 

@@ -11,7 +11,7 @@ import orjson
 import pytest
 
 from lagsight import options, pipeline
-from lagsight.brief import FIELDS
+from lagsight.outputs.brief import FIELDS
 
 from .spec_tools import assert_valid
 

@@ -14,8 +14,8 @@ import pytest
 
 from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.bands import acf_band
+from lagsight.inputs.series import PreparedSeries
 from lagsight.pipeline import plan_for, run
-from lagsight.series import PreparedSeries
 
 LIMITS = {"MAX_LAG": 2000, "MAX_REPLICATES": 9999, "MAX_SIMULATED_VALUES": 50_000_000}
 

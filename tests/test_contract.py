@@ -8,8 +8,17 @@ from marshmallow import missing, validate
 from openapi_spec_validator import validate as validate_spec
 
 from lagsight import options
-from lagsight.schema import (BATCH_OVERRIDES, BatchRequest, BatchSeries, DiagnosticsRequest, NumberArray, SeriesId,
-                             StrictFloat, StrictInteger, TransformFields)
+from lagsight.inputs.schema import (
+    BATCH_OVERRIDES,
+    BatchRequest,
+    BatchSeries,
+    DiagnosticsRequest,
+    NumberArray,
+    SeriesId,
+    StrictFloat,
+    StrictInteger,
+    TransformFields,
+)
 
 from .spec_tools import assert_valid, spec
 
@@ -125,7 +134,7 @@ def test_batch_options_read_the_same_as_the_single_route_and_methods(client):
 
 
 def test_detail_option_and_brief_result_read_the_same_in_options_spec_and_methods(client):
-    from lagsight.brief import FIELDS
+    from lagsight.outputs.brief import FIELDS
 
     schemas = spec()["components"]["schemas"]
     detail = schemas["BatchRequest"]["properties"]["detail"]
@@ -185,7 +194,7 @@ def test_reports_match_spec_and_contain_no_nan(client, n, period, model_df):
 
 def test_query_parameters_agree_with_the_spec():
     """The query parameters the diagnostics route takes are the ones documented, with the same enums."""
-    from lagsight import query
+    from lagsight.web import query
 
     paths = spec()["paths"]["/v1/diagnostics"]
     params = spec()["components"]["parameters"]

@@ -9,9 +9,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine import partial, seasonality
+from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.autocorrelation import acf, uses_fft
+
+
 @pytest.mark.parametrize("n, max_lag", [(120, 24), (500, 34), (500, 100), (3000, 200)])
 def test_engine_rows_do_not_depend_on_the_rest_of_the_group(n, max_lag):
     """Every array of a row is bit-identical whether the row is analysed alone or among others

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 
 from lagsight import __version__, config, create_app
-from lagsight.observability import JsonFormatter
+from lagsight.web.observability import JsonFormatter
 
 from .spec_tools import spec
 
@@ -130,9 +130,9 @@ def test_access_log_is_json_with_request_id_and_no_series_values(client, log_lin
 
 
 def test_a_crash_is_a_500_problem_and_its_log_does_not_quote_the_data(client, log_lines, monkeypatch):
-    import lagsight.views.diagnostics as view
+    import lagsight.web.diagnostics as view
 
-    def crash(items):
+    def crash(items, **kwargs):
         raise ValueError("could not use 271828.1828 from the request")
 
     monkeypatch.setattr(view, "run", crash)
@@ -156,7 +156,7 @@ def test_operations_routes_are_in_the_spec():
 
 
 def test_cli_prints_the_settings_table(capsys):
-    from lagsight.cli import main
+    from lagsight.serving.cli import main
 
     main(["settings"])
     assert capsys.readouterr().out == config.markdown_table()
@@ -180,7 +180,7 @@ def test_gunicorn_workers_run_blas_on_one_thread_unless_told_otherwise(tmp_path,
     env["PROMETHEUS_MULTIPROC_DIR"] = str(tmp_path)
     if given is not None:
         env["OPENBLAS_NUM_THREADS"] = given
-    code = ("import lagsight.gunicorn_conf, numpy\n"
+    code = ("import lagsight.serving.gunicorn_conf, numpy\n"
             "from threadpoolctl import threadpool_info\n"
             "print(max(i['num_threads'] for i in threadpool_info() if i['user_api'] == 'blas'))")
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
@@ -196,8 +196,8 @@ def test_gunicorn_master_freezes_the_preloaded_app_before_forking(tmp_path):
     import sys
 
     env = dict(os.environ, PROMETHEUS_MULTIPROC_DIR=str(tmp_path))
-    code = ("import gc, lagsight.gunicorn_conf as conf\n"
-            "from lagsight.wsgi import app\n"
+    code = ("import gc, lagsight.serving.gunicorn_conf as conf\n"
+            "from lagsight.serving.wsgi import app\n"
             "before = any(o is app for o in gc.get_objects())\n"
             "conf.pre_fork(None, None)\n"
             "after = any(o is app for o in gc.get_objects())\n"
@@ -218,7 +218,7 @@ def test_gunicorn_workers_keep_freed_array_memory_for_reuse(tmp_path):
 
     if platform.libc_ver()[0] != "glibc":
         pytest.skip("mallopt thresholds are glibc's")
-    code = ("import resource, numpy as np, lagsight.gunicorn_conf\n"
+    code = ("import resource, numpy as np, lagsight.serving.gunicorn_conf\n"
             "from lagsight.engine.analysis import Spec, analyse\n"
             "x = np.random.default_rng(5).standard_normal((2184, 120))\n"
             "spec = Spec(max_lag=24, confidence=0.95, model_df=0, test_lags=(12, 24), short_lag=24, period=12)\n"

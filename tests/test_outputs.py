@@ -13,7 +13,7 @@ import pandas as pd
 import pytest
 from PIL import Image
 
-from lagsight import charts, style
+from lagsight.outputs import charts, style
 
 from .spec_tools import assert_valid
 

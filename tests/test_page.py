@@ -8,7 +8,7 @@ import pytest
 
 from lagsight import config, create_app
 
-STATIC = Path(__file__).resolve().parents[1] / "service" / "lagsight" / "static"
+STATIC = Path(__file__).resolve().parents[1] / "service" / "lagsight" / "web" / "static"
 
 
 def _csp(response) -> dict[str, str]:

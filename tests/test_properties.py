@@ -22,8 +22,8 @@ from hypothesis.extra.numpy import arrays
 
 from lagsight import create_app
 from lagsight.engine import acf, pacf, portmanteau
+from lagsight.inputs.timestamps import describe
 from lagsight.problems import Problem
-from lagsight.timestamps import describe
 
 SETTINGS = settings(max_examples=200, deadline=None, derandomize=True, database=None,
                     suppress_health_check=[HealthCheck.too_slow])

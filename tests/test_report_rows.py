@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from lagsight.engine.bands import Band
-from lagsight.report import _SMALL_ARRAY, _Correlograms, _finite_rows, _rows
+from lagsight.outputs.report import _SMALL_ARRAY, _Correlograms, _finite_rows, _rows
 
 
 def _band(centre: np.ndarray, se: np.ndarray) -> Band:

@@ -4,7 +4,7 @@ from __future__ import annotations
 import pytest
 
 from lagsight import create_app
-from lagsight.security import frame_policy, read_tokens, token_matches
+from lagsight.web.security import frame_policy, read_tokens, token_matches
 
 from .spec_tools import assert_valid
 
@@ -141,7 +141,7 @@ def _operations():
 
 def test_spec_says_which_operations_need_a_token():
     """Public operations declare security: [] and the others document the 401 they answer without a token."""
-    from lagsight.security import PUBLIC_PATHS
+    from lagsight.web.security import PUBLIC_PATHS
 
     for path, method, op in _operations():
         if path in PUBLIC_PATHS:
@@ -151,7 +151,7 @@ def test_spec_says_which_operations_need_a_token():
 
 
 def test_every_protected_operation_answers_401_without_a_token(locked):
-    from lagsight.security import PUBLIC_PATHS
+    from lagsight.web.security import PUBLIC_PATHS
 
     for path, method, _ in _operations():
         r = locked.open(path, method=method.upper(), json={"values": [1, 3, 2, 5]} if method == "post" else None)

@@ -22,7 +22,7 @@ def test_gunicorn_serves_a_diagnosis(tmp_path):
     port = _free_port()
     log = open(tmp_path / "gunicorn.log", "wb")
     proc = subprocess.Popen(
-        [sys.executable, "-m", "gunicorn", "lagsight.wsgi:app", "--bind", f"127.0.0.1:{port}",
+        [sys.executable, "-m", "gunicorn", "lagsight.serving.wsgi:app", "--bind", f"127.0.0.1:{port}",
          "--workers", "1", "--no-control-socket"],
         stdout=subprocess.DEVNULL, stderr=log,
     )

@@ -6,7 +6,7 @@ import socket
 import orjson
 import pytest
 
-from lagsight.server_errors import problem_bytes
+from lagsight.serving.server_errors import problem_bytes
 
 from .live_server import live_gunicorn
 from .spec_tools import assert_valid

@@ -11,7 +11,7 @@ from statsmodels.tsa.statespace.tools import diff as sm_diff
 from statsmodels.tsa.stattools import acf as sm_acf
 from statsmodels.tsa.tsatools import detrend as sm_detrend
 
-from lagsight import transforms
+from lagsight.inputs import transforms
 
 from .spec_tools import assert_valid
 

@@ -1,4 +1,4 @@
-"""gunicorn sends a response's header and single-piece body in one write (lagsight.whole_response).
+"""gunicorn sends a response's header and single-piece body in one write (lagsight.serving.whole_response).
 
 A worker killed between two writes would leave a proxy with a forwarded header and
 no body; with one write there is nothing half-sent to forward (ops/failover.py
@@ -11,7 +11,7 @@ from types import SimpleNamespace
 from gunicorn.config import Config
 from gunicorn.http import wsgi
 
-from lagsight import whole_response
+from lagsight.serving import whole_response
 
 
 class RecordingSocket:

@@ -4,8 +4,8 @@ from __future__ import annotations
 import yaml
 from flask import Flask
 
-from . import config as settings
-from . import errors, observability, security
+from lagsight import config as settings
+from lagsight.web import errors, observability, security
 
 
 def load_spec(path: str) -> dict:
@@ -22,7 +22,7 @@ def create_app(config: dict | None = None) -> Flask:
     observability.init_app(app)  # first: the request id and clock start before anything can fail
     security.init_app(app)
     errors.init_app(app)
-    from .views import batch, diagnostics, meta, operations, page
+    from lagsight.web import batch, diagnostics, meta, operations, page
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(operations.bp)

@@ -11,7 +11,7 @@ import os
 from pathlib import Path
 from typing import Callable, NamedTuple
 
-from . import options
+from lagsight import options
 
 
 def positive_int(raw: str) -> int:

@@ -7,8 +7,8 @@ from __future__ import annotations
 
 import math
 
-from .engine.analysis import TEST_NAMES as _TEST_NAMES
-from .engine.bands import BAND_KINDS as _BAND_KINDS
+from lagsight.engine.analysis import TEST_NAMES as _TEST_NAMES
+from lagsight.engine.bands import BAND_KINDS as _BAND_KINDS
 
 DEFAULT_CONFIDENCE = 0.95
 DEFAULT_MODEL_DF = 0
@@ -123,7 +123,7 @@ CHART_KINDS = ("correlogram", "pacf", "time_plot", "periodogram", "panel")
 DEFAULT_CHART = "correlogram"
 #: How much of each series' result a batch answers (batch option ``detail``): "full", the whole report of
 #: the single route; "brief", the verdict, the test numbers, the exceedances, the seasonal strength and the
-#: warnings, with the general cautions once for the whole batch (see lagsight.brief).
+#: warnings, with the general cautions once for the whole batch (see lagsight.outputs.brief).
 DETAIL_LEVELS = ("full", "brief")
 DEFAULT_DETAIL = "full"
 #: A spike beyond this many standard errors is "far" outside the band; between the band and it, "marginal".

@@ -1,4 +1,4 @@
-"""The one-way flow for one or many series: series -> engine -> report -> interpretation.
+"""The one-way flow for one or many series: inputs (prepared series) -> engine -> consult -> outputs.
 
 Series that share a length and options are stacked and analysed together as
 one 2-D array; a single request is a batch of one, so both paths run the same code.
@@ -12,19 +12,19 @@ from __future__ import annotations
 import gc
 import secrets
 from collections import defaultdict
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
 
-from . import metrics, options
-from .brief import brief_results
-from .engine.analysis import Spec, analyse
-from .interpretation import interpret
-from .problems import invalid
-from .report import build_reports
-from .series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
+from lagsight import options
+from lagsight.consult.reading import interpret
+from lagsight.engine.analysis import Spec, analyse
+from lagsight.inputs.series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
+from lagsight.outputs.brief import brief_results
+from lagsight.outputs.report import build_reports
+from lagsight.problems import invalid
 
 #: The default tests in report order (as plan_for orders any requested set).
 _DEFAULT_TESTS = tuple(t for t in options.TEST_NAMES if t in options.DEFAULT_TESTS)
@@ -127,11 +127,12 @@ def gc_paused():
 
 
 def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.DEFAULT_DETAIL,
-               ) -> Iterator[list[tuple[int, dict]]]:
+               observe: Callable[[int, int], None] | None = None) -> Iterator[list[tuple[int, dict]]]:
     """Results block by block, as ``(index in items, result)`` pairs, as soon as each block is done.
 
-    ``detail`` "full" gives full reports; "brief" the brief results of :mod:`lagsight.brief`,
-    built from the same engine pass without the report and its sentences.
+    ``detail`` "full" gives full reports; "brief" the brief results of :mod:`lagsight.outputs.brief`,
+    built from the same engine pass without the report and its sentences. ``observe(series, points)``,
+    when given, is called after each engine pass (the web layer counts the work in its metrics).
     """
     for plan, members in blocks(items):
         if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
@@ -140,7 +141,8 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
             x = np.stack([items[i][0].values for i in members])
         mask = ~np.isnan(x) if plan.pairwise else None
         result = analyse(x, plan.spec, mask=mask)
-        metrics.record_analysed(len(members), plan.n * len(members))
+        if observe is not None:
+            observe(len(members), plan.n * len(members))
         with gc_paused():
             if detail == "brief":
                 done = list(zip(members, brief_results([items[i][0] for i in members], result)))
@@ -150,10 +152,10 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
         yield done
 
 
-def run(items: list[tuple[PreparedSeries, Plan]]) -> list[dict]:
+def run(items: list[tuple[PreparedSeries, Plan]], observe: Callable[[int, int], None] | None = None) -> list[dict]:
     """Reports for prepared series, in the order given."""
     reports: list[dict | None] = [None] * len(items)
-    for block in run_blocks(items):
+    for block in run_blocks(items, observe=observe):
         for i, report in block:
             reports[i] = report
     return reports

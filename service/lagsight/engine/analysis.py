@@ -11,12 +11,12 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import chdtrc
 
-from . import randomness, seasonality, spectrum, stationarity, stl
-from .autocorrelation import autocovariance, center
-from .bands import Band, acf_band, pacf_band
-from .masked import center_observed, masked_acf, masked_portmanteau
-from .partial import pacf
-from .portmanteau import portmanteau
+from lagsight.engine import randomness, seasonality, spectrum, stationarity, stl
+from lagsight.engine.autocorrelation import autocovariance, center
+from lagsight.engine.bands import Band, acf_band, pacf_band
+from lagsight.engine.masked import center_observed, masked_acf, masked_portmanteau
+from lagsight.engine.partial import pacf
+from lagsight.engine.portmanteau import portmanteau
 
 #: Every test the engine knows, in report order.
 TEST_NAMES = (

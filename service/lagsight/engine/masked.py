@@ -35,8 +35,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.stats import chi2
 
-from .autocorrelation import autocovariance
-from .bands import normal_quantile
+from lagsight.engine.autocorrelation import autocovariance
+from lagsight.engine.bands import normal_quantile
 
 
 def center_observed(x: np.ndarray, mask: np.ndarray) -> np.ndarray:

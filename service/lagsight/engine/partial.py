@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import numpy as np
 
-
 #: Below this many (series x lags) the plain-float recursion is cheaper than NumPy calls: its
 #: cost grows as series x lags**2 (about 0.1 us per term), NumPy's as the lags (about 13 us of
 #: calls per lag, nearly whatever the number of series); measured on the benchmark machine.

@@ -20,8 +20,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import chdtrc, ndtr
 
-from .autocorrelation import acf
-from .portmanteau import portmanteau
+from lagsight.engine.autocorrelation import acf
+from lagsight.engine.portmanteau import portmanteau
 
 
 def _two_sided(z: np.ndarray) -> np.ndarray:

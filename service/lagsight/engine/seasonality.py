@@ -39,7 +39,7 @@ from collections import OrderedDict
 
 import numpy as np
 
-from . import stl
+from lagsight.engine import stl
 
 #: Longest series for which the linear STL operator (two n x n matrices) is built.
 OPERATOR_MAX_N = 1000

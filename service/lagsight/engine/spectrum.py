@@ -36,16 +36,16 @@ References
 """
 from __future__ import annotations
 
-import numpy as np
-from scipy import fft as sp_fft
 from functools import lru_cache
 
+import numpy as np
+from scipy import fft as sp_fft
 from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 from scipy.stats import kstwo, kstwobign
 
-from . import ks_table
-from .ks_table import EXACT_MAX_POINTS, TABLE_MAX_POINTS
+from lagsight.engine import ks_table
+from lagsight.engine.ks_table import EXACT_MAX_POINTS, TABLE_MAX_POINTS
 
 #: Charts get at most this many periodogram points; longer spectra are averaged in equal blocks.
 CHART_POINTS = 512

@@ -1,0 +1,56 @@
+"""The cautions a report carries: those that always apply, and those its numbers call for."""
+from __future__ import annotations
+
+from lagsight import options
+from lagsight.consult.words import fmt, pct
+
+
+def cautions(report: dict) -> list[str]:
+    """The cautions that always apply, and those this report calls for."""
+    ex = report["exceedances"]
+    out = [
+        "A test that does not reject is not proof of white noise: it only says this sample gives no strong "
+        "evidence of structure at the lags checked.",
+        f"With {report['max_lag']} lags, about {fmt(ex['expected'], 2)} autocorrelations are expected outside a "
+        f"{pct(report['band']['per_lag_confidence'])} band by chance alone; judge single spikes with that in mind. "
+        "The verdict adjusts for this; the per-test reject flags do not.",
+    ]
+    if report["model_df"] == 0:
+        out.append("If these values are residuals of a fitted ARMA model, set model_df to its number of "
+                   "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
+    elif report["p_values"]["method"] == "monte_carlo":
+        out.append("Monte Carlo p-values simulate an i.i.d. series of the same length; they do not reflect the "
+                   f"estimation of the model's {report['model_df']} parameters, so they err on the large side.")
+    if report["n"] < options.SMALL_SAMPLE_N:
+        out.append(f"The series is short (n = {report['n']}): the bands are large-sample approximations and only "
+                   "rough here, and the tests have little power to detect weak structure.")
+    return out
+
+
+def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool) -> list[str]:
+    """The general cautions of a brief batch answer, said once for all its series.
+
+    ``chance_flags`` is the sum of 1 - confidence over the series analysed: the verdict rule
+    holds each pure-noise series' chance of being called "not white noise" at or below its
+    1 - confidence, so about that many could be flagged by chance if all were white noise.
+    """
+    out = [
+        "A white-noise verdict is not proof of white noise: it says only that the sample gives no strong "
+        "evidence of autocorrelation at the lags checked.",
+        f"Bands and p-values are large-sample (asymptotic) approximations, rough for short series (below n = "
+        f"{options.SMALL_SAMPLE_N} a result with asymptotic p-values carries a short_series warning); p_values "
+        "\"monte_carlo\" gives p-values that hold at any length.",
+        "Multiple testing: each verdict adjusts for the many lags and tests of its own series (the per-test reject "
+        "flags do not), but nothing adjusts across series. Of the "
+        f"{analysed} series analysed here, up to about {_count(chance_flags)} could be called not white noise by chance "
+        "alone at the chosen confidence even if every one were white noise.",
+    ]
+    if any_without_model_df:
+        out.append("If these values are residuals of fitted ARMA models, set model_df to each model's number of "
+                   "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
+    return out
+
+
+def _count(expected: float) -> str:
+    """An expected count for a sentence: whole above 10, one decimal below."""
+    return f"{expected:.0f}" if expected >= 10 else f"{expected:.1f}"

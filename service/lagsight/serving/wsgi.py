@@ -1,0 +1,4 @@
+"""gunicorn entry point: ``gunicorn lagsight.serving.wsgi:app``."""
+from lagsight import create_app
+
+app = create_app()

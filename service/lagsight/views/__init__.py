@@ -1,1 +1,0 @@
-"""HTTP views: one blueprint per module."""
