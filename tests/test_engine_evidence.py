@@ -224,6 +224,16 @@ def test_kpss_p_values_are_clipped_to_the_table():
     assert got.p_value.tolist() == [0.01, 0.10] and got.clipped.tolist() == [True, True]
 
 
+def test_kpss_of_an_exact_line_is_nan_without_warnings():
+    x = np.vstack([2.0 * np.arange(50.0) + 1.0, np.random.default_rng(17).standard_normal(50)])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        for nlags in ("legacy", "auto"):
+            got = kpss_rows(x, "ct", nlags)
+            assert np.isnan(got.statistic[0]) and np.isnan(got.p_value[0]) and not got.clipped[0]
+            assert np.isfinite(got.statistic[1])
+
+
 # ---- trend_slope -----------------------------------------------------------------------------------
 
 @pytest.mark.parametrize("name", sorted(DATASETS))

@@ -210,7 +210,8 @@ def kpss_rows(x: np.ndarray, regression: str = "c", nlags: str = "legacy") -> Kp
         :data:`KPSS_CRIT`), hence confined to [0.01, 0.10]: where ``clipped`` is True the
         statistic lies outside the table and the true p-value is below 0.01 (p_value == 0.01)
         or above 0.10 (p_value == 0.10). statsmodels warns in that case; this function emits
-        no warning, so callers must read ``clipped``.
+        no warning, so callers must read ``clipped``. Where the residuals vanish (an exact line
+        under "ct") the statistic and p-value are NaN.
 
     Notes
     -----
@@ -256,7 +257,8 @@ def kpss_rows(x: np.ndarray, regression: str = "c", nlags: str = "legacy") -> Kp
     j = np.arange(top + 1)
     w = np.where(j[None, :] <= lags[:, None], 1.0 - j[None, :] / (lags[:, None] + 1.0), 0.0)
     w[:, 1:] *= 2.0
-    statistic = eta / np.vecdot(c[:, : top + 1], w)
+    with np.errstate(divide="ignore", invalid="ignore"):  # NaN for residuals that are all zero (an exact line)
+        statistic = eta / np.vecdot(c[:, : top + 1], w)
     p_value = np.interp(statistic, KPSS_CRIT[regression], KPSS_P)
     clipped = (p_value == KPSS_P[0]) | (p_value == KPSS_P[-1])
     return KpssRows(statistic, p_value, lags, clipped)
