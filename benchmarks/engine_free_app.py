@@ -13,10 +13,10 @@ _computed = pipeline.analyse
 _results: dict = {}
 
 
-def _cached(x, spec, mask=None):
-    key = (x.tobytes(), spec, None if mask is None else mask.tobytes())
+def _cached(x, spec, mask=None, filled=None):
+    key = (x.tobytes(), spec, None if mask is None else mask.tobytes(), None if filled is None else filled.tobytes())
     if key not in _results:
-        _results[key] = _computed(x, spec, mask=mask)
+        _results[key] = _computed(x, spec, mask=mask, filled=filled)
     return _results[key]
 
 

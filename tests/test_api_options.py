@@ -108,7 +108,8 @@ def test_verdict_evidence_and_rule_are_in_methods(client):
     assert {t["name"] for t in methods["test_catalogue"]} == set(methods["options"]["tests"]["enum"])
     body = client.post(URL, json={"values": X, "period": 6}).get_json()
     sources = {e["source"] for e in body["verdict"]["evidence"]}
-    assert sources == {"ljung_box", "largest_spike", "seasonal_spike"}
+    assert sources == {"lag_one", "ljung_box_short", "ljung_box_long", "spike", "seasonal_spike", "rank_ljung_box",
+                       "rank_spike"}
     assert body["verdict"]["confidence"] in ("moderate", "weak", "strong")
 
 

@@ -166,8 +166,7 @@ def test_brief_covers_every_verdict_and_null_case(client):
     assert {("Not", "strong"), ("Not", "moderate"), ("Consistent", "weak"), ("Consistent", "moderate"),
             ("No", "none")} <= seen["summaries"]
     assert _clustering_seen(client)
-    assert set(seen["structure"]) == {"autocorrelation", "seasonal", "volatility_clustering", "non_random_order",
-                                      "uneven_spectrum"}
+    assert {"autocorrelation", "seasonal", "volatility_clustering", "unit_root"} <= set(seen["structure"])
     assert {"ljung_box", "box_pierce", "mcleod_li", "cumulative_periodogram"} <= seen["notes"]
 
 
@@ -283,9 +282,11 @@ def test_brief_leaves_out_what_only_the_full_report_reads(client, monkeypatch):
     calls = []
     monkeypatch.setattr(seasonality, "suggest_periods",
                         lambda r, *args: calls.append("suggest_period") or [None] * len(r))
-    monkeypatch.setattr(stationarity, "adf_rows", lambda x: calls.append("adf") or [None] * len(x))
+    monkeypatch.setattr(stationarity, "adf_rows", lambda x: calls.append(len(x)) or [(0.0, 1.0, 0)] * len(x))
     series = [s for s in _series_set() if s["id"] in ("walk", "ar-5", "noise-1", "cycle-4")]
     brief = client.post(URL, json={"series": series, "detail": "brief"})
-    assert brief.status_code == 200 and calls == []
+    # The decision's mechanism check runs the unit-root test only for rows that reject with r1 >= 0.3
+    # (at most the random walk, the AR and the cycle); the report's own unit-root check and the period search do not.
+    assert brief.status_code == 200 and "suggest_period" not in calls and sum(calls) <= 3
     full = client.post(URL, json={"series": series})
-    assert full.status_code == 200 and {"suggest_period", "adf"} <= set(calls)
+    assert full.status_code == 200 and "suggest_period" in calls and len(calls) >= 3  # the report's own ADF too

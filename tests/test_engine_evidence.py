@@ -18,8 +18,15 @@ from statsmodels.tsa.stattools import adfuller, kpss
 
 from lagsight.engine import evidence, trend
 from lagsight.engine.bands import null_mean
-from lagsight.engine.evidence import (arch_lm_rows, average_ranks, outlier_flags, outlier_threshold, rank_acf,
-                                      robust_acf_variance, robust_portmanteau)
+from lagsight.engine.evidence import (
+    arch_lm_rows,
+    average_ranks,
+    outlier_flags,
+    outlier_threshold,
+    rank_acf,
+    robust_acf_variance,
+    robust_portmanteau,
+)
 from lagsight.engine.trend import adf_trend_rows, kpss_rows, mackinnon_p_ct, trend_slope
 
 # Series shipped inside statsmodels (statsmodels.datasets), no download.

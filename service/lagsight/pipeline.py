@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from lagsight import options
+from lagsight.consult.decision import decide_block
 from lagsight.consult.reading import interpret
 from lagsight.engine.analysis import Spec, analyse
 from lagsight.inputs.series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
@@ -40,6 +41,7 @@ class Plan:
     spec: Spec
     length: int = 0  # time-grid length; differs from n when observations are missing
     pairwise: bool = False  # missing observations analysed with the amplitude-modulated estimator
+    filled: bool = False  # interpolated values that the verdict's evidence leaves out
 
 
 def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
@@ -91,7 +93,7 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
         seed=seed,
         report_extras=opts.get("detail", options.DEFAULT_DETAIL) == "full",
     )
-    return Plan(n, spec, series.length, mask is not None)
+    return Plan(n, spec, series.length, mask is not None, series.filled is not None)
 
 
 def blocks(items: list[tuple[PreparedSeries, Plan]]) -> list[tuple[Plan, list[int]]]:
@@ -140,15 +142,19 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
         else:
             x = np.stack([items[i][0].values for i in members])
         mask = ~np.isnan(x) if plan.pairwise else None
-        result = analyse(x, plan.spec, mask=mask)
+        filled = np.stack([items[i][0].filled for i in members]) if plan.filled else None
+        result = analyse(x, plan.spec, mask=mask, filled=filled)
+        block = [items[i][0] for i in members]
+        decisions = decide_block(result, [s.n for s in block], [s.period for s in block],
+                                 [0 if s.filled is None else int(s.filled.sum()) for s in block])
         if observe is not None:
             observe(len(members), plan.n * len(members))
         with gc_paused():
             if detail == "brief":
-                done = list(zip(members, brief_results([items[i][0] for i in members], result)))
+                done = list(zip(members, brief_results(block, result, decisions)))
             else:
-                reports = build_reports([items[i][0] for i in members], result)
-                done = [(i, interpret(report)) for i, report in zip(members, reports)]
+                reports = build_reports(block, result)
+                done = [(i, interpret(report, d)) for i, report, d in zip(members, reports, decisions)]
         yield done
 
 

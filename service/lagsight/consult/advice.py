@@ -1,10 +1,17 @@
-"""Next steps that follow from the verdict and the correlograms, each with its reason."""
+"""Next steps that follow from the decision, each with a stable ``code``, the action and its reason.
+
+Codes (documented in /v1/methods and the OpenAPI file; a spreadsheet macro can branch on them), the most
+important first: check_outliers, undo_difference, remove_trend, difference, seasonal_difference,
+add_seasonal_terms, add_ar_terms, add_ma_terms, add_arma_terms, model_variance, nothing_to_model, then the
+secondary ones: robust_intervals, monte_carlo_p_values, check_cycle, give_period.
+"""
 from __future__ import annotations
 
 from scipy.special import bdtrc
 
 from lagsight import options
-from lagsight.consult.words import fmt, fmt_p, tests_by_name, tests_named
+from lagsight.consult.decision import Decision
+from lagsight.consult.words import and_, fmt, fmt_p, plural
 
 
 def cutoff(block: dict, alpha: float) -> int | None:
@@ -28,75 +35,129 @@ def cutoff(block: dict, alpha: float) -> int | None:
     return q
 
 
-def advice(report: dict, tests: dict[str, list[dict]] | None = None) -> list[dict]:
-    """Next steps that follow from the pattern, each with its reason."""
-    tests = tests_by_name(report) if tests is None else tests
-    out = []
-    v = report["verdict"]
+#: Every advice code, in the order a list of advice follows.
+CODES = ("check_outliers", "undo_difference", "remove_trend", "difference", "seasonal_difference", "add_seasonal_terms",
+         "add_ar_terms", "add_ma_terms", "add_arma_terms", "model_variance", "nothing_to_model", "robust_intervals",
+         "monte_carlo_p_values", "check_cycle", "give_period")
+
+
+def _item(code: str, action: str, reason: str) -> dict:
+    return {"code": code, "action": action, "reason": reason}
+
+
+def _short_term(report: dict, d: Decision) -> dict:
+    p = cutoff(report["pacf"], 1.0 - report["band"]["per_lag_confidence"])
+    q = cutoff(report["acf"], 1.0 - report["band"]["per_lag_confidence"])
+    if p is not None and q is not None:  # both read as cut-offs: prefer the smaller order (parsimony)
+        p, q = (p, None) if p < q else ((None, q) if q < p else (p, q))
+    df = report["model_df"]
+    if p is not None and q is not None:
+        return _item("add_arma_terms", f"Try an AR({p}) and an MA({q}) model and keep the one whose residuals pass "
+                                       "(set model_df to its parameter count).",
+                     f"Both the autocorrelation and the partial autocorrelation stop after lag {p}; the correlograms "
+                     "alone cannot tell the two apart.")
+    if p is not None:
+        return _item("add_ar_terms", f"Add an AR({p}) term (autoregression on the last {plural(p, 'value')}), then "
+                                     f"test the new residuals with model_df = {p + df}.",
+                     f"The partial autocorrelation is outside the band at lag{'s' if p > 1 else ''} "
+                     f"1{'' if p == 1 else ' to ' + str(p)} and not beyond it: the pattern of an AR({p}).")
+    if q is not None:
+        return _item("add_ma_terms", f"Add an MA({q}) term (a moving average of the last {plural(q, 'shock')}), then "
+                                     f"test the new residuals with model_df = {q + df}.",
+                     f"The autocorrelation is outside the band at lag{'s' if q > 1 else ''} "
+                     f"1{'' if q == 1 else ' to ' + str(q)} and not beyond it: the pattern of an MA({q}).")
+    return _item("add_arma_terms", f"Model the remaining short-term dependence (an AR or MA term at the lags that "
+                                   f"stand out, strongest at lag {d.strongest_lag}), then test the new residuals with "
+                                   "model_df set.",
+                 f"The autocorrelation at lag {d.strongest_lag} is {fmt(d.strongest_r, 2)} and the correlograms do not "
+                 "cut off cleanly, so neither a pure AR nor a pure MA pattern is clear.")
+
+
+def _seasonal(report: dict, d: Decision) -> dict:
     s = report["seasonal"]
-    alpha = 1.0 - report["confidence"]
-    seasonal_hits = [e for e in s["lags"] if e["outside"]]
-    if "seasonal" in v["structure"] or seasonal_hits:
-        e = seasonal_hits[0] if seasonal_hits else s["lags"][0]
-        out.append({"action": f"Add a seasonal term (a seasonal AR or MA term at lag {s['period']}) or take a "
-                              f"seasonal difference at period {s['period']}.",
-                    "reason": f"The autocorrelation at seasonal lag {e['lag']} is {fmt(e['value'])}"
-                              + (", outside the band." if e["outside"] else ".")})
-    ur = report["unit_root"]
-    if ur is not None and ur["p_value"] > alpha:
-        out.append({"action": "Difference the series once (or model it in differences) and check again.",
-                    "reason": f"The autocorrelation decays slowly (r1 = {fmt(report['acf']['values'][0])}) and the "
-                              f"augmented Dickey-Fuller test cannot rule out a unit root ({fmt_p(ur['p_value'])})."})
-    elif v["white_noise"] is False and "autocorrelation" in v["structure"]:
-        p = cutoff(report["pacf"], 1.0 - report["band"]["per_lag_confidence"])
-        q = cutoff(report["acf"], 1.0 - report["band"]["per_lag_confidence"])
-        if p is not None and q is not None:  # both read as cut-offs: prefer the smaller order (parsimony)
-            if p < q:
-                q = None
-            elif q < p:
-                p = None
-        if p is not None and q is not None:
-            out.append({"action": f"Try an AR({p}) and an MA({q}) model and keep the one whose residuals pass (set "
-                                  "model_df to its parameter count).",
-                        "reason": f"Both the autocorrelation and the partial autocorrelation stop after lag {p}; the "
-                                  "correlograms alone cannot tell the two apart."})
-        elif p is not None:
-            out.append({"action": f"Add an AR({p}) term (autoregression on the last {p} value{'s' if p > 1 else ''}), "
-                                  f"then test the new residuals with model_df = {p + report['model_df']}.",
-                        "reason": f"The partial autocorrelation is outside the band at lag{'s' if p > 1 else ''} "
-                                  f"1{'' if p == 1 else ' to ' + str(p)} and not beyond it: the pattern of an AR({p})."})
-        elif q is not None:
-            out.append({"action": f"Add an MA({q}) term (a moving average of the last {q} shock{'s' if q > 1 else ''}), "
-                                  f"then test the new residuals with model_df = {q + report['model_df']}; band "
-                                  "'bartlett' shows whether the cut-off holds.",
-                        "reason": f"The autocorrelation is outside the band at lag{'s' if q > 1 else ''} "
-                                  f"1{'' if q == 1 else ' to ' + str(q)} and not beyond it: the pattern of an MA({q})."})
-        else:
-            out.append({"action": "Model the remaining short-term dependence (an AR or MA term at the lags that stand "
-                                  "out), then test the new residuals with model_df set; use band 'bartlett' to judge "
-                                  "where an MA cut-off lies.",
-                        "reason": v["summary"]})
-    if "volatility_clustering" in v["structure"]:
-        t = tests_named(tests, "mcleod_li")[0]
-        out.append({"action": "Model the changing variance (for example an ARCH or GARCH model), or stabilise it "
-                              "with a log or Box-Cox transform if the swings grow with the level.",
-                    "reason": f"The McLeod-Li test on the squared values rejects ({fmt_p(t['p_value'])}): volatility "
-                              "clusters."})
-    if any(t["reject"] for t in tests_named(tests, "jarque_bera")):
-        out.append({"action": "Do not rely on normal-theory prediction intervals; use bootstrap or empirical "
-                              "quantile intervals.",
-                    "reason": "The Jarque-Bera test rejects normality."})
+    m = s["period"]
+    values = {e["lag"]: e["value"] for e in s["lags"]}
+    r_m, r_2m = values.get(m), values.get(2 * m)
+    if r_m is not None and r_2m is not None and r_m >= 0.6 and r_2m >= 0.45:
+        return _item("seasonal_difference", f"Take a seasonal difference at period {m} and check again.",
+                     f"The autocorrelation stays high at the seasonal lags ({fmt(r_m, 2)} at lag {m}, {fmt(r_2m, 2)} at "
+                     f"lag {2 * m}): the seasonal pattern itself wanders.")
+    lag = d.strongest_lag if d.mechanism == "seasonal" else m
+    value = values.get(lag, values.get(m))
+    return _item("add_seasonal_terms", f"Add a seasonal term (a seasonal AR or MA term at lag {m}) and check again.",
+                 f"The autocorrelation at the seasonal lag {lag} is " + (f"{fmt(value, 2)}, " if value is not None else "")
+                 + "beyond what chance gives at that lag.")
+
+
+def advice(report: dict, d: Decision) -> list[dict]:
+    """The advice list: one item per named structure in order of importance, then the secondary items."""
+    tests = _group(report)
+    out = []
+    kinds = d.structure
+    explained = {"trend", "unit_root", "over_differenced"} & set(kinds)
+    for kind in kinds:
+        if kind == "outliers":
+            where = [f"{i} (robust z {fmt(z, 2)})" for i, z in zip(d.outliers[:5], d.outlier_z[:5])]
+            out.append(_item("check_outliers", f"Check the {plural(len(d.outliers), 'value')} at index "
+                                               f"{and_(where)}{' ...' if len(d.outliers) > 5 else ''}: correct a "
+                                               "recording error, or model the event (an intervention term), then "
+                                               "check again.",
+                             "The ordinary and the rank-based autocorrelations disagree: the reading rests on these "
+                             "values."))
+        elif kind == "over_differenced":
+            out.append(_item("undo_difference", "Undo the last difference (model the series one difference lower, "
+                                                "with an MA term if needed) and check again; do not difference again.",
+                             f"The lag-1 autocorrelation is {fmt(d.r1, 2)}: a series differenced once too often "
+                             "has it near -0.5."))
+        elif kind == "trend":
+            c = d.checks
+            out.append(_item("remove_trend", "Remove the trend (fit a straight line in time, or send transform "
+                                             "{\"detrend\": true}) and check what is left; do not difference.",
+                             f"The augmented Dickey-Fuller test with a trend rules out a unit root "
+                             f"({fmt_p(c['adf_trend_p'])}) and the slope is clear (t = {fmt(c['slope_t'], 2)}, "
+                             "Newey-West): the level follows a steady trend."))
+        elif kind == "unit_root":
+            c = d.checks
+            out.append(_item("difference", "Difference the series once (or send transform {\"difference\": 1}) and "
+                                           "check again.",
+                             f"The autocorrelation decays slowly (r1 = {fmt(d.r1, 2)}) and the augmented Dickey-Fuller "
+                             f"tests cannot rule out a unit root (with a constant {fmt_p(c['adf_p'])}; with a trend "
+                             f"{fmt_p(c['adf_trend_p'])})."))
+        elif kind == "seasonal":
+            out.append(_seasonal(report, d))
+        elif kind == "autocorrelation" and not explained:
+            out.append(_short_term(report, d))
+        elif kind == "volatility_clustering":
+            out.append(_item("model_variance", "Model the changing variance (for example an ARCH or GARCH model), or "
+                                               "stabilise it with a log or Box-Cox transform if the swings grow with "
+                                               "the level.",
+                             f"Large and small swings cluster in time (rank test of the magnitudes "
+                             f"{fmt_p(d.volatility_p)}) while the values themselves are uncorrelated."))
+    if d.white_noise and not out:
+        out.append(_item("nothing_to_model", "Nothing further to model in the autocorrelation; keep checking as new "
+                                             "data arrive.",
+                         f"No lag up to {d.max_lag} stands out once the number of checks is allowed for "
+                         f"(adjusted {fmt_p(d.p_value)})."))
+    if any(t["reject"] for t in tests.get("jarque_bera", [])):
+        out.append(_item("robust_intervals", "Do not rely on normal-theory prediction intervals; use bootstrap or "
+                                             "empirical quantile intervals.", "The Jarque-Bera test rejects normality."))
     if report["n"] < options.SMALL_SAMPLE_N and report["p_values"]["method"] == "asymptotic":
-        out.append({"action": "Ask for p_values: \"monte_carlo\" for p-values that hold at this length.",
-                    "reason": f"With n = {report['n']} the chi-square approximations are rough."})
+        out.append(_item("monte_carlo_p_values", "Ask for p_values: \"monte_carlo\" for per-test p-values that hold at "
+                                                 "this length (the verdict already uses a simulated reference).",
+                         f"With n = {report['n']} the chi-square approximations of the individual tests are rough."))
+    s = report["seasonal"]
     if s["period"] is None and s["suggested_period"]:
-        out.append({"action": f"Check whether a cycle of {s['suggested_period']} observations is real and, if so, "
-                              "send it as period.",
-                    "reason": "The autocorrelation and the periodogram both peak there."})
+        out.append(_item("check_cycle", f"Check whether a cycle of {s['suggested_period']} observations is real and, "
+                                        "if so, send it as period.",
+                         "The autocorrelation and the periodogram both peak there."))
     elif s["period"] is None:
-        out.append({"action": "If the data have a natural cycle (7 for daily, 12 for monthly), send it as period.",
-                    "reason": "Without a period no seasonal lag is checked specifically."})
-    if v["white_noise"] is True and not out:
-        out.append({"action": "Nothing further to model in the autocorrelation; keep checking as new data arrive.",
-                    "reason": "No test or spike points to remaining structure at the lags checked."})
+        out.append(_item("give_period", "If the data have a natural cycle (7 for daily, 12 for monthly), send it as "
+                                        "period.", "Without a period no seasonal lag is checked specifically."))
     return out
+
+
+def _group(report: dict) -> dict[str, list[dict]]:
+    grouped: dict[str, list[dict]] = {}
+    for t in report["tests"]:
+        grouped.setdefault(t["name"], []).append(t)
+    return grouped

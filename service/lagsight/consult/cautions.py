@@ -2,19 +2,37 @@
 from __future__ import annotations
 
 from lagsight import options
-from lagsight.consult.words import fmt, pct
+from lagsight.consult.decision import Decision
+from lagsight.consult.words import and_, fmt, pct, plural
 
 
-def cautions(report: dict) -> list[str]:
+def short_series_warning(n: int) -> dict:
+    return {"code": "short_series", "message": (
+        f"n = {n} is below {options.SMALL_SAMPLE_N}: the individual tests' chi-square p-values are approximate (at "
+        "n = 30 the 5% Ljung-Box test rejects about 7% of pure-noise series); the verdict uses a simulated reference "
+        "that holds at this length; for the individual tests consider p_values \"monte_carlo\".")}
+
+
+def cautions(report: dict, decision: Decision) -> list[str]:
     """The cautions that always apply, and those this report calls for."""
     ex = report["exceedances"]
     out = [
         "A test that does not reject is not proof of white noise: it only says this sample gives no strong "
         "evidence of structure at the lags checked.",
-        f"With {report['max_lag']} lags, about {fmt(ex['expected'], 2)} autocorrelations are expected outside a "
-        f"{pct(report['band']['per_lag_confidence'])} band by chance alone; judge single spikes with that in mind. "
-        "The verdict adjusts for this; the per-test reject flags do not.",
+        f"With {report['max_lag']} lags, about {fmt(ex['expected'], 2)} of the autocorrelations are expected outside "
+        f"the {pct(report['band']['per_lag_confidence'])} band drawn, by chance alone; judge single spikes with that "
+        "in mind. The verdict adjusts for the number of lags and checks; the per-test reject flags do not.",
     ]
+    if decision.filled:
+        out.append(f"{plural(decision.filled, 'value')} of this series {'was' if decision.filled == 1 else 'were'} "
+                   "filled by interpolation. The verdict leaves them out (it uses the observed values only); the "
+                   "correlograms and tests shown include them, and straight lines drawn through gaps make "
+                   "neighbouring values look correlated.")
+    if decision.outliers:
+        where = and_([str(i) for i in decision.outliers[:8]]) + (" ..." if len(decision.outliers) > 8 else "")
+        out.append(f"{plural(len(decision.outliers), 'value')} at index {where} "
+                   f"{'lies' if len(decision.outliers) == 1 else 'lie'} far from the rest (median/MAD rule); "
+                   "a single extreme value can hide or fake autocorrelation.")
     if report["model_df"] == 0:
         out.append("If these values are residuals of a fitted ARMA model, set model_df to its number of "
                    "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")

@@ -1,155 +1,229 @@
-"""Verdict, plain-language sentences, advice and cautions, read off a numeric report.
+"""One decision per series: is it white noise, and if not, which mechanism; everything the reading says is
+derived from it.
 
 Decision rule (documented in /v1/methods, the README and the OpenAPI file)
 --------------------------------------------------------------------------
-Let alpha = 1 - confidence. Up to three families of evidence are used, and each
-gets alpha / F, where F is the number of families available (Bonferroni), so
-the chance that an i.i.d. series is called "not white noise" stays at or below
-alpha whatever the number of lags:
-1. portmanteau: the Ljung-Box p-values at the reported lags that have degrees
-   of freedom (Box-Pierce if Ljung-Box was not requested), each compared with
-   alpha / (F L) for L lags;
-2. spikes: the largest |r_k - centre_k| / se_k over lags 1..K, compared with the
-   Sidak-corrected normal quantile for K lags at level alpha / F;
-3. seasonal (when a period is known and reached by max_lag): the largest
-   standardised autocorrelation at the seasonal lags m, 2m, 3m, Sidak-corrected
-   for those lags at level alpha / F.
-The series is judged not white noise when any family rejects; white noise
-(meaning: no evidence against it) when none does and the portmanteau family was
-available; otherwise the verdict is null. Volatility clustering (McLeod-Li at
-level alpha, counted only when no autocorrelation was found, because squares of
-an autocorrelated series are autocorrelated too) and the runs, turning-point and
-cumulative periodogram checks are reported in `verdict.structure` and the
-sentences but do not flip `white_noise`, which is about autocorrelation.
+Let alpha = 1 - confidence. Two channels of evidence (:mod:`lagsight.engine.whiteness`) share alpha
+(weighted Bonferroni), so an i.i.d. series gets any named structure with probability at most alpha:
+
+1. autocorrelation, at level 0.9 alpha: the smallest p-value among the lag-1 autocorrelation, the Ljung-Box-type
+   sums at the short lag h and at max_lag K, the largest spike over lags 1..h (Sidak-corrected), the largest
+   seasonal spike (Sidak-corrected) and the rank autocorrelations, referred to its simulated null distribution (min-p adjustment, Westfall and Young
+   1993). The autocorrelations are standardised with heteroskedasticity-consistent variances (Diebold 1986;
+   Lobato, Nankervis and Savin 2001), so volatility alone is not called autocorrelation. ``white_noise`` is false
+   exactly when this channel rejects.
+2. volatility, at level 0.1 alpha: autocorrelation of the ranks of |x - median|. Named ``volatility_clustering``
+   only when the autocorrelation channel does not reject (the magnitudes of an autocorrelated series are
+   autocorrelated too); the series is then uncorrelated but not independent, and ``white_noise`` stays true.
+
+When the autocorrelation channel rejects, the mechanism is named from these checks, in this order:
+
+- ``over_differenced``: r_1 <= -0.4 (a series differenced once too often has r_1 near -0.5; common practice,
+  no source for the cut-off);
+- ``trend``: r_1 >= 0.3, the ADF test with constant and trend rejects a unit root at alpha and the least-squares
+  slope has a Newey-West |t| >= 3 (a deterministic trend: remove it, do not difference);
+- ``unit_root``: r_1 >= 0.5 and neither ADF test (constant; constant and trend) rejects at alpha (difference);
+- ``outliers``: isolated values beyond the median/MAD threshold, and the ordinary and rank autocorrelations
+  disagree by more than 3 standard errors at some lag up to h (the reading depends on those values);
+- ``seasonal``: the seasonal-spike component alone passes the channel's threshold;
+- ``autocorrelation``: a component other than the seasonal spike passes it (with a period, the lags that are not
+  multiples of it).
+The runs, turning-point and cumulative-periodogram checks are information: they add ``non_random_order`` or
+``uneven_spectrum`` only beside a rejection of the autocorrelation channel, never on their own.
+
+Values that were filled (``missing: "interpolate"``) are left out of the evidence: the channels run on the
+observed values with the amplitude-modulated estimator, so the straight lines drawn through gaps cannot create
+the correlation the verdict rests on.
 """
 from __future__ import annotations
 
-import math
+from dataclasses import dataclass, field
+
+import numpy as np
 
 from lagsight import options
-from lagsight.consult.words import fmt_p, tests_by_name, tests_named
+from lagsight.consult.words import fmt, fmt_p, plural
+from lagsight.engine.mechanism import Mechanism
+from lagsight.engine.whiteness import COMPONENTS, Evidence, raw_threshold, sidak
+
+WEIGHT_AUTOCORRELATION = 0.9
+WEIGHT_VOLATILITY = 0.1
+OVER_DIFFERENCED_R1 = -0.4
+PERSISTENT_R1 = 0.3
+UNIT_ROOT_R1 = 0.5
+TREND_T = 3.0
+RANK_GAP_SE = 3.0
+#: Structure kinds in the order of their importance for the advice.
+KINDS = ("outliers", "over_differenced", "trend", "unit_root", "seasonal", "autocorrelation",
+         "volatility_clustering", "non_random_order", "uneven_spectrum")
+_COMPONENT_LAG = {"lag_one": lambda lay, z: 1, "ljung_box_short": lambda lay, z: lay.short,
+                  "ljung_box_long": lambda lay, z: lay.max_lag,
+                  "spike": lambda lay, z: int(np.argmax(np.abs(z[:lay.short]))) + 1,
+                  "seasonal_spike": lambda lay, z: lay.seasonal[int(np.argmax(np.abs(z[np.asarray(lay.seasonal) - 1])))]
+                  if lay.seasonal else None,
+                  "rank_ljung_box": lambda lay, z: lay.short,
+                  "rank_spike": lambda lay, z: int(np.argmax(np.abs(z[:lay.short]))) + 1}
 
 
-def max_standardised(block: dict, lags: list[int]) -> tuple[float, int]:
-    values, centre, se = block["values"], block["centre"], block["standard_error"]
-    best, where = -1.0, lags[0]
-    if lags is block["lags"]:  # every lag, in order: walk the lists side by side
-        for lag, v, c, s in zip(lags, values, centre, se):
-            z = abs(v - c) / s
-            if z > best:
-                best, where = z, lag
-        return best, where
-    for lag in lags:
-        i = lag - 1
-        z = abs(values[i] - centre[i]) / se[i]
-        if z > best:
-            best, where = z, lag
-    return best, where
+@dataclass
+class Decision:
+    """The one decision about a series; the verdict, sentences, advice and cautions are read off it."""
+
+    n: int
+    alpha: float
+    white_noise: bool | None
+    p_value: float  # the autocorrelation channel's adjusted p-value
+    threshold: float  # its level, 0.9 alpha
+    volatility_p: float
+    volatility_threshold: float
+    tail_p_value: float  # Bonferroni over the spike components: its far tail holds (for batch adjustment)
+    structure: list[str]
+    evidence: list[dict]
+    strongest_lag: int
+    strongest_r: float
+    r1: float
+    period: int | None
+    max_lag: int = 1
+    outliers: list[int] = field(default_factory=list)
+    outlier_z: list[float] = field(default_factory=list)
+    filled: int = 0
+    checks: dict = field(default_factory=dict)  # ADF p-values and the slope's t where computed
+
+    @property
+    def mechanism(self) -> str | None:
+        return self.structure[0] if self.structure else None
+
+    def verdict(self) -> dict:
+        """The report's ``verdict`` object."""
+        if self.white_noise is False:
+            confidence = "strong" if self.p_value < self.threshold / 10 else "moderate"
+        elif self.white_noise is None:
+            confidence = "none"
+        else:
+            confidence = "weak" if self.n < options.SMALL_SAMPLE_N or self.p_value < 4 * self.alpha else "moderate"
+        return {"white_noise": self.white_noise, "summary": summary(self), "p_value": self.p_value,
+                "threshold": self.threshold, "confidence": confidence, "structure": list(self.structure),
+                "evidence": self.evidence,
+                "volatility": {"p_value": self.volatility_p, "threshold": self.volatility_threshold,
+                               "clustering": "volatility_clustering" in self.structure},
+                "tail_p_value": self.tail_p_value, "filled_values_excluded": self.filled}
 
 
-def sidak_p(z: float, count: int) -> float:
-    """Probability that the largest of `count` independent |N(0,1)| exceeds z."""
-    tail = math.erfc(z / math.sqrt(2.0))  # P(|Z| > z)
-    return -math.expm1(count * math.log1p(-tail)) if tail < 1.0 else 1.0
+def _phrase(d: Decision) -> str:
+    k = d.mechanism
+    if k == "over_differenced":
+        return (f"the lag-1 autocorrelation is {fmt(d.r1, 2)}, the mark of a series differenced once too often")
+    if k == "trend":
+        return "the level follows a steady trend, and the test with a trend rules out a unit root"
+    if k == "unit_root":
+        return f"the level wanders, r1 = {fmt(d.r1, 2)}, and a unit root cannot be ruled out"
+    if k == "outliers":
+        return (f"autocorrelation remains that {plural(len(d.outliers), 'extreme value')} partly "
+                f"{'hides' if len(d.outliers) == 1 else 'hide'} or {'fakes' if len(d.outliers) == 1 else 'fake'}")
+    if k == "seasonal":
+        return f"autocorrelation at the seasonal lag {d.strongest_lag} (period {d.period}, r = {fmt(d.strongest_r, 2)})"
+    return f"autocorrelation remains, strongest at lag {d.strongest_lag} (r = {fmt(d.strongest_r, 2)})"
 
 
-#: Verdict summaries; decision_block.py builds the same verdict from arrays and uses these too.
-SUMMARY_UNDETERMINED = ("No judgement: no portmanteau lag has degrees of freedom left after model_df, and no spike "
-                        "stands out; raise max_lag or check model_df.")
+def summary(d: Decision) -> str:
+    """The headline: one sentence, derived from the decision only."""
+    if d.white_noise is None:
+        return (f"No judgement: model_df leaves no degrees of freedom at any portmanteau lag up to {d.max_lag}, and no "
+                "spike stands out; raise max_lag above model_df or check model_df.")
+    if d.white_noise is False:
+        return f"Not white noise: {_phrase(d)} (adjusted {fmt_p(d.p_value)})."
+    if "volatility_clustering" in d.structure:
+        return (f"No significant autocorrelation, but large swings cluster in time (volatility {fmt_p(d.volatility_p)}): "
+                "uncorrelated, yet not independent noise.")
+    few = (f", but with only n = {d.n} values the checks have little power to find structure"
+           if d.n < options.SMALL_SAMPLE_N else "")
+    return (f"Consistent with white noise: no autocorrelation stands out at lags 1 to {d.max_lag} "
+            f"(adjusted {fmt_p(d.p_value)}){few}.")
 
 
-SUMMARY_CLUSTERING = ("No significant autocorrelation, but large swings cluster in time: uncorrelated, yet not "
-                      "independent noise.")
+def _rejects(analysis, name: str, alpha: float) -> np.ndarray:
+    m = analysis.acf.shape[0]
+    hit = np.zeros(m, dtype=bool)
+    for t in analysis.tests:
+        if t.name == name:
+            with np.errstate(invalid="ignore"):
+                hit |= (t.p_value < alpha).any(axis=1)
+    return hit
 
 
-_EVIDENCE_WHAT = {"ljung_box": "the Ljung-Box test up to lag {lag}", "box_pierce": "the Box-Pierce test up to lag {lag}",
-                  "largest_spike": "the spike at lag {lag}", "seasonal_spike": "the seasonal lag {lag}"}
+def decide_block(analysis, ns: list[int], periods: list[int | None], filled: list[int]) -> list[Decision]:
+    """The decision for every row of an engine block (``analysis.evidence`` and ``analysis.mechanism`` set)."""
+    ev: Evidence = analysis.evidence
+    mech: Mechanism = analysis.mechanism
+    lay = ev.layout
+    alpha = 1.0 - analysis.spec.confidence
+    level_a, level_v = WEIGHT_AUTOCORRELATION * alpha, WEIGHT_VOLATILITY * alpha
+    t_star = raw_threshold(ev.simulated_n, lay, level_a)
+    against_a = ev.p_autocorrelation < level_a
+    against_v = ev.p_volatility < level_v
+    order = _rejects(analysis, "runs", alpha) | _rejects(analysis, "turning_points", alpha)
+    uneven = _rejects(analysis, "cumulative_periodogram", alpha)
+    r = analysis.acf
+    # Without a portmanteau lag that has degrees of freedom left after model_df, only a rejection is read.
+    judged = lay.max_lag - analysis.spec.model_df > 0
+    out = []
+    for i in range(r.shape[0]):
+        z, zr, comps = ev.z[i], ev.z_rank[i], ev.components[i]
+        evidence = []
+        for j, name in enumerate(COMPONENTS):
+            if comps[j] >= 1.0 and name in ("ljung_box_long", "seasonal_spike"):
+                continue
+            evidence.append({"source": name, "lag": _COMPONENT_LAG[name](lay, zr if name.startswith("rank") else z),
+                             "p_value": float(comps[j]), "threshold": t_star,
+                             "against_white_noise": bool(comps[j] <= t_star and against_a[i])})
+        k = int(np.argmax(np.abs(z))) + 1
+        structure: list[str] = []
+        r1 = float(r[i, 0])
+        if against_a[i]:
+            structure = _mechanisms(i, z, zr, comps, t_star, r1, lay, periods[i], mech, alpha)
+            structure += [kind for kind, hit in (("non_random_order", order[i]), ("uneven_spectrum", uneven[i])) if hit]
+            if "seasonal" in structure and structure[0] == "seasonal":
+                k = _COMPONENT_LAG["seasonal_spike"](lay, z)
+        elif against_v[i]:
+            structure = ["volatility_clustering"]
+        d = Decision(
+            n=ns[i], alpha=alpha, white_noise=False if against_a[i] else (True if judged else None), p_value=float(ev.p_autocorrelation[i]),
+            threshold=level_a, volatility_p=float(ev.p_volatility[i]), volatility_threshold=level_v,
+            tail_p_value=float(ev.p_spikes[i]), structure=structure, evidence=evidence, strongest_lag=k,
+            strongest_r=float(r[i, k - 1]), r1=r1, period=periods[i], max_lag=lay.max_lag, outliers=mech.outliers[i],
+            outlier_z=mech.outlier_z[i], filled=filled[i],
+            checks={"adf_p": _num(mech.adf_p[i]), "adf_trend_p": _num(mech.adf_trend_p[i]),
+                    "slope_t": _num(mech.slope_t[i])})
+        out.append(d)
+    return out
 
 
-def summary_not_white(source: str, lag: int, p: float) -> str:
-    return f"Not white noise: autocorrelation remains ({_EVIDENCE_WHAT[source].format(lag=lag)}, {fmt_p(p)})."
+def _num(v: float) -> float | None:
+    return None if not np.isfinite(v) else float(v)
 
 
-def summary_white(test_name: str, p: float) -> str:
-    label = "Ljung-Box" if test_name == "ljung_box" else "Box-Pierce"
-    return (f"Consistent with white noise: no significant autocorrelation at the lags checked (smallest "
-            f"{label} {fmt_p(p)}).")
-
-
-def short_series_warning(n: int) -> dict:
-    return {"code": "short_series", "message": (
-        f"n = {n} is below {options.SMALL_SAMPLE_N}: chi-square p-values are approximate (at n = 30 the "
-        "5% Ljung-Box test rejects about 7% of pure-noise series); consider p_values \"monte_carlo\".")}
-
-
-def verdict(report: dict, tests: dict[str, list[dict]] | None = None) -> dict:
-    """The verdict object (see the module docstring for the rule)."""
-    tests = tests_by_name(report) if tests is None else tests
-    alpha = 1.0 - report["confidence"]
-    portmanteau = [t for t in tests_named(tests, "ljung_box") if t["p_value"] is not None] or \
-                  [t for t in tests_named(tests, "box_pierce") if t["p_value"] is not None]
-    seasonal_lags = [e["lag"] for e in report["seasonal"]["lags"]]
-    families = 1 + bool(portmanteau) + bool(seasonal_lags)
-    level = alpha / families
-    evidence = []
-    if portmanteau:
-        threshold = level / len(portmanteau)
-        for t in portmanteau:
-            evidence.append({"source": t["name"], "lag": t["lag"], "p_value": t["p_value"], "threshold": threshold,
-                             "against_white_noise": t["p_value"] < threshold})
-    K = report["max_lag"]
-    z, lag = max_standardised(report["acf"], report["acf"]["lags"])
-    p_spike = sidak_p(z, K)
-    evidence.append({"source": "largest_spike", "lag": lag, "p_value": p_spike, "threshold": level,
-                     "against_white_noise": p_spike < level})
-    if seasonal_lags:
-        zs, slag = max_standardised(report["acf"], seasonal_lags)
-        p_seasonal = sidak_p(zs, len(seasonal_lags))
-        evidence.append({"source": "seasonal_spike", "lag": slag, "p_value": p_seasonal, "threshold": level,
-                         "against_white_noise": p_seasonal < level})
-    against = [e for e in evidence if e["against_white_noise"]]
-    structure = _structure(report, against, alpha, tests)
-    if against:
-        worst = min(against, key=lambda e: e["p_value"] / e["threshold"])
-        strength = "strong" if worst["p_value"] < worst["threshold"] / 10 else "moderate"
-        summary = summary_not_white(worst["source"], worst["lag"], worst["p_value"])
-        return {"white_noise": False, "summary": summary, "evidence": evidence, "confidence": strength,
-                "structure": structure}
-    if not portmanteau:
-        return {"white_noise": None, "summary": SUMMARY_UNDETERMINED, "evidence": evidence,
-                "confidence": "none", "structure": structure}
-    smallest = min(e["p_value"] / e["threshold"] * alpha for e in evidence)  # on the scale of alpha
-    strength = "moderate" if smallest > 4 * alpha and report["n"] >= options.SMALL_SAMPLE_N else "weak"
-    best = min(portmanteau, key=lambda t: t["p_value"])
-    summary = (SUMMARY_CLUSTERING if "volatility_clustering" in structure
-               else summary_white(best["name"], best["p_value"]))
-    return {"white_noise": True, "summary": summary, "evidence": evidence, "confidence": strength,
-            "structure": structure}
-
-
-def _structure(report: dict, against: list[dict], alpha: float, tests: dict[str, list[dict]]) -> list[str]:
+def _mechanisms(i, z, zr, comps, t_star, r1, lay, period, mech: Mechanism, alpha) -> list[str]:
     kinds = []
-    sources = {e["source"] for e in against}
-    if sources & {"ljung_box", "box_pierce", "largest_spike"}:
-        kinds.append("autocorrelation")
-    if "seasonal_spike" in sources:
+    h = lay.short
+    if mech.outliers[i] and np.max(np.abs(z[:h] - zr[:h])) > RANK_GAP_SE:
+        kinds.append("outliers")
+    adf_p, adf_trend_p, slope_t = mech.adf_p[i], mech.adf_trend_p[i], mech.slope_t[i]
+    if r1 <= OVER_DIFFERENCED_R1:
+        kinds.append("over_differenced")
+    elif r1 >= PERSISTENT_R1 and np.isfinite(adf_trend_p):
+        if adf_trend_p <= alpha and abs(slope_t) >= TREND_T:
+            kinds.append("trend")
+        elif r1 >= UNIT_ROOT_R1 and adf_trend_p > alpha and adf_p > alpha:
+            kinds.append("unit_root")
+    seasonal = bool(lay.seasonal) and comps[4] <= t_star
+    if seasonal and "over_differenced" not in kinds:
         kinds.append("seasonal")
-    if any(t["reject"] for t in tests_named(tests, "mcleod_li")) and "autocorrelation" not in kinds:
-        # Squares of an autocorrelated series are autocorrelated too; McLeod-Li speaks of
-        # variance only once the linear dependence is gone.
-        kinds.append("volatility_clustering")
-    if any(t["reject"] for t in tests_named(tests, "runs") + tests_named(tests, "turning_points")):
-        kinds.append("non_random_order")
-    if any(t["reject"] for t in tests_named(tests, "cumulative_periodogram")):
-        kinds.append("uneven_spectrum")
-    return kinds
-
-
-def leftover_seasonality(report: dict, tests: dict[str, list[dict]]) -> bool | None:
-    s = report["seasonal"]
-    if s["period"] is None or not s["lags"]:
-        return None
-    alpha = 1.0 - report["confidence"]
-    seasonal_test = [t for t in tests_named(tests, "seasonal_ljung_box") if t["p_value"] is not None]
-    return bool("seasonal" in report["verdict"]["structure"] or any(t["p_value"] < alpha for t in seasonal_test)
-                and any(e["outside"] for e in s["lags"]))
+    if period and seasonal:
+        lags = [k for k in range(1, h + 1) if k % period]
+        other = min(sidak(np.abs(z[np.asarray(lags) - 1]).max(), len(lags)), comps[0]) if lags else 1.0
+        short_term = other <= t_star
+    else:
+        short_term = bool((np.delete(comps, 4) <= t_star).any())
+    if short_term or not kinds:
+        kinds.append("autocorrelation")
+    return sorted(kinds, key=KINDS.index)

@@ -1,18 +1,20 @@
 """Plain sentences with the numbers in them, read off a report and its verdict."""
 from __future__ import annotations
 
+from lagsight.consult.decision import Decision
 from lagsight.consult.words import (
     and_,
     fmt,
     fmt_p,
     lag_list,
     pct,
+    plural,
     tests_by_name,
     tests_named,
 )
 
 
-def sentences(report: dict, tests: dict[str, list[dict]] | None = None) -> list[str]:
+def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | None = None) -> list[str]:
     """Plain sentences with the numbers in them; none that the numbers do not support."""
     tests = tests_by_name(report) if tests is None else tests
     out = []
@@ -39,23 +41,53 @@ def sentences(report: dict, tests: dict[str, list[dict]] | None = None) -> list[
     alpha = 1.0 - report["confidence"]
     out.extend(_portmanteau_sentences(report, alpha, tests))
     out.extend(_seasonal_sentences(report, tests))
-    for t in tests_named(tests, "mcleod_li"):
-        if t["reject"] and "volatility_clustering" in report["verdict"]["structure"]:
-            out.append(f"Large and small values come in clusters: the McLeod-Li test on the squared values rejects "
-                       f"({fmt_p(t['p_value'])}), a sign of changing variance (volatility clustering).")
-        elif t["reject"]:
-            out.append(f"The McLeod-Li test on the squared values also rejects ({fmt_p(t['p_value'])}), but squares of "
-                       "an autocorrelated series are autocorrelated too: check it again on the residuals once the "
-                       "autocorrelation is modelled.")
+    out.extend(_volatility_sentences(decision, tests))
     out.extend(_randomness_sentences(report, tests))
-    ur = report["unit_root"]
-    if ur is not None:
-        if ur["p_value"] > alpha:
-            out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller test cannot rule out a unit "
-                       f"root ({fmt_p(ur['p_value'])}): the level of the series wanders.")
-        else:
-            out.append(f"The autocorrelation decays slowly, but the augmented Dickey-Fuller test rejects a unit root "
-                       f"({fmt_p(ur['p_value'])}): strong but stationary persistence.")
+    out.extend(_mechanism_sentences(report, decision, alpha))
+    return out
+
+
+def _volatility_sentences(d: Decision, tests: dict[str, list[dict]]) -> list[str]:
+    out = []
+    ml = [t for t in tests_named(tests, "mcleod_li") if t["reject"] is not None]
+    ml_text = f"; the McLeod-Li test on the squared values gives {fmt_p(ml[0]['p_value'])}" if ml else ""
+    if "volatility_clustering" in d.structure:
+        out.append(f"Large and small swings come in clusters: the rank test of the magnitudes rejects "
+                   f"({fmt_p(d.volatility_p)}){ml_text}. The values are uncorrelated, but their variance changes: "
+                   "volatility clustering.")
+    elif d.white_noise is False and (d.volatility_p < d.volatility_threshold or any(t["reject"] for t in ml)):
+        out.append("The magnitudes of the values are autocorrelated too, but magnitudes of an autocorrelated series "
+                   "always are: check for changing variance again on the residuals once the autocorrelation is "
+                   "modelled.")
+    elif any(t["reject"] for t in ml):
+        out.append(f"Taken alone, the McLeod-Li test on the squared values rejects ({fmt_p(ml[0]['p_value'])}); the rank "
+                   f"test of the magnitudes, which holds for heavy tails and is part of the verdict, does not "
+                   f"({fmt_p(d.volatility_p)} against {fmt(d.volatility_threshold, 2)}), so no volatility clustering "
+                   "is claimed.")
+    return out
+
+
+def _mechanism_sentences(report: dict, d: Decision, alpha: float) -> list[str]:
+    c = d.checks
+    if d.mechanism == "over_differenced":
+        return [f"The lag-1 autocorrelation is {fmt(d.r1, 2)}, close to the -0.5 of a series that was differenced "
+                "once too often."]
+    out = []
+    if "outliers" in d.structure:
+        out.append(f"The rank-based autocorrelations, which extreme values cannot move much, differ from the ordinary "
+                   f"ones by more than 3 standard errors: {plural(len(d.outliers), 'extreme value')} "
+                   "change the reading.")
+    if "trend" in d.structure:
+        out.append(f"The augmented Dickey-Fuller test with a trend rules out a unit root ({fmt_p(c['adf_trend_p'])}) "
+                   f"and the slope is clear (t = {fmt(c['slope_t'], 2)}, Newey-West): a steady trend, not a level "
+                   "that wanders.")
+    elif "unit_root" in d.structure:
+        out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller tests cannot rule out a unit "
+                   f"root (with a constant {fmt_p(c['adf_p'])}, with a trend {fmt_p(c['adf_trend_p'])}): the level of "
+                   "the series wanders.")
+    elif c.get("adf_p") is not None and c["adf_p"] <= alpha and d.r1 >= 0.5:
+        out.append(f"The autocorrelation is persistent, but the augmented Dickey-Fuller test rejects a unit root "
+                   f"({fmt_p(c['adf_p'])}): strong but stationary persistence.")
     return out
 
 
@@ -71,9 +103,12 @@ def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dic
     parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {t['df']} degrees of freedom, {fmt_p(t['p_value'])}"
              for t in done]
     rejecting = [str(t["lag"]) for t in done if t["reject"]]
-    verdict = (f"it rejects white noise at the {fmt(alpha * 100, 2)}% level up to lag{'s' if len(rejecting) > 1 else ''} "
-               f"{and_(rejecting)}" if rejecting
+    verdict = (f"taken alone it rejects white noise at the {fmt(alpha * 100, 2)}% level up to "
+               f"lag{'s' if len(rejecting) > 1 else ''} {and_(rejecting)}" if rejecting
                else f"none rejects white noise at the {fmt(alpha * 100, 2)}% level")
+    if rejecting and report["verdict"]["white_noise"]:
+        verdict += (", but once the number of lags and checks is allowed for this is within what chance gives, "
+                    "and the verdict does not count it")
     out.append(f"The Ljung-Box test of the autocorrelations taken together{mc}: {'; '.join(parts)}; {verdict}.")
     return out
 

@@ -57,3 +57,10 @@ def tests_by_name(report: dict) -> dict[str, list[dict]]:
 
 def tests_named(tests: dict[str, list[dict]], name: str) -> list[dict]:
     return tests.get(name) or []
+
+
+def plural(count: int | float, noun: str, plural_form: str | None = None) -> str:
+    """'1 autocorrelation', '2 autocorrelations', '0.5 autocorrelations': the count and the noun agree."""
+    many = plural_form or (noun[:-1] + "ies" if noun.endswith("y") and noun[-2:-1] not in "aeiou" else noun + "s")
+    shown = f"{count:g}" if isinstance(count, float) else str(count)
+    return f"{shown} {noun if count == 1 else many}"

@@ -11,7 +11,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import chdtrc
 
-from lagsight.engine import randomness, seasonality, spectrum, stationarity, stl
+from lagsight.engine import mechanism as mechanism_checks
+from lagsight.engine import randomness, seasonality, spectrum, stationarity, stl, whiteness
 from lagsight.engine.autocorrelation import autocovariance, center
 from lagsight.engine.bands import Band, acf_band, pacf_band
 from lagsight.engine.masked import center_observed, masked_acf, masked_portmanteau
@@ -93,6 +94,8 @@ class GroupAnalysis:
     suggested_period: list  # int or None per row
     unit_root: list  # (stat, p, lags) or None per row
     n_effective: np.ndarray | None = None  # (m, K) per-lag effective sizes when values are missing (masked.py)
+    evidence: whiteness.Evidence | None = None  # the verdict's evidence channels (whiteness.py)
+    mechanism: mechanism_checks.Mechanism | None = None  # what tells one mechanism from another (mechanism.py)
 
     @property
     def max_lag(self) -> int:
@@ -223,7 +226,8 @@ def monte_carlo(observed: list[TestArrays], n: int, spec: Spec) -> None:
         t.method = "monte_carlo"
 
 
-def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupAnalysis:
+def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
+            filled: np.ndarray | None = None) -> GroupAnalysis:
     """Autocorrelations, bands, tests and spectral summaries for rows of x.
 
     Parameters
@@ -238,6 +242,9 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
         per-lag effective sizes n_k is used (see :mod:`.masked`): band standard
         errors scale by sqrt(n / n_k); the periodogram, STL, the unit-root check
         and Monte Carlo p-values need complete series and are left out.
+    filled : ndarray of bool, shape (m, n), optional
+        True where a value was filled in (interpolated). The verdict's evidence leaves those values out
+        (amplitude-modulated estimator on the observed ones); everything else is computed on the filled series.
     """
     x = np.atleast_2d(np.asarray(x, dtype=np.float64))
     m, n = x.shape
@@ -289,7 +296,18 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None) -> GroupA
         if slow.size:
             for i, result in zip(slow.tolist(), stationarity.adf_rows(x[slow])):
                 unit_root[i] = result
+    decision_mask = mask if filled is None else (~filled if mask is None else mask & ~filled)
+    layout = whiteness.Layout(spec.max_lag, spec.short_lag, spec.seasonal_lags)
+    ev = whiteness.evidence(x, layout, spec.model_df, mask=decision_mask)
+    alpha = 1.0 - spec.confidence
+    candidates = ev.p_autocorrelation < alpha
+    if mask is None:
+        persistent = np.flatnonzero(candidates & (r[:, 0] >= 0.3))
+        mech = mechanism_checks.check(x, persistent, np.flatnonzero(candidates))
+    else:
+        mech = mechanism_checks.Mechanism(np.full(m, np.nan), np.full(m, np.nan), np.full(m, np.nan),
+                                          [[] for _ in range(m)], [[] for _ in range(m)])
     return GroupAnalysis(
         n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
-        strength, suggested, unit_root, n_eff,
+        strength, suggested, unit_root, n_eff, ev, mech,
     )

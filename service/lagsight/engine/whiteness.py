@@ -107,7 +107,8 @@ def simulated_length(n: int, max_lag: int) -> int:
 def sidak(z: np.ndarray, count: int) -> np.ndarray:
     """P(the largest of `count` independent |N(0,1)| exceeds z), elementwise."""
     tail = np.clip(2.0 * ndtr(-np.asarray(z, dtype=np.float64)), 0.0, 1.0)
-    return -np.expm1(count * np.log1p(-np.minimum(tail, 1.0 - 1e-300)))
+    with np.errstate(divide="ignore"):
+        return np.where(tail >= 1.0, 1.0, -np.expm1(count * np.log1p(-tail)))
 
 
 def _ranks(x: np.ndarray, mask: np.ndarray | None) -> np.ndarray:
@@ -132,7 +133,13 @@ def _ranks(x: np.ndarray, mask: np.ndarray | None) -> np.ndarray:
 
 
 def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool):
-    """z (m, K) and r (m, K) of the rows; with a mask, the amplitude-modulated estimate."""
+    """z (m, K) and r (m, K) of the rows; with a mask, the amplitude-modulated estimate. Undefined z (a row
+    without variation, a lag without pairs) are 0: no evidence."""
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        return _standardised_rows(x, mask, max_lag, robust)
+
+
+def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool):
     m, n = x.shape
     k = np.arange(1, max_lag + 1)
     if mask is None:
@@ -155,6 +162,11 @@ def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: 
         v = 1.0 / n_eff
         pairs = counts[:, 1:]
         n_obs = mask.sum(axis=1, keepdims=True).astype(np.float64)
+    return _scaled(d, r, v, pairs, n_obs, max_lag, robust), r
+
+
+def _scaled(d, r, v, pairs, n_obs, max_lag, robust) -> np.ndarray:
+    n = d.shape[1]
     if robust:
         s = d * d
         num = autocovariance(s, max_lag)[:, 1:] * n / pairs
@@ -163,11 +175,16 @@ def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: 
         z = r / np.sqrt(v * tau)
     else:
         z = r / np.sqrt(v)
-    return np.nan_to_num(z, nan=0.0), r
+    return np.nan_to_num(z, nan=0.0, posinf=0.0, neginf=0.0)
 
 
 def _components(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int) -> np.ndarray:
-    """Component p-values (m, len(COMPONENTS)); 1.0 where a component is absent."""
+    """Component p-values (m, len(COMPONENTS)); 1.0 where a component is absent or undefined."""
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        return np.nan_to_num(_component_values(z, zr, layout, model_df), nan=1.0)
+
+
+def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int) -> np.ndarray:
     m = z.shape[0]
     out = np.ones((m, len(COMPONENTS)))
     h, K = layout.short, layout.max_lag
@@ -195,7 +212,7 @@ def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int) -> np.ndarray:
         med = np.nanmedian(np.where(mask, x, np.nan), axis=1, keepdims=True)
     a = _ranks(np.abs(x - med), mask)
     z, _ = _standardised(a, mask, h, robust=False)
-    return chdtrc(h, (z * z).sum(axis=1))
+    return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
 
 
 @lru_cache(maxsize=256)
@@ -211,6 +228,14 @@ def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
         minp.append(_components(z, zr, layout, 0).min(axis=1))
         vol.append(_volatility(x, None, layout.short))
     return np.sort(np.concatenate(minp)), np.sort(np.concatenate(vol))
+
+
+def raw_threshold(n: int, layout: Layout, level: float) -> float:
+    """The smallest component p-value at which the adjusted p-value falls below ``level`` (the level's quantile of
+    the simulated null): each evidence entry can be compared with it."""
+    table = null_table(n, layout)[0]
+    i = int(np.floor(level * (table.size + 1.0))) - 1
+    return float(table[i]) if i >= 0 else 0.0
 
 
 def _refer(p: np.ndarray, table: np.ndarray, bound: np.ndarray) -> np.ndarray:
@@ -232,7 +257,7 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     comps = _components(z, zr, layout, model_df)
     count = 5 + bool(layout.seasonal) + (layout.max_lag != layout.short)
     n_obs = n if mask is None else int(mask.sum(axis=1).min())
-    n_sim = simulated_length(n_obs, layout.max_lag)
+    n_sim = min(n, max(simulated_length(n_obs, layout.max_lag), layout.max_lag + 1))
     minp_table, vol_table = null_table(n_sim, layout)
     smallest = comps.min(axis=1)
     p_auto = _refer(smallest, minp_table, np.minimum(1.0, count * smallest))

@@ -33,6 +33,7 @@ class PreparedSeries:
     labels: list[str] | None = None  # a time label per analysed point, when timestamps were sent
     missing: dict = field(default_factory=dict)  # the report's ``missing`` block
     transform: dict = field(default_factory=dict)  # the report's ``transform`` block
+    filled: np.ndarray | None = None  # True where a value was interpolated (the verdict leaves those out)
 
     def __post_init__(self):
         """Complete blocks for a series built directly (nothing missing, no transform)."""
@@ -78,7 +79,10 @@ def _refuse_missing(raw_missing: np.ndarray, axis: timestamps.TimeAxis | None, s
 
 
 def _fill_missing(values: np.ndarray, method: str, warnings: list, labels):
-    """Drop missing values at the ends; interpolate inside when asked. Returns values, labels, dropped, filled."""
+    """Drop missing values at the ends; interpolate inside when asked.
+
+    Returns values, labels, dropped and the mask of filled values (None when none was filled).
+    """
     missing = np.isnan(values)
     observed = np.flatnonzero(~missing)
     if observed.size < options.MIN_POINTS:
@@ -90,12 +94,12 @@ def _fill_missing(values: np.ndarray, method: str, warnings: list, labels):
                                                          "dropped: they cannot be interpolated or paired."))
         values, missing = values[lo:hi], missing[lo:hi]
         labels = labels[lo:hi] if labels is not None else None
-    filled = 0
+    filled = None
     if method == "interpolate" and missing.any():
         t = np.arange(values.size)
         values = values.copy()
         values[missing] = np.interp(t[missing], t[~missing], values[~missing])
-        filled = int(missing.sum())
+        filled = missing
     return values, labels, dropped, filled
 
 
@@ -150,11 +154,13 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
         if period is None and axis.period is not None:
             period, source = axis.period, "timestamps"
     n_missing = n_null + n_gaps
-    dropped = filled = 0
+    dropped = 0
+    filled_mask = None
     if n_missing:
         if method == "refuse":
             raise _refuse_missing(raw_missing, axis, stamps, n_null, n_gaps)
-        values, labels, dropped, filled = _fill_missing(values, method, warnings, labels)
+        values, labels, dropped, filled_mask = _fill_missing(values, method, warnings, labels)
+    filled = 0 if filled_mask is None else int(filled_mask.sum())
     n_grid = values.size
     complete = not n_missing  # no NaN anywhere, so the counts below need no scan of the values
     n_before = n_grid if complete else int(np.count_nonzero(~np.isnan(values)))
@@ -164,6 +170,8 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
     values, steps, front = transforms.apply(values, data.get("transform"), period)
     if labels is not None and front:
         labels = labels[front:]
+    if filled_mask is not None:
+        filled_mask = _carry_filled(filled_mask, steps, values.size)
     complete = complete and not steps
     observed = values if complete else values[~np.isnan(values)]
     n = observed.size
@@ -185,7 +193,18 @@ def prepare(data: dict, max_points: int, axes: dict | None = None) -> PreparedSe
     }
     transform_block = {"steps": steps, "n_before": n_before, "n_after": int(n)}
     return PreparedSeries(values, int(raw.size), n_missing, period, source, frequency, data.get("name"), warnings,
-                          labels, missing_block, transform_block)
+                          labels, missing_block, transform_block, filled_mask)
+
+
+def _carry_filled(mask: np.ndarray, steps: list[dict], size: int) -> np.ndarray:
+    """Where the transformed values rest on a filled one: a difference at lag L is filled when either of its
+    two values was."""
+    for step in steps:
+        if step["step"] in ("difference", "seasonal_difference"):
+            for _ in range(step["order"]):
+                lag = step["lag"]
+                mask = mask[lag:] | mask[:-lag]
+    return mask[-size:]
 
 
 def _missing_note(method: str, count: int, dropped: int, filled: int) -> str | None:

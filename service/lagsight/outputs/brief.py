@@ -30,8 +30,8 @@ import math
 import numpy as np
 
 from lagsight import options
-from lagsight.consult.decision import short_series_warning
-from lagsight.consult.decision_block import block_verdicts
+from lagsight.consult.cautions import short_series_warning
+from lagsight.consult.decision import Decision
 from lagsight.engine.analysis import GroupAnalysis, TestArrays
 from lagsight.inputs.series import PreparedSeries
 from lagsight.outputs.report import test_rows
@@ -96,12 +96,12 @@ def _outside_lags(analysis: GroupAnalysis) -> list[list[int]]:
     return [flat[a:b] for a, b in zip(starts, ends)]
 
 
-def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
+def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis, decisions: list[Decision]) -> list[dict]:
     """The brief result of every row of a group analysis; ``series[i]`` is row i."""
     spec = analysis.spec
     alpha = 1.0 - spec.confidence
     ns = [s.n for s in series]
-    verdicts = block_verdicts(analysis, ns, alpha)
+    verdicts = [d.verdict() for d in decisions]
     tests = _test_entries(analysis, alpha)
     outside = _outside_lags(analysis)
     short = spec.p_values == "asymptotic"

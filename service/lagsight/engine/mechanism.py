@@ -1,0 +1,67 @@
+"""The numbers that tell one mechanism of structure from another, for the rows that need them.
+
+- the augmented Dickey-Fuller test with a constant (:mod:`.stationarity`) and with a constant and a linear trend
+  (:mod:`.trend`): a deterministic trend (trend-stationary: the test with trend rejects a unit root) against a
+  stochastic one (neither rejects);
+- the least-squares slope with a Newey-West t-statistic (:func:`.trend.trend_slope`);
+- isolated extreme values by the median/MAD rule (:func:`.evidence.outlier_flags`), on the values and on the
+  first differences, so that a level that wanders is not taken for outliers.
+
+Computed only for the rows whose reading needs them (the ADF regressions are the costly part), on complete rows.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from lagsight.engine import stationarity, trend
+from lagsight.engine.evidence import outlier_flags
+
+#: Below this length the regressions have too few degrees of freedom to be read.
+MIN_N = 16
+
+
+@dataclass
+class Mechanism:
+    """Per row (m,): NaN where not computed."""
+
+    adf_p: np.ndarray  # ADF p-value, constant only
+    adf_trend_p: np.ndarray  # ADF p-value, constant and trend
+    slope_t: np.ndarray  # Newey-West t-statistic of the least-squares slope
+    outliers: list  # per row: indices of isolated extreme values (empty list if none or not computed)
+    outlier_z: list  # per row: their robust z
+
+
+def check(x: np.ndarray, persistence_rows: np.ndarray, outlier_rows: np.ndarray) -> Mechanism:
+    """Mechanism numbers for complete rows of x (m, n).
+
+    ``persistence_rows``: rows (indices) that need the unit-root and trend checks; ``outlier_rows``: rows that
+    need the outlier check.
+    """
+    m, n = x.shape
+    adf_p = np.full(m, np.nan)
+    adf_trend_p = np.full(m, np.nan)
+    slope_t = np.full(m, np.nan)
+    outliers: list = [[] for _ in range(m)]
+    outlier_z: list = [[] for _ in range(m)]
+    if n >= MIN_N and persistence_rows.size:
+        rows = x[persistence_rows]
+        adf_p[persistence_rows] = [p for _, p, _ in stationarity.adf_rows(rows)]
+        adf_trend_p[persistence_rows] = trend.adf_trend_rows(rows).p_value
+        slope_t[persistence_rows] = trend.trend_slope(rows).t
+    if n >= 8 and outlier_rows.size:
+        rows = x[outlier_rows]
+        level = outlier_flags(rows)
+        step = outlier_flags(np.diff(rows, axis=1))
+        # An isolated value is far from the median and makes two far steps (into it and out of it).
+        into = np.zeros_like(level.mask)
+        into[:, 1:] = step.mask
+        out_of = np.zeros_like(level.mask)
+        out_of[:, :-1] = step.mask
+        isolated = level.mask & (into | out_of)
+        for i, row in enumerate(outlier_rows.tolist()):
+            where = np.flatnonzero(isolated[i])
+            outliers[row] = where.tolist()
+            outlier_z[row] = level.z[i, where].tolist()
+    return Mechanism(adf_p, adf_trend_p, slope_t, outliers, outlier_z)
