@@ -76,7 +76,7 @@ def _header(r: dict) -> list[str]:
 
 
 def _targets(rows: list[dict]) -> list[str]:
-    out = ["## Targets", "", "| target | cases | met | not met | n/a | furthest case |", "| --- | --- | --- | --- | --- | --- |"]
+    out = ["## Targets", "", "| target | cases | met | not met | n/a | worst case |", "| --- | --- | --- | --- | --- | --- |"]
     for s in tg.summary(rows):
         w = s["worst"]
         worst = "-" if w is None else (f"{w['case']}: {100 * w['measured']:+.1f} points vs {100 * w['bound']:+.1f}"

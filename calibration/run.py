@@ -2,7 +2,7 @@
 
 Options: ``--reps N`` (series per case for every scenario; default 2,000 for the i.i.d. families,
 1,000 for AR(1) 0.3 and MA(1) 0.4, 400 for the other processes), ``--batches N`` (pure-noise batches,
-default 400; a quarter as many AR batches), ``--quick`` (tiny sizes, to check the code runs; used by the
+default 800; a quarter as many AR batches), ``--quick`` (tiny sizes, to check the code runs; used by the
 test suite), ``--only NAME ...`` (only these scenarios; ``batch`` for the false-discovery part),
 ``--out PATH`` (default CALIBRATION.md at the repository root; CALIBRATION.json beside it).
 The hand-written analysis between the ``notes`` markers of an existing report is kept.
@@ -28,7 +28,7 @@ from .scenarios import BASE_SEED, IID_NS, MECHANISM_NS, POWER_SCENARIOS, SCENARI
 ROOT = Path(__file__).resolve().parents[1]
 
 FULL = {"iid_reps": 2000, "power_reps": 1000, "mechanism_reps": 400, "iid_ns": IID_NS, "mechanism_ns": MECHANISM_NS,
-        "noise_batches": 400, "ar_batches": 100, "extra_confidence": 0.90}
+        "noise_batches": 800, "ar_batches": 200, "extra_confidence": 0.90}
 QUICK = {"iid_reps": 40, "power_reps": 40, "mechanism_reps": 30, "iid_ns": (20, 100), "mechanism_ns": (100, 300),
          "noise_batches": 2, "ar_batches": 2, "extra_confidence": 0.90}
 
