@@ -8,7 +8,7 @@ a false-discovery-rate reading): what is absent reads as None and is reported as
 from __future__ import annotations
 
 import datetime as dt
-from functools import lru_cache
+from functools import cache
 
 import orjson
 
@@ -58,7 +58,7 @@ class Service:
         return out
 
 
-@lru_cache(maxsize=None)
+@cache
 def daily_stamps(n: int) -> list[str]:
     """n consecutive days as ISO dates (the service infers period 7 from them)."""
     start = dt.date(2021, 1, 4)

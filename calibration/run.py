@@ -21,7 +21,8 @@ from threadpoolctl import threadpool_limits
 
 from benchmarks import machine
 
-from . import consult, measure as ms, targets
+from . import consult, targets
+from . import measure as ms
 from .report import pct, render
 from .scenarios import BASE_SEED, IID_NS, MECHANISM_NS, POWER_SCENARIOS, SCENARIOS
 
@@ -101,7 +102,7 @@ def main(argv=None) -> dict:
         plan.update(noise_batches=ns.batches, ar_batches=max(1, ns.batches // 4))
     results = measure(plan, set(ns.only) if ns.only else None)
     results.update(command=" ".join(["python -m calibration.run", *argv]), quick=ns.quick, only=ns.only,
-                   date=f"{dt.datetime.now(dt.timezone.utc):%Y-%m-%d %H:%M} UTC", commit=git_commit(),
+                   date=f"{dt.datetime.now(dt.UTC):%Y-%m-%d %H:%M} UTC", commit=git_commit(),
                    machine=machine.describe())
     previous = ns.out.read_text() if ns.out.exists() else ""
     ns.out.write_text(render(results, previous))

@@ -8,8 +8,8 @@ confidence (paired comparisons). Innovations are standard normal unless a scenar
 from __future__ import annotations
 
 import zlib
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 from scipy.signal import lfilter

@@ -70,7 +70,8 @@ def evaluate(results: dict) -> list[dict]:
                              MECHANISM_TARGET, r["expected_advice"], **identity(case)))
         if case["scenario"] == "garch" and case["n"] == MECHANISM_N:
             named = r["kinds"].get("autocorrelation") or {"rate": 0.0, "se": 0.0, "of": case["answered"]}
-            rows.append(_row("garch_autocorrelation", label(case), "max", GARCH_AUTOCORRELATION_MAX, named, **identity(case)))
+            rows.append(_row("garch_autocorrelation", label(case), "max", GARCH_AUTOCORRELATION_MAX, named,
+                             **identity(case)))
     batch = results.get("batch")
     if batch:
         c = batch["confidence"]
