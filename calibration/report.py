@@ -86,6 +86,22 @@ def _targets(rows: list[dict]) -> list[str]:
     return out + [""]
 
 
+def _matrix(cases: list[dict]) -> list[str]:
+    """Scenario x length: not-white-noise rate / any-structure rate, in %."""
+    ns = sorted({c["n"] for c in cases})
+    cells = {(c["scenario"], c["timestamps"], c["confidence"], c["n"]): c["rates"] for c in cases}
+    out = ["| scenario | timestamps | c | " + " | ".join(f"n {n:,}" for n in ns) + " |",
+           "| --- | --- | --- |" + " --- |" * len(ns)]
+    for scenario, stamps, conf in dict.fromkeys(k[:3] for k in cells):
+        row = []
+        for n in ns:
+            rt = cells.get((scenario, stamps, conf, n))
+            row.append("" if rt is None else
+                       f"{100 * rt['not_white_noise']['rate']:.1f} / {100 * rt['any_structure']['rate']:.1f}")
+        out.append(f"| {scenario} | {'daily' if stamps else '-'} | {conf:g} | " + " | ".join(row) + " |")
+    return out + [""]
+
+
 def _case_rows(rows: list[dict], case: dict, *names: str) -> list[dict]:
     key = tg.identity(case)
     return [r for r in rows if r["target"] in names and all(r.get(k) == v for k, v in key.items())]
@@ -97,7 +113,9 @@ def render(r: dict, previous: str = "") -> str:
     iid = [c for c in r["cases"] if c["family"] == "iid"]
     if iid:
         out += ["## i.i.d. series: false alarms and named structure", "",
-                "Bound: (1 - c) + 1 point. Status: false-alarm target / any-structure target. Kinds named: % of series.",
+                "In short, % of series called not white noise / % with any structure named:", ""]
+        out += _matrix(iid)
+        out += ["Bound: (1 - c) + 1 point. Status: false-alarm target / any-structure target. Kinds named: % of series.",
                 "",
                 "| scenario | n | timestamps | c | reps | not white noise | any structure | kinds named | bound | status |",
                 "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
