@@ -47,6 +47,11 @@ bench: $(STAMP)
 	command -v wrk >/dev/null || (apt-get install -y wrk >/dev/null 2>&1 || true)
 	$(BIN)/python -m benchmarks.run
 
+# How often the verdict, named structure and advice are right, by seeded simulation (~10 minutes): writes CALIBRATION.md.
+.PHONY: calibrate
+calibrate: $(STAMP)
+	$(BIN)/python -m calibration.run
+
 # Refresh constraints.txt from a fresh resolution of pyproject.toml's ranges.
 lock:
 	rm -rf /tmp/lagsight-lock && $(PYTHON) -m venv /tmp/lagsight-lock
