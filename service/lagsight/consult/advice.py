@@ -41,6 +41,26 @@ CODES = ("check_outliers", "undo_difference", "remove_trend", "difference", "sea
          "monte_carlo_p_values", "check_cycle", "give_period")
 
 
+def order_one(acf: list[float], pacf: list[float], most: int = 4) -> str:
+    """"ar" or "ma": which first-order pattern the correlograms at lags 2..4 are closer to.
+
+    AR(1) with phi = r1 implies r_k = r1^k and a partial autocorrelation of 0 beyond lag 1; MA(1) with the
+    invertible theta that gives r1 implies r_k = 0 and phi_kk = -(-theta)^k (1 - theta^2) / (1 - theta^(2k + 2))
+    beyond lag 1 (Box, Jenkins, Reinsel and Ljung 2015, sections 3.2.4 and 3.3.3). The smaller sum of squared
+    differences wins (a minimum-distance choice; common practice, no source for the rule itself). |r1| >= 0.5
+    is beyond any MA(1), so it is "ar".
+    """
+    r1 = acf[0]
+    if abs(r1) >= 0.5 or r1 == 0:
+        return "ar"
+    theta = (1.0 - (1.0 - 4.0 * r1 * r1) ** 0.5) / (2.0 * r1)
+    lags = range(2, min(most, len(acf), len(pacf)) + 1)
+    ar = sum((acf[k - 1] - r1 ** k) ** 2 + pacf[k - 1] ** 2 for k in lags)
+    ma = sum(acf[k - 1] ** 2 + (pacf[k - 1] + (-theta) ** k * (1 - theta ** 2) / (1 - theta ** (2 * k + 2))) ** 2
+             for k in lags)
+    return "ar" if ar <= ma else "ma"
+
+
 def _item(code: str, action: str, reason: str) -> dict:
     return {"code": code, "action": action, "reason": reason}
 
@@ -50,6 +70,8 @@ def _short_term(report: dict, d: Decision) -> dict:
     q = cutoff(report["acf"], 1.0 - report["band"]["per_lag_confidence"])
     if p is not None and q is not None:  # both read as cut-offs: prefer the smaller order (parsimony)
         p, q = (p, None) if p < q else ((None, q) if q < p else (p, q))
+    if (p == q == 1) or (p is None and q is None and d.strongest_lag == 1):
+        p, q = (1, None) if order_one(report["acf"]["values"], report["pacf"]["values"]) == "ar" else (None, 1)
     df = report["model_df"]
     if p is not None and q is not None:
         return _item("add_arma_terms", f"Try an AR({p}) and an MA({q}) model and keep the one whose residuals pass "
@@ -110,19 +132,15 @@ def advice(report: dict, d: Decision) -> list[dict]:
                              f"The lag-1 autocorrelation is {fmt(d.r1, 2)}: a series differenced once too often "
                              "has it near -0.5."))
         elif kind == "trend":
-            c = d.checks
             out.append(_item("remove_trend", "Remove the trend (fit a straight line in time, or send transform "
                                              "{\"detrend\": true}) and check what is left; do not difference.",
-                             f"The augmented Dickey-Fuller test with a trend rules out a unit root "
-                             f"({fmt_p(c['adf_trend_p'])}) and the slope is clear (t = {fmt(c['slope_t'], 2)}, "
-                             "Newey-West): the level follows a steady trend."))
+                             f"The slope is clear (t = {fmt(d.checks['slope_t'], 2)}, Newey-West) and what is left "
+                             f"around the line is stationary ({d.around_line()}): the level follows a steady trend."))
         elif kind == "unit_root":
-            c = d.checks
             out.append(_item("difference", "Difference the series once (or send transform {\"difference\": 1}) and "
                                            "check again.",
                              f"The autocorrelation decays slowly (r1 = {fmt(d.r1, 2)}) and the augmented Dickey-Fuller "
-                             f"tests cannot rule out a unit root (with a constant {fmt_p(c['adf_p'])}; with a trend "
-                             f"{fmt_p(c['adf_trend_p'])})."))
+                             f"test cannot rule out a unit root ({fmt_p(d.checks['adf_p'])})."))
         elif kind == "seasonal":
             out.append(_seasonal(report, d))
         elif kind == "autocorrelation" and not explained:

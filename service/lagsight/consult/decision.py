@@ -20,9 +20,12 @@ When the autocorrelation channel rejects, the mechanism is named from these chec
 
 - ``over_differenced``: r_1 <= -0.4 (a series differenced once too often has r_1 near -0.5; common practice,
   no source for the cut-off);
-- ``trend``: r_1 >= 0.3, the ADF test with constant and trend rejects a unit root at alpha and the least-squares
-  slope has a Newey-West |t| >= 3 (a deterministic trend: remove it, do not difference);
-- ``unit_root``: r_1 >= 0.5 and neither ADF test (constant; constant and trend) rejects at alpha (difference);
+- ``trend``: r_1 >= 0.3, the least-squares slope has a Newey-West |t| >= 3, and what is left around the line is
+  stationary: its lag-1 autocorrelation is at most 0.5, or the ADF test with constant and trend rejects a unit
+  root at alpha while the KPSS test around a trend does not reject stationarity (a deterministic trend: remove
+  it, do not difference);
+- ``unit_root``: otherwise, the autocorrelation decays slowly (r_1 >= 0.7 and r_k > r_1 / 2 up to lag 6) and the
+  ADF tests (with a constant; with constant and trend) do not both reject a unit root at alpha (difference);
 - ``outliers``: isolated values beyond the median/MAD threshold, and the ordinary and rank autocorrelations
   disagree by more than 3 standard errors at some lag up to h (the reading depends on those values);
 - ``seasonal``: the seasonal-spike component alone passes the channel's threshold;
@@ -50,8 +53,8 @@ WEIGHT_AUTOCORRELATION = 0.9
 WEIGHT_VOLATILITY = 0.1
 OVER_DIFFERENCED_R1 = -0.4
 PERSISTENT_R1 = 0.3
-UNIT_ROOT_R1 = 0.5
 TREND_T = 3.0
+TREND_RESIDUAL_R1 = 0.5
 RANK_GAP_SE = 3.0
 #: Structure kinds in the order of their importance for the advice.
 KINDS = ("outliers", "over_differenced", "trend", "unit_root", "seasonal", "autocorrelation",
@@ -93,6 +96,12 @@ class Decision:
     def mechanism(self) -> str | None:
         return self.structure[0] if self.structure else None
 
+    def around_line(self) -> str:
+        """The evidence that the values around a fitted line are stationary, in words."""
+        c = self.checks
+        return (f"augmented Dickey-Fuller with a trend {fmt_p(c['adf_trend_p'])}, lag-1 autocorrelation around the "
+                f"line {fmt(c['residual_r1'], 2)}")
+
     def verdict(self) -> dict:
         """The report's ``verdict`` object."""
         if self.white_noise is False:
@@ -114,7 +123,7 @@ def _phrase(d: Decision) -> str:
     if k == "over_differenced":
         return (f"the lag-1 autocorrelation is {fmt(d.r1, 2)}, the mark of a series differenced once too often")
     if k == "trend":
-        return "the level follows a steady trend, and the test with a trend rules out a unit root"
+        return "the level follows a steady trend"
     if k == "unit_root":
         return f"the level wanders, r1 = {fmt(d.r1, 2)}, and a unit root cannot be ruled out"
     if k == "outliers":
@@ -193,7 +202,7 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
             strongest_r=float(r[i, k - 1]), r1=r1, period=periods[i], max_lag=lay.max_lag, outliers=mech.outliers[i],
             outlier_z=mech.outlier_z[i], filled=filled[i],
             checks={"adf_p": _num(mech.adf_p[i]), "adf_trend_p": _num(mech.adf_trend_p[i]),
-                    "slope_t": _num(mech.slope_t[i])})
+                    "slope_t": _num(mech.slope_t[i]), "residual_r1": _num(mech.resid_r1[i])})
         out.append(d)
     return out
 
@@ -211,9 +220,11 @@ def _mechanisms(i, z, zr, comps, t_star, r1, lay, period, mech: Mechanism, alpha
     if r1 <= OVER_DIFFERENCED_R1:
         kinds.append("over_differenced")
     elif r1 >= PERSISTENT_R1 and np.isfinite(adf_trend_p):
-        if adf_trend_p <= alpha and abs(slope_t) >= TREND_T:
+        stationary_around_line = (mech.resid_r1[i] <= TREND_RESIDUAL_R1
+                                  or (adf_trend_p <= alpha and mech.kpss_trend_p[i] > alpha))
+        if abs(slope_t) >= TREND_T and stationary_around_line:
             kinds.append("trend")
-        elif r1 >= UNIT_ROOT_R1 and adf_trend_p > alpha and adf_p > alpha:
+        elif mech.slow[i] and not (adf_p <= alpha and adf_trend_p <= alpha):
             kinds.append("unit_root")
     seasonal = bool(lay.seasonal) and comps[4] <= t_star
     if seasonal and "over_differenced" not in kinds:

@@ -78,13 +78,12 @@ def _mechanism_sentences(report: dict, d: Decision, alpha: float) -> list[str]:
                    f"ones by more than 3 standard errors: {plural(len(d.outliers), 'extreme value')} "
                    "change the reading.")
     if "trend" in d.structure:
-        out.append(f"The augmented Dickey-Fuller test with a trend rules out a unit root ({fmt_p(c['adf_trend_p'])}) "
-                   f"and the slope is clear (t = {fmt(c['slope_t'], 2)}, Newey-West): a steady trend, not a level "
-                   "that wanders.")
+        out.append(f"The slope of a straight line through the values is clear (t = {fmt(c['slope_t'], 2)}, Newey-West) "
+                   f"and what is left around it is stationary ({d.around_line()}): a steady trend, not a level that "
+                   "wanders.")
     elif "unit_root" in d.structure:
-        out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller tests cannot rule out a unit "
-                   f"root (with a constant {fmt_p(c['adf_p'])}, with a trend {fmt_p(c['adf_trend_p'])}): the level of "
-                   "the series wanders.")
+        out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller test cannot rule out a unit "
+                   f"root ({fmt_p(c['adf_p'])}): the level of the series wanders.")
     elif c.get("adf_p") is not None and c["adf_p"] <= alpha and d.r1 >= 0.5:
         out.append(f"The autocorrelation is persistent, but the augmented Dickey-Fuller test rejects a unit root "
                    f"({fmt_p(c['adf_p'])}): strong but stationary persistence.")

@@ -303,10 +303,11 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
     candidates = ev.p_autocorrelation < alpha
     if mask is None:
         persistent = np.flatnonzero(candidates & (r[:, 0] >= 0.3))
-        mech = mechanism_checks.check(x, persistent, np.flatnonzero(candidates))
+        mech = mechanism_checks.check(x, r, persistent, np.arange(m))
     else:
-        mech = mechanism_checks.Mechanism(np.full(m, np.nan), np.full(m, np.nan), np.full(m, np.nan),
-                                          [[] for _ in range(m)], [[] for _ in range(m)])
+        nan = np.full(m, np.nan)
+        mech = mechanism_checks.Mechanism(nan, nan, nan, nan, nan, np.zeros(m, dtype=bool), [[] for _ in range(m)],
+                                          [[] for _ in range(m)])
     return GroupAnalysis(
         n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
         strength, suggested, unit_root, n_eff, ev, mech,

@@ -3,11 +3,14 @@
 - the augmented Dickey-Fuller test with a constant (:mod:`.stationarity`) and with a constant and a linear trend
   (:mod:`.trend`): a deterministic trend (trend-stationary: the test with trend rejects a unit root) against a
   stochastic one (neither rejects);
-- the least-squares slope with a Newey-West t-statistic (:func:`.trend.trend_slope`);
+- the least-squares slope with a Newey-West t-statistic (:func:`.trend.trend_slope`) and the KPSS test around a
+  trend (:func:`.trend.kpss_rows`);
 - isolated extreme values by the median/MAD rule (:func:`.evidence.outlier_flags`), on the values and on the
   first differences, so that a level that wanders is not taken for outliers.
 
-Computed only for the rows whose reading needs them (the ADF regressions are the costly part), on complete rows.
+The unit-root and trend numbers are computed only for the rows whose reading needs them (the ADF regressions are
+the costly part); the outlier check for every complete row (a caution names isolated values even when the verdict
+does not rest on them).
 """
 from __future__ import annotations
 
@@ -29,12 +32,15 @@ class Mechanism:
     adf_p: np.ndarray  # ADF p-value, constant only
     adf_trend_p: np.ndarray  # ADF p-value, constant and trend
     slope_t: np.ndarray  # Newey-West t-statistic of the least-squares slope
+    resid_r1: np.ndarray  # lag-1 autocorrelation of the values around that line
+    kpss_trend_p: np.ndarray  # KPSS p-value around a trend (clipped to [0.01, 0.10] by its table)
+    slow: np.ndarray  # bool: the autocorrelation decays slowly (stationarity.decays_slowly)
     outliers: list  # per row: indices of isolated extreme values (empty list if none or not computed)
     outlier_z: list  # per row: their robust z
 
 
-def check(x: np.ndarray, persistence_rows: np.ndarray, outlier_rows: np.ndarray) -> Mechanism:
-    """Mechanism numbers for complete rows of x (m, n).
+def check(x: np.ndarray, r: np.ndarray, persistence_rows: np.ndarray, outlier_rows: np.ndarray) -> Mechanism:
+    """Mechanism numbers for complete rows of x (m, n) with autocorrelations r (m, K).
 
     ``persistence_rows``: rows (indices) that need the unit-root and trend checks; ``outlier_rows``: rows that
     need the outlier check.
@@ -43,13 +49,20 @@ def check(x: np.ndarray, persistence_rows: np.ndarray, outlier_rows: np.ndarray)
     adf_p = np.full(m, np.nan)
     adf_trend_p = np.full(m, np.nan)
     slope_t = np.full(m, np.nan)
+    resid_r1 = np.full(m, np.nan)
+    kpss_trend_p = np.full(m, np.nan)
+    slow = np.zeros(m, dtype=bool)
     outliers: list = [[] for _ in range(m)]
     outlier_z: list = [[] for _ in range(m)]
     if n >= MIN_N and persistence_rows.size:
         rows = x[persistence_rows]
         adf_p[persistence_rows] = [p for _, p, _ in stationarity.adf_rows(rows)]
         adf_trend_p[persistence_rows] = trend.adf_trend_rows(rows).p_value
-        slope_t[persistence_rows] = trend.trend_slope(rows).t
+        fit = trend.trend_slope(rows)
+        slope_t[persistence_rows] = fit.t
+        resid_r1[persistence_rows] = fit.resid_r1
+        kpss_trend_p[persistence_rows] = trend.kpss_rows(rows, "ct").p_value
+        slow[persistence_rows] = stationarity.decays_slowly(r[persistence_rows])
     if n >= 8 and outlier_rows.size:
         rows = x[outlier_rows]
         level = outlier_flags(rows)
@@ -64,4 +77,4 @@ def check(x: np.ndarray, persistence_rows: np.ndarray, outlier_rows: np.ndarray)
             where = np.flatnonzero(isolated[i])
             outliers[row] = where.tolist()
             outlier_z[row] = level.z[i, where].tolist()
-    return Mechanism(adf_p, adf_trend_p, slope_t, outliers, outlier_z)
+    return Mechanism(adf_p, adf_trend_p, slope_t, resid_r1, kpss_trend_p, slow, outliers, outlier_z)
