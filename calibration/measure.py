@@ -120,6 +120,14 @@ def run_batches(service: consult.Service, noise_batches: int, ar_batches: int, c
     def post(x) -> list[dict]:
         body = service.post({"series": [{"id": i, "values": row} for i, row in enumerate(x)],
                              "detail": "full", "confidence": confidence})
+        across = body.get("summary", {}).get("false_discovery")
+        if across:  # the service's reading: q-values in request order in summary.false_discovery
+            for r, q in zip(body["results"], across["q_values"]):
+                if q is not None:
+                    r["fdr_q_value"] = q
+            if out["batch_path"] is None:
+                out["batch_path"] = "/summary/false_discovery"
+                out["batch_reading"] = {k: v for k, v in across.items() if k not in ("q_values", "standing_out_ids")}
         if out["batch_path"] is None:
             found = consult.find_fdr({k: v for k, v in body.items() if k != "results"})
             if found:

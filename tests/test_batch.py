@@ -192,7 +192,21 @@ def test_summary_counts_verdicts_and_errors(client):
     verdicts = [r["verdict"]["white_noise"] if "verdict" in r else "error" for r in body["results"]]
     assert verdicts[1:] == [False, False, None, "error"]
     expected = {"series": 5, "white_noise": verdicts.count(True), "not_white_noise": 2, "undetermined": 1, "errors": 1}
+    across = body["summary"].pop("false_discovery")
     assert body["summary"] == expected
+    assert across["analysed"] == 4 and across["flagged"] == 2 and across["q_values"][4] is None
+    assert set(across["standing_out_ids"]) == {"ar", "ar-2"}
+
+
+def test_false_discovery_q_values_are_benjamini_hochberg():
+    # Reference: statsmodels.stats.multitest.multipletests(method="fdr_bh") on the same p-values.
+    from statsmodels.stats.multitest import multipletests
+
+    from lagsight.consult.across import q_values
+
+    p = list(np.random.default_rng(5).uniform(size=40) ** 3) + [1e-12, 0.5, 0.5, 1.0]
+    assert q_values(p) == pytest.approx(list(multipletests(p, method="fdr_bh")[1]), rel=1e-12, abs=0)
+    assert q_values([]) == []
 
 
 def _problem(r, status: int) -> dict:

@@ -59,9 +59,10 @@ def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: boo
         f"{options.SMALL_SAMPLE_N} a result with asymptotic p-values carries a short_series warning); p_values "
         "\"monte_carlo\" gives p-values that hold at any length.",
         "Multiple testing: each verdict adjusts for the many lags and tests of its own series (the per-test reject "
-        "flags do not), but nothing adjusts across series. Of the "
+        "flags do not), not for the other series. Of the "
         f"{analysed} series analysed here, up to about {_count(chance_flags)} could be called not white noise by chance "
-        "alone at the chosen confidence even if every one were white noise.",
+        "alone at the chosen confidence even if every one were white noise; summary.false_discovery says which "
+        "series stand out once that is allowed for (Benjamini-Hochberg).",
     ]
     if any_without_model_df:
         out.append("If these values are residuals of fitted ARMA models, set model_df to each model's number of "

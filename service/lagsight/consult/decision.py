@@ -3,7 +3,7 @@ derived from it.
 
 Decision rule (documented in /v1/methods, the README and the OpenAPI file)
 --------------------------------------------------------------------------
-Let alpha = 1 - confidence. Two channels of evidence (:mod:`lagsight.engine.whiteness`) share alpha
+Let alpha = 1 - confidence. Two channels of evidence share alpha
 (weighted Bonferroni), so an i.i.d. series gets any named structure with probability at most alpha:
 
 1. autocorrelation, at level 0.9 alpha: the smallest p-value among the lag-1 autocorrelation, the Ljung-Box-type

@@ -14,6 +14,7 @@ import secrets
 from flask import Blueprint, Response, current_app, request, stream_with_context
 from marshmallow import ValidationError
 
+from lagsight.consult import across
 from lagsight.consult import cautions as cautions_mod
 from lagsight.inputs import batch_items
 from lagsight.inputs.schema import (
@@ -203,16 +204,35 @@ def _error_result(item_id, problem: Problem) -> dict:
 
 
 class _Summary:
-    def __init__(self, total: int):
-        self.counts = {"series": total, "white_noise": 0, "not_white_noise": 0, "undetermined": 0, "errors": 0}
+    """Counts by verdict, and what the batch-level reading needs (across.py)."""
 
-    def add(self, result: dict) -> None:
+    def __init__(self, total: int, rate: float):
+        self.counts = {"series": total, "white_noise": 0, "not_white_noise": 0, "undetermined": 0, "errors": 0}
+        self.rate = rate
+        self.index: list[int] = []
+        self.ids: list = []
+        self.verdicts: list[dict] = []
+        self.alphas: list[float] = []
+
+    def add(self, result: dict, index: int | None = None, alpha: float | None = None) -> None:
         if "error" in result:
             self.counts["errors"] += 1
             return
         verdict = result["verdict"]["white_noise"]
         key = "undetermined" if verdict is None else ("white_noise" if verdict else "not_white_noise")
         self.counts[key] += 1
+        self.index.append(index)
+        self.ids.append(result["id"])
+        self.verdicts.append(result["verdict"])
+        self.alphas.append(alpha)
+
+    def across(self) -> dict:
+        """The summary with the false-discovery reading; its q_values in request order (null for errors)."""
+        block, q = across.reading(self.ids, self.verdicts, self.alphas, self.rate)
+        q_values: list = [None] * self.counts["series"]
+        for i, qi in zip(self.index, q):
+            q_values[i] = qi
+        return {**self.counts, "false_discovery": {**block, "q_values": q_values}}
 
 
 @bp.post("/v1/diagnostics/batch")
@@ -242,7 +262,7 @@ def _answer(media: str) -> Response:
     prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
     del body, raw, data  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
-    summary = _Summary(len(where) + len(errors))
+    summary = _Summary(len(where) + len(errors), 1.0 - shared["confidence"])
     notes = _brief_notes(prepared) if detail == "brief" else {}
     if media == NDJSON:
         return Response(stream_with_context(_stream(errors, prepared, where, summary, detail, notes)),
@@ -254,9 +274,10 @@ def _answer(media: str) -> Response:
         for j, report in block:
             i, item_id = where[j]
             results[i] = {"id": item_id, **report}
-    for result in results:
+            summary.add(results[i], i, 1.0 - prepared[j][1].spec.confidence)
+    for _, result in errors:
         summary.add(result)
-    answer = {"results": results, "summary": summary.counts}
+    answer = {"results": results, "summary": summary.across()}
     if detail == "brief":
         answer = {"detail": detail, **answer, **notes}
     return json_response(answer)  # the results are freed on return, the collector still paused
@@ -286,10 +307,10 @@ def _stream(errors, prepared, where, summary: _Summary, detail: str, notes: dict
             for j, report in block:
                 i, item_id = where[j]
                 result = {"id": item_id, **report}
-                summary.add(result)
+                summary.add(result, i, 1.0 - prepared[j][1].spec.confidence)
                 lines.append(_line({"kind": "result", "index": i, **result}))
             yield b"".join(lines)
-        yield _line({"kind": "summary", "summary": summary.counts, **notes})
+        yield _line({"kind": "summary", "summary": summary.across(), **notes})
     except Exception:  # the status line is sent: end the stream with an error line instead
         log.exception("unhandled error while streaming %s", request.path)
         problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "
