@@ -99,7 +99,7 @@ def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dic
     if not done:
         return out
     mc = " (Monte Carlo p-values)" if done[0]["method"] == "monte_carlo" else ""
-    parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {t['df']} degrees of freedom, {fmt_p(t['p_value'])}"
+    parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {plural(t['df'], 'degree')} of freedom, {fmt_p(t['p_value'])}"
              for t in done]
     rejecting = [str(t["lag"]) for t in done if t["reject"]]
     verdict = (f"taken alone it rejects white noise at the {fmt(alpha * 100, 2)}% level up to "

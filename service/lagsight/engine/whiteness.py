@@ -114,20 +114,22 @@ def sidak(z: np.ndarray, count: int) -> np.ndarray:
 def _ranks(x: np.ndarray, mask: np.ndarray | None) -> np.ndarray:
     """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank."""
     filled = x if mask is None else np.where(mask, x, np.inf)
-    order = np.argsort(filled, axis=1, kind="stable")
-    rows = np.arange(x.shape[0])[:, None]
+    m, n = x.shape
+    order = np.argsort(filled, axis=1)
     sorted_x = np.take_along_axis(filled, order, axis=1)
-    n = x.shape[1]
-    new = np.ones_like(sorted_x, dtype=bool)
-    new[:, 1:] = sorted_x[:, 1:] != sorted_x[:, :-1]
-    group = np.cumsum(new, axis=1) - 1  # tie-group id along each row
-    pos = np.broadcast_to(np.arange(1, n + 1, dtype=np.float64), x.shape)
-    flat = group + rows * n
-    total = np.bincount(flat.ravel(), weights=pos.ravel(), minlength=x.shape[0] * n)
-    count = np.bincount(flat.ravel(), minlength=x.shape[0] * n)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean_rank = (total / np.maximum(count, 1))[flat]
-    out = np.empty_like(mean_rank)
+    tied = sorted_x[:, 1:] == sorted_x[:, :-1]
+    positions = np.broadcast_to(np.arange(1, n + 1, dtype=np.float64), x.shape)
+    if not tied.any():  # the common case: the rank is the position in the sorted row
+        out = np.empty((m, n))
+        np.put_along_axis(out, order, positions, axis=1)
+        return out
+    new = np.ones((m, n), dtype=bool)
+    new[:, 1:] = ~tied
+    flat = np.cumsum(new, axis=1) - 1 + np.arange(m)[:, None] * n  # tie-group id, unique across rows
+    total = np.bincount(flat.ravel(), weights=positions.ravel(), minlength=m * n)
+    count = np.bincount(flat.ravel(), minlength=m * n)
+    mean_rank = (total / np.maximum(count, 1))[flat]
+    out = np.empty((m, n))
     np.put_along_axis(out, order, mean_rank, axis=1)
     return out
 
