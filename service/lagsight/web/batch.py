@@ -31,7 +31,7 @@ from lagsight.pipeline import Plan, gc_paused, plan_for, run_blocks
 from lagsight.problems import FieldError, Problem, flatten_messages
 from lagsight.web import metrics
 from lagsight.web.diagnostics import load
-from lagsight.web.payload import read_json_object
+from lagsight.web.payload import read_body, read_json_object
 from lagsight.web.responses import json_response
 
 bp = Blueprint("batch", __name__)
@@ -238,7 +238,7 @@ def _answer(media: str) -> Response:
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
         shared["seed"] = secrets.randbits(63)
-    data = request.get_data(cache=True)  # the body as read: no JSON boolean without these bytes
+    data = read_body(request)  # the body as read (kept by payload.py): no JSON boolean without these bytes
     prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
     del body, raw, data  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)

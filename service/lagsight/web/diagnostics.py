@@ -25,7 +25,7 @@ from lagsight.outputs.csv_table import correlogram_table
 from lagsight.pipeline import plan_for, run
 from lagsight.problems import Problem, flatten_messages
 from lagsight.web import metrics, query
-from lagsight.web.payload import media_type, read_json_object
+from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
 
 bp = Blueprint("diagnostics", __name__)
@@ -102,7 +102,7 @@ def _read_request() -> dict:
         return _from_query(args)
     if media_type(request) in CSV_TYPES:
         query.check_known(args, (*query.OUTPUT_PARAMS, *query.CSV_PARAMS, *_ANALYSIS))
-        raw = csv_input.read_series(request.get_data(cache=True), args)
+        raw = csv_input.read_series(read_body(request), args)
         fields = {k: v for k, v in raw.items() if not k.startswith("_")}
         return {**fields, **query.analysis_fields(args), "_raw": raw}
     query.check_known(args, query.OUTPUT_PARAMS)

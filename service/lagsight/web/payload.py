@@ -2,11 +2,15 @@
 from __future__ import annotations
 
 import json
+import logging
 
 import orjson
 from flask import Request
 
-from lagsight.problems import Problem, invalid
+from lagsight.problems import FieldError, Problem, invalid
+from lagsight.web.observability import request_id
+
+log = logging.getLogger("lagsight")
 
 JSON_TYPES = ("application/json",)
 
@@ -49,20 +53,80 @@ def _has_lone_surrogate(data) -> bool:
     return False
 
 
-def read_body(request: Request) -> bytes:
-    """The raw body, refused with 413 past the deployment's limit whether or not it came with a Content-Length.
+#: Bytes asked of the server's input stream per read.
+_STEP = 64 << 10
+#: Where the body read once is kept for the rest of the request (see :func:`read_body`).
+_BODY_KEY = "lagsight.body"
 
-    With a Content-Length werkzeug refuses an oversized body before reading it. Without one
-    (chunked transfer) it stops reading at the limit and returns what it has, so one more
-    byte is read from the server's stream to tell a body that ends at the limit from one that
-    goes on: a truncated body must never be parsed as if it were whole.
+
+def _read_stream(stream, most: int) -> bytes:
+    """Up to ``most`` bytes from the server's input stream, fewer only where the stream ends.
+
+    An error raised by the stream itself is the transfer's fault, never the service's: gunicorn
+    raises one for malformed chunked framing (a chunk size that is not hex, a chunk without its
+    CRLF, a bad extension) and for a connection that ends inside a chunk. Its message can quote
+    the caller's bytes, so neither the answer nor a log line repeats it.
     """
-    body = request.get_data(cache=True)
-    if request.content_length is None:
-        limit = request.max_content_length
-        if limit is not None and len(body) >= limit and request.environ["wsgi.input"].read(1):
-            raise Problem("payload-too-large", f"The request body is larger than this deployment's limit of {limit} bytes.")
+    parts, have = [], 0
+    while have < most:
+        try:
+            part = stream.read(min(_STEP, most - have))
+        except Exception as exc:  # any failure to read the body is a framing or transfer failure
+            log.info("request body unreadable", extra={"request_id": request_id(), "exception": type(exc).__name__})
+            raise _whole_body("bad-request", "The request body could not be read: its chunked transfer framing is "
+                                             "malformed, or the connection ended inside it; send the whole body, "
+                                             "well-formed.") from None
+        if not part:
+            break
+        parts.append(part)
+        have += len(part)
+    return b"".join(parts)
+
+
+def read_body(request: Request) -> bytes:
+    """The raw body, read once and checked against the deployment's limit on every path.
+
+    - With a Content-Length: over the limit is a 413 before a byte is read; a body that ends
+      before the length it announced is a 400 (it is never parsed as if it were whole).
+    - Without one (chunked transfer; the server marks such a stream as terminated): at most one
+      byte past the limit is read, and a body that goes past it is a 413, so a truncated body
+      is never parsed either. Malformed framing is a 400.
+    - Neither (a server that cannot end the stream): no body.
+
+    Every route reads its body here, JSON and CSV alike; the bytes are kept for the request.
+    """
+    environ = request.environ
+    cached = environ.get(_BODY_KEY)
+    if cached is not None:
+        return cached
+    limit = request.max_content_length
+    length = request.content_length
+    stream = environ["wsgi.input"]
+    if length is not None:
+        if limit is not None and length > limit:
+            raise _too_large(limit)
+        body = _read_stream(stream, length)
+        if len(body) < length:
+            raise _whole_body("bad-request", f"The request body ended after {len(body)} of the {length} bytes its "
+                                             "Content-Length announced; send the whole body.")
+    elif environ.get("wsgi.input_terminated"):
+        body = _read_stream(stream, limit + 1 if limit is not None else 1 << 62)
+        if limit is not None and len(body) > limit:
+            raise _too_large(limit)
+    else:
+        body = b""
+    environ[_BODY_KEY] = body
     return body
+
+
+def _whole_body(kind: str, detail: str) -> Problem:
+    """A problem with the body as a whole: its pointer is the root ("")."""
+    return Problem(kind, detail, [FieldError("", detail)])
+
+
+def _too_large(limit: int) -> Problem:
+    return _whole_body("payload-too-large", f"The request body is larger than this deployment's limit of {limit} "
+                                            "bytes; nothing was analysed. Send less data per request, or split a batch.")
 
 
 def read_json_object(request: Request) -> dict:
