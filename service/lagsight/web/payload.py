@@ -13,6 +13,9 @@ from lagsight.web.observability import request_id
 log = logging.getLogger("lagsight")
 
 JSON_TYPES = ("application/json",)
+_UTF8_BOM = b"\xef\xbb\xbf"
+#: The json module's messages that speak of Python rather than of the text, said plainly.
+_PLAIN_MESSAGES = {"Unexpected UTF-8 BOM (decode using utf-8-sig)": "a second byte-order mark (U+FEFF) before the JSON"}
 
 
 def media_type(request: Request) -> str:
@@ -130,13 +133,20 @@ def _too_large(limit: int) -> Problem:
 
 
 def read_json_object(request: Request) -> dict:
-    """Parse the body as a JSON object, or raise a Problem (400, 413 or 415; 422 for a non-object)."""
+    """Parse the body as a JSON object, or raise a Problem (400, 413 or 415; 422 for a non-object).
+
+    A leading UTF-8 byte-order mark is skipped (what CSV bodies also allow): JSON must not carry one, but
+    PowerShell 5 and other Windows tools write it, and refusing it helps no one. Other encodings
+    (UTF-16, with or without a mark) are a 400 saying the body is not UTF-8.
+    """
     if not is_json(request):
         raise Problem(
             "unsupported-media-type",
             f"Send the body as application/json, or text/csv on /v1/diagnostics (got {request.mimetype or 'no Content-Type'}).",
         )
     body = read_body(request)
+    if body.startswith(_UTF8_BOM):  # RFC 8259 section 8.1 lets a parser ignore it; Windows tools write one
+        body = body[len(_UTF8_BOM):]
     if not body or body.isspace():
         raise Problem("malformed-json", "The request body is empty; send a JSON object.")
     try:
@@ -149,7 +159,8 @@ def read_json_object(request: Request) -> dict:
         except RecursionError:
             raise Problem("malformed-json", "The JSON is nested too deeply.") from None
         except json.JSONDecodeError as err:
-            raise Problem("malformed-json", f"Invalid JSON at line {err.lineno}, column {err.colno}: {err.msg}.") from None
+            msg = _PLAIN_MESSAGES.get(err.msg, err.msg)
+            raise Problem("malformed-json", f"Invalid JSON at line {err.lineno}, column {err.colno}: {msg}.") from None
         except ValueError:
             raise Problem("malformed-json", f"Invalid JSON: {first}.") from None
         if _has_lone_surrogate(data):  # orjson refuses these; the second opinion must too
