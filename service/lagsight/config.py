@@ -70,12 +70,16 @@ SETTINGS: dict[str, Setting] = {
                        "gunicorn worker processes (default 2 x cores + 1, at most 9).", "server"),
     "TIMEOUT": Setting("LAGSIGHT_TIMEOUT", 60, positive_int,
                        "Seconds a worker may spend on one request before gunicorn restarts it.", "server"),
-    "GRACEFUL_TIMEOUT": Setting("LAGSIGHT_GRACEFUL_TIMEOUT", 30, positive_int,
-                                "Seconds in-flight requests get to finish after SIGTERM.", "server"),
+    "GRACEFUL_TIMEOUT": Setting("LAGSIGHT_GRACEFUL_TIMEOUT", None, positive_int,
+                                "Seconds in-flight requests get to finish after SIGTERM; by default the TIMEOUT. "
+                                "A value below the TIMEOUT is refused at start: a request the worker timeout allows "
+                                "would be cut off by a shutdown.", "server"),
     "KEEPALIVE": Setting("LAGSIGHT_KEEPALIVE", 5, non_negative_int,
                          "Seconds to hold an idle keep-alive connection (gthread workers; sync workers close).", "server"),
-    "MAX_REQUESTS": Setting("LAGSIGHT_MAX_REQUESTS", 0, non_negative_int,
-                            "Recycle a worker after this many requests (0 = never); 10% jitter is added.", "server"),
+    "MAX_REQUESTS": Setting("LAGSIGHT_MAX_REQUESTS", 1000, non_negative_int,
+                            "Recycle a worker after this many requests plus a random 0-10% (jitter, so that workers "
+                            "do not restart together); 0 = never. A recycled worker gives back what its largest "
+                            "requests left it holding (see docs/DEPLOYMENT.md).", "server"),
     "HEAP_KEEP_MB": Setting("LAGSIGHT_HEAP_KEEP_MB", 64, non_negative_int,
                             "MiB of freed memory each worker keeps for reuse rather than returning it to the kernel at "
                             "once (arrays up to half of it, at most 32 MiB, come from the heap); spares large batches "
@@ -129,6 +133,18 @@ def load(overrides: dict | None = None, environ=None) -> dict:
             reason = f": {err}" if str(err) and "invalid literal" not in str(err) else ""
             raise ValueError(f"{var}={raw!r} is not a valid {getattr(parse, '__name__', 'value')}{reason}") from None
     out.update(overrides or {})
+    return _derived(out)
+
+
+def _derived(out: dict) -> dict:
+    """Fill the defaults that follow other settings and refuse combinations that break a promise."""
+    timeout = out["TIMEOUT"]
+    if out["GRACEFUL_TIMEOUT"] is None:
+        out["GRACEFUL_TIMEOUT"] = timeout
+    elif out["GRACEFUL_TIMEOUT"] < timeout:
+        raise ValueError(f"LAGSIGHT_GRACEFUL_TIMEOUT={out['GRACEFUL_TIMEOUT']} is less than LAGSIGHT_TIMEOUT={timeout}: "
+                         "a request the worker timeout allows would be cut off at shutdown; raise it, or leave it "
+                         "unset to follow LAGSIGHT_TIMEOUT")
     return out
 
 
@@ -143,6 +159,8 @@ def markdown_table() -> str:
             shown = "2 x cores + 1 (max 9)"
         elif var == "LAGSIGHT_OPENAPI_PATH":
             shown = "openapi/openapi.yaml"
+        elif var == "LAGSIGHT_GRACEFUL_TIMEOUT":
+            shown = "LAGSIGHT_TIMEOUT"
         elif isinstance(default, tuple):
             shown = ",".join(default) or "(empty)"
         else:
