@@ -31,6 +31,7 @@ from lagsight.pipeline import Plan, gc_paused, plan_for, run_blocks
 from lagsight.problems import FieldError, Problem, flatten_messages
 from lagsight.web import metrics
 from lagsight.web.diagnostics import load
+from lagsight.web.observability import request_id, route_label
 from lagsight.web.payload import read_body, read_json_object
 from lagsight.web.responses import json_response
 
@@ -291,7 +292,7 @@ def _stream(errors, prepared, where, summary: _Summary, detail: str, notes: dict
             yield b"".join(lines)
         yield _line({"kind": "summary", "summary": summary.counts, **notes})
     except Exception:  # the status line is sent: end the stream with an error line instead
-        log.exception("unhandled error while streaming %s", request.path)
+        log.exception("unhandled error while streaming", extra={"request_id": request_id(), "route": route_label()})
         problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "
                                             "Results already sent are valid; the others were not computed.")
         yield _line({"kind": "error", "error": problem.as_dict(request.path)})
