@@ -28,6 +28,13 @@ def non_negative_int(raw: str) -> int:
     return value
 
 
+def positive_seconds(raw: str) -> float:
+    value = float(raw)
+    if not value > 0 or value == float("inf"):
+        raise ValueError("must be a positive number of seconds")
+    return value
+
+
 def word_list(raw: str) -> tuple[str, ...]:
     """Comma- or space-separated words, empty entries dropped."""
     return tuple(w for w in raw.replace(",", " ").split() if w)
@@ -99,6 +106,15 @@ SETTINGS: dict[str, Setting] = {
                               "Most Monte Carlo replicates a request may ask for (422 beyond)."),
     "MAX_SIMULATED_VALUES": Setting("LAGSIGHT_MAX_SIMULATED_VALUES", options.DEFAULT_LIMITS["max_simulated_values"],
                                     positive_int, "Most Monte Carlo replicates x series length in one request (422 beyond)."),
+    "MAX_COST": Setting("LAGSIGHT_MAX_COST", options.DEFAULT_LIMITS["max_cost"], positive_int,
+                        "Most estimated work in one request, in cost units (about a millisecond of one core of the "
+                        "benchmark machine; see web/budget.py for what is counted): 413 beyond, before any analysis, "
+                        "naming the cost and what to change."),
+    "REQUEST_DEADLINE": Setting("LAGSIGHT_REQUEST_DEADLINE", None, positive_seconds,
+                                "Seconds after which a request still running is ended (checked before each engine "
+                                "pass; a pass that has started runs to its end): 503, or one error line per series "
+                                "not done in an NDJSON stream. By default half the TIMEOUT; it must be below the "
+                                "TIMEOUT."),
     # browsers and security
     "CORS_ORIGINS": Setting("LAGSIGHT_CORS_ORIGINS", (), word_list,
                             "Origins allowed to call from a browser (comma-separated, exact match; * for any). "
@@ -145,6 +161,12 @@ def _derived(out: dict) -> dict:
         raise ValueError(f"LAGSIGHT_GRACEFUL_TIMEOUT={out['GRACEFUL_TIMEOUT']} is less than LAGSIGHT_TIMEOUT={timeout}: "
                          "a request the worker timeout allows would be cut off at shutdown; raise it, or leave it "
                          "unset to follow LAGSIGHT_TIMEOUT")
+    if out["REQUEST_DEADLINE"] is None:
+        out["REQUEST_DEADLINE"] = timeout / 2
+    elif out["REQUEST_DEADLINE"] >= timeout:
+        raise ValueError(f"LAGSIGHT_REQUEST_DEADLINE={out['REQUEST_DEADLINE']:g} is not below LAGSIGHT_TIMEOUT={timeout}: "
+                         "a late request would be killed with its worker instead of ended with an answer; lower it, "
+                         "or leave it unset for half the TIMEOUT")
     return out
 
 
@@ -161,6 +183,8 @@ def markdown_table() -> str:
             shown = "openapi/openapi.yaml"
         elif var == "LAGSIGHT_GRACEFUL_TIMEOUT":
             shown = "LAGSIGHT_TIMEOUT"
+        elif var == "LAGSIGHT_REQUEST_DEADLINE":
+            shown = "LAGSIGHT_TIMEOUT / 2"
         elif isinstance(default, tuple):
             shown = ",".join(default) or "(empty)"
         else:

@@ -24,7 +24,7 @@ from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
 from lagsight.pipeline import plan_for, run
 from lagsight.problems import Problem, flatten_messages
-from lagsight.web import metrics, query
+from lagsight.web import budget, metrics, query
 from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
 
@@ -124,6 +124,9 @@ def diagnose():
         plan = plan_for(series, data, cfg)
     except Problem as problem:
         raise _with_lines(problem, raw) from None
+    budget.check(budget.engine_work(budget.Estimate(), [(series, plan)], "full"), "")
+    if budget.deadline_passed():  # reading and preparing took the request's time: the engine would run late
+        raise budget.late(0, 1)
     report = run([(series, plan)], observe=metrics.record_analysed)[0]
     if fmt == "csv":
         return Response(correlogram_table(report), mimetype="text/csv",
