@@ -36,7 +36,9 @@ def main(argv=None) -> int:
     ns = ap.parse_args(argv)
     port = lib.free_port()
     log = Path(tempfile.mkdtemp(prefix="lagsight-kill-")) / "gunicorn.log"
-    server = lib.start_gunicorn(port, ns.workers, log, env={"LAGSIGHT_LOG_LEVEL": "INFO"})
+    # No recycling (LAGSIGHT_MAX_REQUESTS=0): every new worker pid is then a replacement for a killed one.
+    server = lib.start_gunicorn(port, ns.workers, log,
+                                env={"LAGSIGHT_LOG_LEVEL": "INFO", "LAGSIGHT_MAX_REQUESTS": "0"})
     kills: list[dict] = []
 
     def killer():

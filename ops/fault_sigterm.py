@@ -51,7 +51,7 @@ def _in_flight_request(port: int, body: bytes, release: threading.Event, out: li
 
 def phase_in_flight(workers: int, points: int, log: Path) -> dict:
     port = lib.free_port()
-    server = lib.start_gunicorn(port, workers, log, env={"LAGSIGHT_GRACEFUL_TIMEOUT": "30"})
+    server = lib.start_gunicorn(port, workers, log)  # the default graceful timeout (LAGSIGHT_TIMEOUT)
     body = lib.payload(points)
     release = threading.Event()
     out: list = [None] * workers

@@ -44,7 +44,9 @@ def main(argv=None) -> int:
     wrk_bin = lib.ensure_tool("wrk", "wrk")
     port = lib.free_port()
     log = Path(tempfile.mkdtemp(prefix="lagsight-load-")) / "gunicorn.log"
-    server = lib.start_gunicorn(port, ns.workers, log, env={"LAGSIGHT_LOG_LEVEL": "WARNING"})
+    # No recycling (LAGSIGHT_MAX_REQUESTS=0): the run measures how the same workers' memory grows under load.
+    server = lib.start_gunicorn(port, ns.workers, log,
+                                env={"LAGSIGHT_LOG_LEVEL": "WARNING", "LAGSIGHT_MAX_REQUESTS": "0"})
     try:
         warm = wrk(wrk_bin, port, ns.warmup, ns.connections)
         pids = sorted(lib.children(server.pid))

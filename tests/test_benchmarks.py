@@ -46,3 +46,13 @@ def test_engine_free_what_if_serves_the_same_reports_from_its_cache():
     assert len(set(answers)) == 1
     result = ceiling.measure(seconds=1, rounds=1, connections=2)
     assert result["engine"]["diagnosis_rps"] > 0 and result["engine_free"]["diagnosis_rps"] > 0
+
+
+def test_cost_model_script_prints_estimate_and_measurement(capsys):
+    """benchmarks.cost_model (how web/budget.py's coefficients are checked) runs its quick cases."""
+    from benchmarks import cost_model
+
+    cost_model.main(["--quick"])
+    rows = [line.split() for line in capsys.readouterr().out.splitlines()[1:] if line.strip()]
+    assert len(rows) == len(cost_model.QUICK)
+    assert all(float(row[-3]) > 0 and float(row[-2]) > 0 for row in rows)  # estimate and measured time

@@ -38,6 +38,45 @@ def test_settings_come_from_the_environment_and_are_checked():
             config.load(environ={var: raw})
 
 
+def test_graceful_timeout_follows_the_timeout_and_is_never_below_it():
+    """SIGTERM gives in-flight requests at least as long as the worker timeout lets them run."""
+    assert config.load(environ={})["GRACEFUL_TIMEOUT"] == config.load(environ={})["TIMEOUT"] == 60
+    assert config.load(environ={"LAGSIGHT_TIMEOUT": "120"})["GRACEFUL_TIMEOUT"] == 120
+    assert config.load(environ={"LAGSIGHT_GRACEFUL_TIMEOUT": "90"})["GRACEFUL_TIMEOUT"] == 90
+    for env in ({"LAGSIGHT_GRACEFUL_TIMEOUT": "30"}, {"LAGSIGHT_TIMEOUT": "120", "LAGSIGHT_GRACEFUL_TIMEOUT": "90"}):
+        with pytest.raises(ValueError, match="LAGSIGHT_GRACEFUL_TIMEOUT=.* is less than LAGSIGHT_TIMEOUT"):
+            config.load(environ=env)
+
+
+def test_cli_refuses_a_timeout_flag_above_the_graceful_timeout(monkeypatch):
+    from lagsight.serving import cli
+
+    monkeypatch.setenv("LAGSIGHT_GRACEFUL_TIMEOUT", "60")
+    monkeypatch.setattr(cli, "serve", lambda environ: pytest.fail("must not start"))
+    with pytest.raises(SystemExit, match="LAGSIGHT_GRACEFUL_TIMEOUT=60 is less than LAGSIGHT_TIMEOUT=90"):
+        cli.main(["serve", "--timeout", "90"])
+
+
+@pytest.mark.parametrize("env, expected", [
+    ({}, "60 60 1000 100"),  # the defaults: a full drain, recycling with 10% jitter
+    ({"LAGSIGHT_TIMEOUT": "90", "LAGSIGHT_MAX_REQUESTS": "50"}, "90 90 50 5"),
+    ({"LAGSIGHT_MAX_REQUESTS": "0"}, "60 60 0 0"),  # recycling off
+])
+def test_gunicorn_settings_drain_fully_and_recycle_workers_with_jitter(tmp_path, env, expected):
+    """What the gunicorn settings module hands gunicorn, read in a fresh interpreter (it sets up the process)."""
+    import os
+    import subprocess
+    import sys
+
+    environ = {k: v for k, v in os.environ.items() if not k.startswith("LAGSIGHT_")}
+    environ.update(env, PROMETHEUS_MULTIPROC_DIR=str(tmp_path))
+    code = ("import lagsight.serving.gunicorn_conf as c\n"
+            "print(c.timeout, c.graceful_timeout, c.max_requests, c.max_requests_jitter)")
+    out = subprocess.run([sys.executable, "-c", code], env=environ, capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip().splitlines()[-1] == expected
+
+
 def test_readyz_runs_the_engine_self_check(client):
     r = client.get("/readyz")
     body = r.get_json()

@@ -47,3 +47,19 @@ def test_gunicorn_serves_a_diagnosis(tmp_path):
         proc.send_signal(signal.SIGTERM)
         proc.wait(timeout=30)
         log.close()
+
+
+@pytest.mark.slow
+def test_gunicorn_recycles_a_worker_after_max_requests(tmp_path):
+    """LAGSIGHT_MAX_REQUESTS reaches gunicorn: the one worker is replaced after its requests, and no caller notices."""
+    import json
+
+    from .live_server import live_gunicorn
+
+    with live_gunicorn(tmp_path, env={"LAGSIGHT_MAX_REQUESTS": "3"}) as base:
+        statuses = [requests.get(base + "/healthz", timeout=30).status_code for _ in range(8)]
+    assert statuses == [200] * 8
+    lines = [json.loads(line) for path in tmp_path.glob("gunicorn-*.log")
+             for line in path.read_text().splitlines() if line.startswith("{")]
+    assert sum(e["message"] == "Autorestarting worker after current request." for e in lines) >= 2
+    assert len({e["pid"] for e in lines if e.get("route") == "/healthz"}) >= 3  # 3 requests each (jitter 3 // 10 = 0)

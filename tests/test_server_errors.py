@@ -51,3 +51,30 @@ def test_gunicorn_level_errors_are_problems(tmp_path):
         for raw, want_status, slug in cases:
             status, problem, _ = _problem(_raw(base, raw))
             assert (status, problem["type"]) == (want_status, "urn:lagsight:problem:" + slug), raw[:60]
+
+
+@pytest.mark.slow
+def test_a_worker_stopped_by_its_timeout_answers_503_with_the_request_id(tmp_path):
+    """gunicorn aborts a worker that runs past LAGSIGHT_TIMEOUT; the caller gets a 503 problem with its request id
+    (not a bare 500), the log says so with the same id, and the stop is counted."""
+    import json
+    import re
+
+    import numpy as np
+    import requests
+
+    values = np.random.default_rng(4).standard_normal(5000).tolist()  # Monte Carlo over 5,000 points: seconds
+    with live_gunicorn(tmp_path, env={"LAGSIGHT_TIMEOUT": "1"}) as base:
+        r = requests.post(base + "/v1/diagnostics", json={"values": values, "p_values": "monte_carlo",
+                                                          "replicates": 9999},
+                          headers={"X-Request-ID": "slow-bakery-1"}, timeout=60)
+        metrics_text = requests.get(base + "/metrics", timeout=30).text
+    assert r.status_code == 503 and r.headers["Content-Type"] == "application/problem+json"
+    assert r.headers["X-Request-ID"] == "slow-bakery-1" and "Server" not in r.headers
+    problem = r.json()
+    assert_valid(problem, "Problem")
+    assert problem["type"] == "urn:lagsight:problem:unavailable" and "worker timeout" in problem["detail"]
+    lines = [json.loads(line) for p in tmp_path.glob("gunicorn-*.log") for line in p.read_text().splitlines()
+             if line.startswith("{")]
+    assert any(e.get("request_id") == "slow-bakery-1" and "stopped" in e["message"] for e in lines)
+    assert re.search(r'^lagsight_requests_stopped_total\{by="worker"\} 1\.0$', metrics_text, re.M)

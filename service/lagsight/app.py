@@ -16,6 +16,9 @@ def load_spec(path: str) -> dict:
 def create_app(config: dict | None = None) -> Flask:
     """Build the Flask app; ``config`` overrides settings (tests pass a dict)."""
     app = Flask("lagsight", static_folder=None)  # the page blueprint serves the static files
+    # werkzeug would answer /v1//methods with a redirect whose Location it builds from the Host header;
+    # such a path is a 404 problem instead (and web/errors.py turns any other routing redirect into one).
+    app.url_map.merge_slashes = False
     app.config.update(settings.load(config))
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.extensions["lagsight.spec"] = load_spec(app.config["OPENAPI_PATH"])

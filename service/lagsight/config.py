@@ -28,6 +28,13 @@ def non_negative_int(raw: str) -> int:
     return value
 
 
+def positive_seconds(raw: str) -> float:
+    value = float(raw)
+    if not value > 0 or value == float("inf"):
+        raise ValueError("must be a positive number of seconds")
+    return value
+
+
 def word_list(raw: str) -> tuple[str, ...]:
     """Comma- or space-separated words, empty entries dropped."""
     return tuple(w for w in raw.replace(",", " ").split() if w)
@@ -70,12 +77,16 @@ SETTINGS: dict[str, Setting] = {
                        "gunicorn worker processes (default 2 x cores + 1, at most 9).", "server"),
     "TIMEOUT": Setting("LAGSIGHT_TIMEOUT", 60, positive_int,
                        "Seconds a worker may spend on one request before gunicorn restarts it.", "server"),
-    "GRACEFUL_TIMEOUT": Setting("LAGSIGHT_GRACEFUL_TIMEOUT", 30, positive_int,
-                                "Seconds in-flight requests get to finish after SIGTERM.", "server"),
+    "GRACEFUL_TIMEOUT": Setting("LAGSIGHT_GRACEFUL_TIMEOUT", None, positive_int,
+                                "Seconds in-flight requests get to finish after SIGTERM; by default the TIMEOUT. "
+                                "A value below the TIMEOUT is refused at start: a request the worker timeout allows "
+                                "would be cut off by a shutdown.", "server"),
     "KEEPALIVE": Setting("LAGSIGHT_KEEPALIVE", 5, non_negative_int,
                          "Seconds to hold an idle keep-alive connection (gthread workers; sync workers close).", "server"),
-    "MAX_REQUESTS": Setting("LAGSIGHT_MAX_REQUESTS", 0, non_negative_int,
-                            "Recycle a worker after this many requests (0 = never); 10% jitter is added.", "server"),
+    "MAX_REQUESTS": Setting("LAGSIGHT_MAX_REQUESTS", 1000, non_negative_int,
+                            "Recycle a worker after this many requests plus a random 0-10% (jitter, so that workers "
+                            "do not restart together); 0 = never. A recycled worker gives back what its largest "
+                            "requests left it holding (see docs/DEPLOYMENT.md).", "server"),
     "HEAP_KEEP_MB": Setting("LAGSIGHT_HEAP_KEEP_MB", 64, non_negative_int,
                             "MiB of freed memory each worker keeps for reuse rather than returning it to the kernel at "
                             "once (arrays up to half of it, at most 32 MiB, come from the heap); spares large batches "
@@ -95,6 +106,15 @@ SETTINGS: dict[str, Setting] = {
                               "Most Monte Carlo replicates a request may ask for (422 beyond)."),
     "MAX_SIMULATED_VALUES": Setting("LAGSIGHT_MAX_SIMULATED_VALUES", options.DEFAULT_LIMITS["max_simulated_values"],
                                     positive_int, "Most Monte Carlo replicates x series length in one request (422 beyond)."),
+    "MAX_COST": Setting("LAGSIGHT_MAX_COST", options.DEFAULT_LIMITS["max_cost"], positive_int,
+                        "Most estimated work in one request, in cost units (about a millisecond of one core of the "
+                        "benchmark machine; see web/budget.py for what is counted): 413 beyond, before any analysis, "
+                        "naming the cost and what to change."),
+    "REQUEST_DEADLINE": Setting("LAGSIGHT_REQUEST_DEADLINE", None, positive_seconds,
+                                "Seconds after which a request still running is ended (checked before each engine "
+                                "pass; a pass that has started runs to its end): 503, or one error line per series "
+                                "not done in an NDJSON stream. By default half the TIMEOUT; it must be below the "
+                                "TIMEOUT."),
     # browsers and security
     "CORS_ORIGINS": Setting("LAGSIGHT_CORS_ORIGINS", (), word_list,
                             "Origins allowed to call from a browser (comma-separated, exact match; * for any). "
@@ -129,6 +149,24 @@ def load(overrides: dict | None = None, environ=None) -> dict:
             reason = f": {err}" if str(err) and "invalid literal" not in str(err) else ""
             raise ValueError(f"{var}={raw!r} is not a valid {getattr(parse, '__name__', 'value')}{reason}") from None
     out.update(overrides or {})
+    return _derived(out)
+
+
+def _derived(out: dict) -> dict:
+    """Fill the defaults that follow other settings and refuse combinations that break a promise."""
+    timeout = out["TIMEOUT"]
+    if out["GRACEFUL_TIMEOUT"] is None:
+        out["GRACEFUL_TIMEOUT"] = timeout
+    elif out["GRACEFUL_TIMEOUT"] < timeout:
+        raise ValueError(f"LAGSIGHT_GRACEFUL_TIMEOUT={out['GRACEFUL_TIMEOUT']} is less than LAGSIGHT_TIMEOUT={timeout}: "
+                         "a request the worker timeout allows would be cut off at shutdown; raise it, or leave it "
+                         "unset to follow LAGSIGHT_TIMEOUT")
+    if out["REQUEST_DEADLINE"] is None:
+        out["REQUEST_DEADLINE"] = timeout / 2
+    elif out["REQUEST_DEADLINE"] >= timeout:
+        raise ValueError(f"LAGSIGHT_REQUEST_DEADLINE={out['REQUEST_DEADLINE']:g} is not below LAGSIGHT_TIMEOUT={timeout}: "
+                         "a late request would be killed with its worker instead of ended with an answer; lower it, "
+                         "or leave it unset for half the TIMEOUT")
     return out
 
 
@@ -143,6 +181,10 @@ def markdown_table() -> str:
             shown = "2 x cores + 1 (max 9)"
         elif var == "LAGSIGHT_OPENAPI_PATH":
             shown = "openapi/openapi.yaml"
+        elif var == "LAGSIGHT_GRACEFUL_TIMEOUT":
+            shown = "LAGSIGHT_TIMEOUT"
+        elif var == "LAGSIGHT_REQUEST_DEADLINE":
+            shown = "LAGSIGHT_TIMEOUT / 2"
         elif isinstance(default, tuple):
             shown = ",".join(default) or "(empty)"
         else:

@@ -25,6 +25,7 @@ DEFAULT_LIMITS = {
     "max_batch_points": 5_000_000,  # values in one batch request, all series together
     "max_replicates": 9_999,  # Monte Carlo replicates one request may ask for
     "max_simulated_values": 50_000_000,  # Monte Carlo replicates x n per request
+    "max_cost": 20_000,  # estimated work per request, in cost units (web/budget.py)
 }
 
 

@@ -40,6 +40,10 @@ def main(argv=None) -> None:
         environ = dict(os.environ)
         for flag, key in _FLAGS.items():
             environ[config.SETTINGS[key].var] = str(getattr(ns, flag))
+        try:
+            config.load(environ=environ)  # the flags with the environment (e.g. a --timeout above the graceful timeout)
+        except ValueError as err:
+            sys.exit(f"lagsight: {err}")
         serve(environ)
 
 

@@ -4,8 +4,10 @@
 docs/DEPLOYMENT.md). Values come from :mod:`lagsight.config`, so the one table
 in docs/CONFIGURATION.md documents them. It also prepares the directory through
 which the workers share their Prometheus counts, makes gunicorn's own log
-lines JSON like the service's, freezes the preloaded objects before each fork, and lets the
-workers keep freed array memory for reuse (:mod:`lagsight.serving.heap`).
+lines JSON like the service's (without the caller's bytes: :mod:`lagsight.serving.server_errors`),
+answers gunicorn's own errors as problem+json with the service's headers, sends no ``Server`` header,
+freezes the preloaded objects before each fork, and lets the workers keep freed array memory for reuse
+(:mod:`lagsight.serving.heap`).
 """
 import gc
 import glob
@@ -24,14 +26,24 @@ for _threads in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 from lagsight import (
     config as _config,  # imports no metrics: prometheus_client must see the directory first
 )
-from lagsight.serving import heap, server_errors, whole_response
-
-whole_response.install()  # header and body in one write: a killed worker never leaves a half-sent response
-server_errors.install()  # gunicorn's own 400/414/431/... answers in the problem+json shape
 
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"  # read by prometheus_client when it is first imported
 
 _s = _config.load()
+
+# Workers share metrics through files in one directory, which must start empty.
+_made_dir = not os.environ.get(MULTIPROC_ENV)
+if _made_dir:
+    os.environ[MULTIPROC_ENV] = tempfile.mkdtemp(prefix="lagsight-metrics-")
+for _stale in glob.glob(os.path.join(os.environ[MULTIPROC_ENV], "*.db")):
+    os.remove(_stale)
+
+# After the metrics directory is set: server_errors counts the requests a stopped worker answers.
+from lagsight.serving import banner, heap, server_errors, whole_response  # noqa: E402
+
+whole_response.install()  # header and body in one write: a killed worker never leaves a half-sent response
+server_errors.install(_s["FRAME_ANCESTORS"])  # gunicorn's own answers as problem+json; no caller bytes in its logs
+banner.install()  # no Server header: the service's answers do not name the server software
 
 # Set in the master, so every forked worker inherits it (see lagsight.serving.heap).
 heap.keep_freed_memory(_s["HEAP_KEEP_MB"])
@@ -52,20 +64,15 @@ logconfig_dict = {
     "version": 1,
     "disable_existing_loggers": False,
     "formatters": {"json": {"()": "lagsight.web.observability.JsonFormatter"}},
-    "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json", "stream": "ext://sys.stderr"}},
+    "filters": {"request_id": {"()": "lagsight.serving.server_errors.RequestIdFilter"}},
+    "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json", "stream": "ext://sys.stderr",
+                            "filters": ["request_id"]}},
     "root": {"level": "WARNING", "handlers": ["stderr"]},
     "loggers": {
         "gunicorn.error": {"handlers": ["stderr"], "level": _s["LOG_LEVEL"], "propagate": False},
         "gunicorn.access": {"handlers": [], "level": "CRITICAL", "propagate": False},
     },
 }
-
-# Workers share metrics through files in one directory, which must start empty.
-_made_dir = not os.environ.get(MULTIPROC_ENV)
-if _made_dir:
-    os.environ[MULTIPROC_ENV] = tempfile.mkdtemp(prefix="lagsight-metrics-")
-for _stale in glob.glob(os.path.join(os.environ[MULTIPROC_ENV], "*.db")):
-    os.remove(_stale)
 
 
 def post_worker_init(worker):
@@ -89,6 +96,9 @@ def post_worker_init(worker):
 
     worker.handle_exit = stop_listening_then_drain
     signal.signal(signal.SIGTERM, stop_listening_then_drain)
+
+
+pre_request = server_errors.before_request  # a stopped worker's answer must not reuse the previous request's id
 
 
 def pre_fork(server, worker):

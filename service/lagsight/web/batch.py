@@ -30,9 +30,10 @@ from lagsight.outputs import brief
 from lagsight.outputs.encode import dumps
 from lagsight.pipeline import Plan, gc_paused, plan_for, run_blocks
 from lagsight.problems import FieldError, Problem, flatten_messages
-from lagsight.web import metrics
+from lagsight.web import budget, metrics
 from lagsight.web.diagnostics import load
-from lagsight.web.payload import read_json_object
+from lagsight.web.observability import request_id, route_label
+from lagsight.web.payload import read_body, read_json_object
 from lagsight.web.responses import json_response
 
 bp = Blueprint("batch", __name__)
@@ -258,10 +259,13 @@ def _answer(media: str) -> Response:
         # One seed for the whole batch (reported in every result), so that series of equal length
         # share one simulated null instead of one simulation each.
         shared["seed"] = secrets.randbits(63)
-    data = request.get_data(cache=True)  # the body as read: no JSON boolean without these bytes
+    data = read_body(request)  # the body as read (kept by payload.py): no JSON boolean without these bytes
+    estimate = budget.box_cox_estimates(budget.Estimate(), *_box_cox_requests(raw, shared))
+    budget.check(estimate, "/series")  # before the series are prepared, where the estimates run
     prepared, where, errors = prepare_items(raw, shared, cfg, booleans=b"true" in data or b"false" in data)
     del body, raw, data  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
+    budget.check(budget.engine_work(estimate, prepared, detail), "/series")
     summary = _Summary(len(where) + len(errors), 1.0 - shared["confidence"])
     notes = _brief_notes(prepared) if detail == "brief" else {}
     if media == NDJSON:
@@ -270,17 +274,54 @@ def _answer(media: str) -> Response:
     results: list = [None] * (len(where) + len(errors))
     for i, result in errors:
         results[i] = result
-    for block in run_blocks(prepared, detail, observe=metrics.record_analysed):
+    late: list[Problem] = []
+    for block in _blocks_in_time(prepared, detail, late):
         for j, report in block:
             i, item_id = where[j]
             results[i] = {"id": item_id, **report}
             summary.add(results[i], i, 1.0 - prepared[j][1].spec.confidence)
+    if late:
+        raise late[0]
     for _, result in errors:
         summary.add(result)
     answer = {"results": results, "summary": summary.across()}
     if detail == "brief":
         answer = {"detail": detail, **answer, **notes}
     return json_response(answer)  # the results are freed on return, the collector still paused
+
+
+def _box_cox_requests(raw: list, shared: dict) -> tuple[int, int]:
+    """How many series ask for a Box-Cox lambda estimate, and their points (read before validation)."""
+    count = points = 0
+    for item in raw:
+        if not isinstance(item, dict):
+            continue
+        transform = item.get("transform") if "transform" in item else shared.get("transform")
+        if isinstance(transform, dict) and transform.get("box_cox") == "estimate":
+            count += 1
+            values = item.get("values")
+            points += len(values) if isinstance(values, list) else 0
+    return count, points
+
+
+def _blocks_in_time(prepared: list, detail: str, late: list):
+    """The engine's blocks (pipeline.run_blocks) while the request is within its deadline, checked before
+    each engine pass. At the deadline it stops and appends the 503 problem to ``late``: a pass that has
+    started is not interrupted, so a request ends at most one pass after its deadline."""
+    done = 0
+    passes = run_blocks(prepared, detail, observe=metrics.record_analysed)
+    try:
+        while True:
+            if budget.deadline_passed():
+                late.append(budget.late(done, len(prepared)))
+                return
+            block = next(passes, None)
+            if block is None:
+                return
+            done += len(block)
+            yield block
+    finally:
+        passes.close()
 
 
 def _brief_notes(prepared: list[tuple[PreparedSeries, Plan]]) -> dict:
@@ -302,17 +343,28 @@ def _stream(errors, prepared, where, summary: _Summary, detail: str, notes: dict
             for _, result in errors:
                 summary.add(result)
             yield b"".join(_line({"kind": "result", "index": i, **result}) for i, result in errors)
-        for block in run_blocks(prepared, detail, observe=metrics.record_analysed):
+        late: list[Problem] = []
+        done = bytearray(len(prepared))
+        for block in _blocks_in_time(prepared, detail, late):
             lines = []
             for j, report in block:
                 i, item_id = where[j]
                 result = {"id": item_id, **report}
                 summary.add(result, i, 1.0 - prepared[j][1].spec.confidence)
+                done[j] = 1
+                lines.append(_line({"kind": "result", "index": i, **result}))
+            yield b"".join(lines)
+        if late:  # the status line is sent: one error line for each series not done, in request order
+            lines = []
+            for j in sorted((j for j in range(len(prepared)) if not done[j]), key=lambda j: where[j][0]):
+                i, item_id = where[j]
+                result = _error_result(item_id, late[0])
+                summary.add(result)
                 lines.append(_line({"kind": "result", "index": i, **result}))
             yield b"".join(lines)
         yield _line({"kind": "summary", "summary": summary.across(), **notes})
     except Exception:  # the status line is sent: end the stream with an error line instead
-        log.exception("unhandled error while streaming %s", request.path)
+        log.exception("unhandled error while streaming", extra={"request_id": request_id(), "route": route_label()})
         problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "
                                             "Results already sent are valid; the others were not computed.")
         yield _line({"kind": "error", "error": problem.as_dict(request.path)})

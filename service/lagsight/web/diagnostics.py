@@ -24,8 +24,8 @@ from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
 from lagsight.pipeline import plan_for, run
 from lagsight.problems import Problem, flatten_messages
-from lagsight.web import metrics, query
-from lagsight.web.payload import media_type, read_json_object
+from lagsight.web import budget, metrics, query
+from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
 
 bp = Blueprint("diagnostics", __name__)
@@ -102,7 +102,7 @@ def _read_request() -> dict:
         return _from_query(args)
     if media_type(request) in CSV_TYPES:
         query.check_known(args, (*query.OUTPUT_PARAMS, *query.CSV_PARAMS, *_ANALYSIS))
-        raw = csv_input.read_series(request.get_data(cache=True), args)
+        raw = csv_input.read_series(read_body(request), args)
         fields = {k: v for k, v in raw.items() if not k.startswith("_")}
         return {**fields, **query.analysis_fields(args), "_raw": raw}
     query.check_known(args, query.OUTPUT_PARAMS)
@@ -124,6 +124,9 @@ def diagnose():
         plan = plan_for(series, data, cfg)
     except Problem as problem:
         raise _with_lines(problem, raw) from None
+    budget.check(budget.engine_work(budget.Estimate(), [(series, plan)], "full"), "")
+    if budget.deadline_passed():  # reading and preparing took the request's time: the engine would run late
+        raise budget.late(0, 1)
     report = run([(series, plan)], observe=metrics.record_analysed)[0]
     if fmt == "csv":
         return Response(correlogram_table(report), mimetype="text/csv",

@@ -4,10 +4,11 @@ from __future__ import annotations
 import logging
 
 from flask import Flask, request
-from werkzeug.exceptions import HTTPException
+from werkzeug.exceptions import HTTPException, NotFound
+from werkzeug.routing import RequestRedirect
 
 from lagsight.problems import KINDS, Problem
-from lagsight.web.observability import exception_fields, request_id
+from lagsight.web.observability import exception_fields, method_label, request_id, route_label
 from lagsight.web.responses import problem_response
 
 log = logging.getLogger("lagsight")
@@ -29,7 +30,16 @@ def _from_http(exc: HTTPException) -> Problem:
     return Problem(slug, detail, headers=headers)
 
 
+def _no_redirects() -> None:
+    """A path the router would redirect (``//``, a stray slash) is a 404: werkzeug builds the redirect's
+    Location from the Host header, which the caller (or anyone on the way) chooses."""
+    if isinstance(request.routing_exception, RequestRedirect):
+        raise NotFound()
+
+
 def init_app(app: Flask) -> None:
+    app.before_request(_no_redirects)
+
     @app.errorhandler(Problem)
     def _problem(exc: Problem):
         return problem_response(exc, request.path)
@@ -41,6 +51,6 @@ def init_app(app: Flask) -> None:
     @app.errorhandler(Exception)
     def _crash(exc: Exception):
         # type and frames only: the message of an exception can quote request data
-        log.error("unhandled error", extra={"request_id": request_id(), "method": request.method,
-                                            "route": request.path, **exception_fields(exc)})
+        log.error("unhandled error", extra={"request_id": request_id(), "method": method_label(),
+                                            "route": route_label(), **exception_fields(exc)})
         return problem_response(Problem("internal-error", "The service failed on this request; it has been logged."), request.path)

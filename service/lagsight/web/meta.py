@@ -17,10 +17,15 @@ from lagsight.outputs.brief import FIELDS as BRIEF_FIELDS
 from lagsight.outputs.charts import __doc__ as charts_doc
 from lagsight.outputs.csv_table import COLUMNS as CSV_COLUMNS
 from lagsight.version import __version__
-from lagsight.web import query
+from lagsight.web import budget, query
 from lagsight.web.responses import json_response
 
 bp = Blueprint("meta", __name__)
+
+
+def _prose(text: str) -> str:
+    """A docstring section as one line of plain text."""
+    return " ".join(text.replace("``", "").split())
 
 
 @bp.get("/healthz")
@@ -80,7 +85,10 @@ def methods():
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
                    "max_batch_points": cfg["MAX_BATCH_POINTS"], "max_replicates": cfg["MAX_REPLICATES"],
-                   "max_simulated_values": cfg["MAX_SIMULATED_VALUES"]},
+                   "max_simulated_values": cfg["MAX_SIMULATED_VALUES"], "max_cost": cfg["MAX_COST"],
+                   "request_deadline_seconds": cfg["REQUEST_DEADLINE"],
+                   "cost": _prose(budget.__doc__.split("Cost\n----")[1].split("Deadline\n--------")[0]),
+                   "deadline": _prose(budget.__doc__.split("Deadline\n--------")[1])},
         "data_in": {
             "media_types": ["application/json", "text/csv"],
             "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),

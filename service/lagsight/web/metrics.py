@@ -32,6 +32,11 @@ LATENCY = Histogram(
     "lagsight_http_request_duration_seconds", "Time from request start to response, by route template, method and status.",
     ["route", "method", "status"], buckets=LATENCY_BUCKETS,
 )
+STOPPED = Counter(
+    "lagsight_requests_stopped", "Requests ended before they finished, by what stopped them: the request deadline "
+    "(a 503, or error lines in an NDJSON stream) or the worker being stopped (its timeout, or a quick shutdown).",
+    ["by"],
+)
 SERIES = Counter("lagsight_series_analysed", "Series analysed (reports produced).")
 POINTS = Counter("lagsight_points_analysed", "Usable observations analysed, summed over series.")
 
@@ -48,6 +53,11 @@ def record_request(route: str, method: str, status: int, seconds: float) -> None
         children = _REQUEST_CHILDREN[labels] = (REQUESTS.labels(*labels), LATENCY.labels(*labels))
     children[0].inc()
     children[1].observe(seconds)
+
+
+def record_stopped(by: str) -> None:
+    """One request ended early: ``by`` is "deadline" or "worker"."""
+    STOPPED.labels(by).inc()
 
 
 def record_analysed(series: int, points: int) -> None:

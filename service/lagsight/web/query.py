@@ -47,20 +47,30 @@ def _convert(text: str, kind: str):
     return number if kind in ("number", "number_or_string") else text
 
 
+def _repeated(name: str, count: int) -> Problem:
+    detail = (f"Query parameter {name} is given {count} times; give it once (a list, such as values or tests, "
+              "is one comma-separated value).")
+    return Problem("bad-request", detail, [FieldError(f"/{name}", detail)])
+
+
 def _single(args: MultiDict, name: str) -> str:
     values = args.getlist(name)
     if len(values) > 1:
-        raise Problem("invalid-content", f"Query parameter {name} is given {len(values)} times; give it once.",
-                      [FieldError(f"/{name}", f"Given {len(values)} times; give it once.")])
+        raise _repeated(name, len(values))
     return values[0]
 
 
 def check_known(args: MultiDict, allowed) -> None:
-    """Refuse query parameters this request does not take (a typo would otherwise be ignored)."""
+    """Refuse query parameters this request does not take (422: a typo would otherwise be ignored), and any
+    parameter given more than once (400: every parameter takes one value; reading the first, or the last, of
+    several would answer a question the caller did not ask)."""
     unknown = [k for k in args.keys() if k not in allowed]
     if unknown:
         errors = [FieldError(f"/{k}", f"Unknown query parameter {k!r} for this request.") for k in unknown]
         raise Problem("invalid-content", f"{len(errors)} query parameter(s) are not recognised; see errors.", errors)
+    for name, values in args.lists():
+        if len(values) > 1:
+            raise _repeated(name, len(values))
 
 
 def analysis_fields(args: MultiDict) -> dict:

@@ -25,6 +25,7 @@ from flask import Flask, current_app, g, request
 
 from lagsight.problems import Problem
 from lagsight.version import __version__
+from lagsight.web.observability import route_label
 
 log = logging.getLogger("lagsight")
 
@@ -41,6 +42,8 @@ _HTML_POLICY = (
     "default-src 'self'; img-src 'self' data:; object-src 'none'; base-uri 'none'; form-action 'self'"
 )
 _DATA_POLICY = "default-src 'none'"
+#: X-Frame-Options for the frame-ancestors values that older browsers can be told the same way.
+_LEGACY_FRAME = {"'none'": "DENY", "'self'": "SAMEORIGIN"}
 
 
 def read_tokens(inline: tuple[str, ...], path: str) -> tuple[bytes, ...]:
@@ -85,6 +88,17 @@ def _cached_frame_policy(ancestors: str, existing: str | None, html: bool) -> st
     return frame_policy(ancestors, existing, html)
 
 
+def data_headers(frame_ancestors: str) -> list[tuple[str, str]]:
+    """The security headers every data (non-HTML) answer carries, for answers written outside Flask
+    (gunicorn's own errors, see lagsight.serving.server_errors); the same values :func:`_headers` sets."""
+    ancestors = frame_ancestors.strip()
+    out = [("X-Content-Type-Options", "nosniff"), ("Referrer-Policy", "no-referrer"), ("Cache-Control", "no-store"),
+           (VERSION_HEADER, __version__), ("Content-Security-Policy", frame_policy(ancestors, None, False))]
+    if ancestors in _LEGACY_FRAME:
+        out.append(("X-Frame-Options", _LEGACY_FRAME[ancestors]))
+    return out
+
+
 def _origin_allowed(origin: str, allowed: tuple[str, ...]) -> bool:
     return bool(origin) and ("*" in allowed or origin in allowed)
 
@@ -103,7 +117,7 @@ def _authenticate() -> None:
         raise Problem("unauthorized", "This deployment requires a bearer token: send Authorization: Bearer <token>.",
                       headers={"WWW-Authenticate": 'Bearer realm="lagsight"'})
     if not token_matches(token, digests):
-        log.info("rejected bearer token", extra={"request_id": g.get("request_id"), "route": request.path})
+        log.info("rejected bearer token", extra={"request_id": g.get("request_id"), "route": route_label()})
         raise Problem("unauthorized", "The bearer token is not valid for this deployment.",
                       headers={"WWW-Authenticate": 'Bearer realm="lagsight", error="invalid_token"'})
 
@@ -131,7 +145,7 @@ def _headers(response):
     ancestors = cfg["FRAME_ANCESTORS"].strip()
     h["Content-Security-Policy"] = _cached_frame_policy(ancestors, h.get("Content-Security-Policy"),
                                                         response.mimetype == "text/html")
-    legacy = {"'none'": "DENY", "'self'": "SAMEORIGIN"}.get(ancestors)
+    legacy = _LEGACY_FRAME.get(ancestors)
     if legacy:
         h["X-Frame-Options"] = legacy
     origin = request.headers.get("Origin", "")

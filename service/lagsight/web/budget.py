@@ -1,0 +1,181 @@
+"""Bounded work: a request's cost estimated before the engine starts, and the request deadline.
+
+Cost
+----
+Size limits (bytes, points, series) bound memory, not work: a batch of many series with distinct
+lengths and a long period costs one seasonal decomposition per length. Each request's work is
+estimated in cost units, about a millisecond of one core of the benchmark machine (BENCHMARKS.md),
+by a linear model of what the service does, with coefficients measured there
+(``python -m benchmarks.cost_model`` prints the estimate beside the measured time for a range of
+requests):
+
+- every engine pass (series of one length and options are analysed together; large groups are cut
+  into blocks, see ``pipeline.blocks``): a fixed cost and a cost per lag;
+- every series: a fixed cost, a cost per point (reading, checks, the engine, the answer) and per
+  squared lag (partial autocorrelations), more for the full report than for the brief one;
+- the seasonal decomposition (STL) of series with a period: per distinct length and period its
+  loess tables (which grow with the square of the trend window, about 1.9 x the period), and per
+  series its application. It is counted as if every such series were decomposed: the engine
+  decomposes only those with a seasonal lag outside the band, which is not known before the
+  analysis, and a request that states a period usually has one;
+- Monte Carlo p-values: replicates x (points + lags) per distinct length and options;
+- Box-Cox lambda estimation: per series that asks for it, counted before the series are prepared.
+
+Not counted: the unit-root check of the full report (for series whose autocorrelations decay
+slowly, on at most 10,000 points each), whose cost depends on the data. The estimate is a model,
+not a measurement: a busy machine is slower than the one it was measured on. A request over
+``LAGSIGHT_MAX_COST`` is a 413 before any analysis, naming its cost, the budget and what to change.
+
+Deadline
+--------
+Inside the budget, ``LAGSIGHT_REQUEST_DEADLINE`` (by default half the worker timeout) ends a
+request that runs late: it is checked before each engine pass of a batch (and before the one pass
+of a single series), so a late request answers a 503 problem, or, in an NDJSON stream whose status
+line is already sent, one error line for each series not done, then the summary. What it cannot do:
+interrupt an engine pass that has started (a single pass runs to its end), or a step outside the
+engine (reading the body, preparing the series). Past the worker timeout gunicorn stops the worker;
+the caller then gets a 503 too (``lagsight.serving.server_errors``). Each stop is logged with the
+request id and counted in ``lagsight_requests_stopped_total``.
+"""
+from __future__ import annotations
+
+import logging
+import time
+from collections import defaultdict
+from dataclasses import dataclass, field
+
+from flask import current_app, g
+
+from lagsight.engine import stl
+from lagsight.pipeline import Plan, blocks
+from lagsight.problems import FieldError, Problem
+from lagsight.web import metrics
+from lagsight.web.observability import request_id, route_label
+
+log = logging.getLogger("lagsight")
+
+#: Cost units (about a millisecond of one core of the benchmark machine) per item, measured by
+#: benchmarks/cost_model.py on the 2-core benchmark machine (December 2026).
+PASS = 0.9  # an engine pass
+PASS_LAG = 0.015  # an engine pass, per lag
+SERIES = 0.02  # a series
+POINT = 0.0006  # a point: reading, checks, engine and brief answer
+SERIES_LAG2 = 2e-6  # a series, per squared lag (partial autocorrelations)
+FULL_SERIES = 0.15  # the full report over the brief one, per series
+FULL_POINT = 0.0003  # the full report over the brief one, per point
+STL_TABLES = 1.2  # the loess tables of one distinct length and period: fixed
+STL_TABLES_W2 = 4.5e-5  # ... per squared trend window
+STL_CALL = 0.6  # decomposing the series of one engine pass: fixed
+STL_CALL_W2 = 2.2e-6  # ... per squared trend window
+STL_SERIES_W2 = 1.3e-6  # decomposing one series: its ends, per squared trend window
+STL_POINT = 2e-4  # ... per point
+STL_POINT_W = 6.5e-7  # ... per point and trend window
+MC_VALUE = 8.5e-5  # a simulated value (replicates x points)
+MC_LAG = 1.2e-4  # a replicate, per lag
+BOX_COX = 0.45  # estimating one series' Box-Cox lambda
+BOX_COX_POINT = 2e-5  # ... per point
+
+#: What to change when a part dominates, said in the answer.
+_ADVICE = {
+    "seasonal decompositions": "send fewer distinct series lengths with a period (for example trim the series to "
+                               "a few common lengths), split the batch, or use a shorter period",
+    "engine passes": "send fewer distinct series lengths and options, or split the batch",
+    "series and points": "split the batch, or ask for detail \"brief\"",
+    "lags": "ask for a lower max_lag",
+    "Monte Carlo p-values": "use fewer replicates, fewer distinct series lengths, or asymptotic p-values",
+    "Box-Cox estimates": "send a Box-Cox lambda instead of \"estimate\", or split the batch",
+}
+
+
+@dataclass
+class Estimate:
+    """A request's estimated work in cost units, by part."""
+
+    parts: dict[str, float] = field(default_factory=lambda: defaultdict(float))
+    notes: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def total(self) -> float:
+        return sum(self.parts.values())
+
+    def add(self, part: str, units: float) -> None:
+        self.parts[part] += units
+
+
+def box_cox_estimates(estimate: Estimate, count: int, points: int) -> Estimate:
+    """Add ``count`` Box-Cox lambda estimates over ``points`` points in all."""
+    if count:
+        estimate.add("Box-Cox estimates", BOX_COX * count + BOX_COX_POINT * points)
+        estimate.notes["Box-Cox estimates"] = f"{count:,} lambda estimate(s)"
+    return estimate
+
+
+def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
+    """Add the work of analysing ``prepared`` ((series, plan) pairs) and answering with ``detail``."""
+    full = detail == "full"
+    decomposed: set[tuple[int, int]] = set()
+    for plan, members in blocks(prepared):
+        rows, lags, n = len(members), plan.spec.max_lag, max(plan.n, plan.length)
+        estimate.add("engine passes", PASS)
+        estimate.add("lags", PASS_LAG * lags + SERIES_LAG2 * lags * lags * rows)
+        estimate.add("series and points", rows * (SERIES + POINT * n + (FULL_SERIES + FULL_POINT * n if full else 0)))
+        if _decomposes(plan):
+            w2 = stl.windows(plan.spec.period)[0] ** 2
+            if (plan.n, plan.spec.period) not in decomposed:  # tables are kept per length and window
+                decomposed.add((plan.n, plan.spec.period))
+                estimate.add("seasonal decompositions", STL_TABLES + STL_TABLES_W2 * w2)
+            trend = stl.windows(plan.spec.period)[0]
+            estimate.add("seasonal decompositions", STL_CALL + STL_CALL_W2 * w2 + rows * (
+                STL_SERIES_W2 * w2 + (STL_POINT + STL_POINT_W * trend) * plan.n))
+        if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
+            estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
+    if decomposed:
+        periods = sorted({p for _, p in decomposed})
+        shown = ", ".join(f"{p:,}" for p in periods[:3]) + (" ..." if len(periods) > 3 else "")
+        estimate.notes["seasonal decompositions"] = (f"{len(decomposed):,} distinct series length(s) and period(s) "
+                                                     f"to decompose (period {shown})")
+    return estimate
+
+
+def _decomposes(plan: Plan) -> bool:
+    """Whether the engine may run STL on this plan's series (see engine.analysis.analyse)."""
+    period = plan.spec.period
+    return (period is not None and not plan.pairwise and plan.spec.seasonal_strength
+            and plan.n >= 2 * period + 1 and stl.supports(period))
+
+
+def check(estimate: Estimate, pointer: str) -> None:
+    """413 when the estimate is over the deployment's budget, naming the cost, the budget and what to change."""
+    budget = current_app.config["MAX_COST"]
+    total = estimate.total
+    if total <= budget:
+        return
+    top = max(estimate.parts, key=estimate.parts.get)
+    note = estimate.notes.get(top)
+    detail = (f"This request would cost about {total:,.0f} units of work, over this deployment's budget of "
+              f"{budget:,} (LAGSIGHT_MAX_COST; a unit is about a millisecond of one core). Most of it is "
+              f"{top} ({estimate.parts[top]:,.0f}{'; ' + note if note else ''}). Nothing was analysed; to fit, "
+              f"{_ADVICE[top]}.")
+    log.info("request over the cost budget", extra={"request_id": request_id(), "route": route_label(),
+                                                   "cost": round(total), "budget": budget, "largest_part": top})
+    raise Problem("payload-too-large", detail, [FieldError(pointer, detail)])
+
+
+def deadline_passed() -> bool:
+    """Whether this request has run past LAGSIGHT_REQUEST_DEADLINE (counted from its start)."""
+    started = g.get("started")
+    return started is not None and time.perf_counter() - started > current_app.config["REQUEST_DEADLINE"]
+
+
+def late(done: int, total: int) -> Problem:
+    """Log and count a request stopped at its deadline, and the problem that says so (503)."""
+    seconds = current_app.config["REQUEST_DEADLINE"]
+    log.warning("request stopped at its deadline", extra={
+        "request_id": request_id(), "route": route_label(), "deadline_s": seconds,
+        "elapsed_s": round(time.perf_counter() - g.get("started", time.perf_counter()), 3),
+        "series_done": done, "series_not_done": total - done})
+    metrics.record_stopped("deadline")
+    return Problem("unavailable", f"The request reached this deployment's deadline of {seconds:g} s "
+                                  f"(LAGSIGHT_REQUEST_DEADLINE) with {total - done:,} of {total:,} series not "
+                                  "analysed. Send fewer series per request, or ask for NDJSON "
+                                  "(application/x-ndjson) to receive results as they finish.")

@@ -1,0 +1,209 @@
+"""Bounded work: a request over the cost budget is refused before any analysis, and a request that runs past
+its deadline ends with a 503 problem (or, in an NDJSON stream, one error line per series not done), logged
+with its request id and counted. Data are seeded random series (a sine added where a seasonal pattern is
+needed), not references."""
+from __future__ import annotations
+
+import io
+import json
+import logging
+import re
+
+import numpy as np
+import orjson
+import pytest
+
+from lagsight import config, create_app
+from lagsight.web import budget
+from lagsight.web.observability import JsonFormatter
+
+from .live_server import live_gunicorn
+from .spec_tools import assert_valid
+
+BATCH = "/v1/diagnostics/batch"
+NDJSON = "application/x-ndjson"
+
+
+def _seasonal(n: int, period: int, seed: int) -> list[float]:
+    rng = np.random.default_rng(seed)
+    return np.round(rng.standard_normal(n) + 3 * np.sin(2 * np.pi * np.arange(n) / period), 4).tolist()
+
+
+def _noise(n: int, seed: int) -> list[float]:
+    return np.round(np.random.default_rng(seed).standard_normal(n), 4).tolist()
+
+
+def _counter(client, name: str, labels: str = "") -> float:
+    text = client.get("/metrics").get_data(as_text=True)
+    found = re.search(rf"^{name}{re.escape(labels)} (\S+)$", text, re.M)
+    return float(found.group(1)) if found else 0.0
+
+
+@pytest.fixture
+def log_lines():
+    stream = io.StringIO()
+    handler = logging.StreamHandler(stream)
+    handler.setFormatter(JsonFormatter())
+    logger = logging.getLogger("lagsight")
+    logger.addHandler(handler)
+    yield lambda: [json.loads(line) for line in stream.getvalue().splitlines()]
+    logger.removeHandler(handler)
+
+
+def _problem(r, status: int) -> dict:
+    assert r.status_code == status, (r.status_code, r.get_data()[:400])
+    assert r.content_type == "application/problem+json"
+    problem = r.get_json()
+    assert_valid(problem, "Problem")
+    return problem
+
+
+def test_many_lengths_with_a_long_period_are_refused_before_any_analysis(log_lines):
+    """One seasonal decomposition per distinct length: 150 lengths with period 1,000 cost about 30,000 units
+    (about half a minute of one core), over the default budget of 20,000."""
+    client = create_app({"TESTING": True}).test_client()
+    body = {"period": 1000, "series": [{"id": f"depot-{i}", "values": _seasonal(2001 + i, 1000, i)}
+                                       for i in range(150)]}
+    before = _counter(client, "lagsight_series_analysed_total")
+    r = client.post(BATCH, json=body, headers={"X-Request-ID": "costly-1"})
+    problem = _problem(r, 413)
+    assert problem["type"] == "urn:lagsight:problem:payload-too-large"
+    assert "over this deployment's budget of 20,000 (LAGSIGHT_MAX_COST" in problem["detail"]
+    cost = int(re.search(r"would cost about ([\d,]+) units", problem["detail"]).group(1).replace(",", ""))
+    assert cost > 20_000
+    assert "seasonal decompositions" in problem["detail"] and "150 distinct series length(s)" in problem["detail"]
+    assert "fewer distinct series lengths" in problem["detail"]  # what to change
+    assert [e["pointer"] for e in problem["errors"]] == ["/series"]
+    assert _counter(client, "lagsight_series_analysed_total") == before  # nothing analysed
+    refused = [e for e in log_lines() if e["message"] == "request over the cost budget"]
+    assert refused and refused[0]["request_id"] == "costly-1" and refused[0]["cost"] == cost
+    # The same series with one length share their tables: well within the budget, and answered.
+    same = {"period": 1000, "detail": "brief",
+            "series": [{"id": f"depot-{i}", "values": _seasonal(2001, 1000, i)} for i in range(100)]}
+    assert client.post(BATCH, json=same).status_code == 200
+
+
+@pytest.mark.parametrize("body,part", [
+    ({"transform": {"box_cox": "estimate"}, "series": [
+        {"id": i, "values": np.exp(_noise(300, i)).tolist()} for i in range(200)]}, "Box-Cox estimates"),
+    ({"max_lag": 300, "series": [{"id": i, "values": _noise(700 + i, i)} for i in range(60)]}, "lags"),
+    ({"series": [{"id": i, "values": _noise(40 + i, i)} for i in range(300)]}, "engine passes"),
+    ({"p_values": "monte_carlo", "replicates": 999, "series": [{"id": 0, "values": _noise(3000, 1)}]},
+     "Monte Carlo p-values"),
+])
+def test_the_largest_part_of_the_cost_is_named_with_what_to_change(body, part):
+    client = create_app({"TESTING": True, "MAX_COST": 100}).test_client()
+    problem = _problem(client.post(BATCH, json=body), 413)
+    assert f"Most of it is {part}" in problem["detail"] and "budget of 100 " in problem["detail"]
+    assert budget._ADVICE[part] in problem["detail"]
+
+
+def test_the_single_route_is_held_to_the_budget_too():
+    client = create_app({"TESTING": True, "MAX_COST": 100}).test_client()
+    body = {"values": _noise(3000, 2), "p_values": "monte_carlo", "replicates": 999}
+    problem = _problem(client.post("/v1/diagnostics", json=body), 413)
+    assert "Monte Carlo p-values" in problem["detail"] and [e["pointer"] for e in problem["errors"]] == [""]
+    assert client.post("/v1/diagnostics", json={"values": _noise(3000, 2)}).status_code == 200
+
+
+def test_the_estimate_follows_the_model():
+    """The estimate of a plain batch is the sum of its parts as web/budget.py states them."""
+    app = create_app({"TESTING": True})
+    body = {"series": [{"id": i, "values": _noise(200, i)} for i in range(10)], "max_lag": 20}
+    from lagsight.inputs.schema import BatchRequest
+    from lagsight.web.batch import prepare_items
+
+    with app.test_request_context(BATCH, method="POST"):
+        shared = BatchRequest().load(body)
+        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
+        estimate = budget.engine_work(budget.Estimate(), prepared, "full")
+    per_series = budget.SERIES + budget.POINT * 200 + budget.FULL_SERIES + budget.FULL_POINT * 200
+    assert estimate.parts["engine passes"] == pytest.approx(budget.PASS)
+    assert estimate.parts["series and points"] == pytest.approx(10 * per_series)
+    assert estimate.parts["lags"] == pytest.approx(budget.PASS_LAG * 20 + budget.SERIES_LAG2 * 400 * 10)
+    assert "seasonal decompositions" not in estimate.parts
+
+
+def _late_app(deadline: float):
+    return create_app({"TESTING": True, "REQUEST_DEADLINE": deadline})
+
+
+#: Many engine passes of a few milliseconds each (one per distinct length): the work outlasts a short deadline.
+SLOW_BATCH = {"max_lag": 300, "detail": "brief",
+              "series": [{"id": f"meter-{i}", "values": _noise(700 + i, i)} for i in range(150)]}
+
+
+def test_a_late_batch_ends_with_a_503_logged_and_counted(log_lines):
+    client = _late_app(0.2).test_client()
+    stopped = _counter(client, "lagsight_requests_stopped_total", '{by="deadline"}')
+    analysed = _counter(client, "lagsight_series_analysed_total")
+    r = client.post(BATCH, json=SLOW_BATCH, headers={"X-Request-ID": "late-batch-1"})
+    problem = _problem(r, 503)
+    assert problem["type"] == "urn:lagsight:problem:unavailable"
+    assert "deadline of 0.2 s (LAGSIGHT_REQUEST_DEADLINE)" in problem["detail"] and "of 150 series" in problem["detail"]
+    assert r.headers["X-Request-ID"] == "late-batch-1"
+    assert _counter(client, "lagsight_requests_stopped_total", '{by="deadline"}') == stopped + 1
+    assert _counter(client, "lagsight_series_analysed_total") < analysed + 150  # stopped before the end
+    late = [e for e in log_lines() if e["message"] == "request stopped at its deadline"]
+    assert len(late) == 1 and late[0]["request_id"] == "late-batch-1" and late[0]["series_not_done"] > 0
+
+
+def test_a_late_stream_sends_one_error_line_per_series_not_done():
+    client = _late_app(0.2).test_client()
+    body = {**SLOW_BATCH, "series": [{"id": "bad", "values": [1, 2]}] + SLOW_BATCH["series"]}
+    r = client.post(BATCH, json=body, headers={"Accept": NDJSON})
+    assert r.status_code == 200 and r.mimetype == NDJSON
+    lines = [orjson.loads(line) for line in r.get_data().splitlines()]
+    assert lines[-1]["kind"] == "summary"
+    results = [line for line in lines if line["kind"] == "result"]
+    assert sorted(line["index"] for line in results) == list(range(151))  # every series exactly once
+    late = [line for line in results if "error" in line and line["error"]["status"] == 503]
+    assert late and all("LAGSIGHT_REQUEST_DEADLINE" in line["error"]["detail"] for line in late)
+    assert [line["index"] for line in late] == sorted(line["index"] for line in late)  # in request order
+    assert lines[-1]["summary"]["errors"] == len(late) + 1 and lines[-1]["summary"]["series"] == 151
+
+
+def test_a_single_request_past_its_deadline_before_the_engine_is_a_503():
+    client = _late_app(1e-6).test_client()  # reading the body alone takes longer
+    problem = _problem(client.post("/v1/diagnostics", json={"values": _noise(500, 3)}), 503)
+    assert "1 of 1 series not analysed" in problem["detail"]
+
+
+def test_the_deadline_defaults_to_half_the_timeout_and_stays_below_it():
+    assert config.load(environ={})["REQUEST_DEADLINE"] == 30.0
+    assert config.load(environ={"LAGSIGHT_TIMEOUT": "120"})["REQUEST_DEADLINE"] == 60.0
+    assert config.load(environ={"LAGSIGHT_REQUEST_DEADLINE": "12.5"})["REQUEST_DEADLINE"] == 12.5
+    for raw in ("60", "90", "0", "-1", "inf", "soon"):
+        with pytest.raises(ValueError, match="LAGSIGHT_REQUEST_DEADLINE"):
+            config.load(environ={"LAGSIGHT_REQUEST_DEADLINE": raw})
+    assert config.load(environ={"LAGSIGHT_MAX_COST": "500"})["MAX_COST"] == 500
+
+
+def test_methods_lists_the_budget_and_the_deadline():
+    limits = create_app({"TESTING": True}).test_client().get("/v1/methods").get_json()["limits"]
+    assert limits["max_cost"] == 20_000 and limits["request_deadline_seconds"] == 30.0
+    assert "seasonal decomposition" in limits["cost"] and "a single pass runs to its end" in limits["deadline"]
+
+
+@pytest.mark.slow
+def test_a_late_request_through_gunicorn_is_answered_logged_and_counted(tmp_path):
+    """Through a live gunicorn: a late JSON batch is a 503 problem, a late NDJSON stream ends with error lines
+    and its summary; both are logged with their request ids and counted."""
+    import requests
+
+    with live_gunicorn(tmp_path, env={"LAGSIGHT_REQUEST_DEADLINE": "0.2"}) as base:
+        late = requests.post(base + BATCH, json=SLOW_BATCH, headers={"X-Request-ID": "late-json"}, timeout=60)
+        stream = requests.post(base + BATCH, json=SLOW_BATCH, headers={"X-Request-ID": "late-ndjson",
+                                                                        "Accept": NDJSON}, timeout=60)
+        metrics_text = requests.get(base + "/metrics", timeout=30).text
+    assert late.status_code == 503 and late.headers["Content-Type"] == "application/problem+json"
+    assert late.headers["X-Request-ID"] == "late-json" and late.json()["type"] == "urn:lagsight:problem:unavailable"
+    lines = [orjson.loads(line) for line in stream.content.splitlines()]
+    assert stream.status_code == 200 and lines[-1]["kind"] == "summary"
+    assert sorted(line["index"] for line in lines if line["kind"] == "result") == list(range(150))
+    assert any(line.get("error", {}).get("status") == 503 for line in lines)
+    assert re.search(r'^lagsight_requests_stopped_total\{by="deadline"\} 2\.0$', metrics_text, re.M)
+    entries = [json.loads(line) for p in tmp_path.glob("gunicorn-*.log") for line in p.read_text().splitlines()
+               if line.startswith("{")]
+    stopped = {e["request_id"] for e in entries if e["message"] == "request stopped at its deadline"}
+    assert stopped == {"late-json", "late-ndjson"}
