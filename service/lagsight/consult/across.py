@@ -68,3 +68,35 @@ def reading(ids: list, verdicts: list[dict], alphas: list[float], rate: float) -
         "assumption": ASSUMPTION,
     }
     return block, q
+
+
+class Tally:
+    """A batch's summary as its results come in: counts by verdict, and what :func:`reading` needs."""
+
+    def __init__(self, total: int, rate: float):
+        self.counts = {"series": total, "white_noise": 0, "not_white_noise": 0, "undetermined": 0, "errors": 0}
+        self.rate = rate
+        self.index: list[int] = []
+        self.ids: list = []
+        self.verdicts: list[dict] = []
+        self.alphas: list[float] = []
+
+    def add(self, result: dict, index: int | None = None, alpha: float | None = None) -> None:
+        if "error" in result:
+            self.counts["errors"] += 1
+            return
+        verdict = result["verdict"]["white_noise"]
+        key = "undetermined" if verdict is None else ("white_noise" if verdict else "not_white_noise")
+        self.counts[key] += 1
+        self.index.append(index)
+        self.ids.append(result["id"])
+        self.verdicts.append(result["verdict"])
+        self.alphas.append(alpha)
+
+    def across(self) -> dict:
+        """The summary with the false-discovery reading; its q_values in request order (null for errors)."""
+        block, q = reading(self.ids, self.verdicts, self.alphas, self.rate)
+        q_values: list = [None] * self.counts["series"]
+        for i, qi in zip(self.index, q):
+            q_values[i] = qi
+        return {**self.counts, "false_discovery": {**block, "q_values": q_values}}

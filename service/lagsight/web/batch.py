@@ -204,38 +204,6 @@ def _error_result(item_id, problem: Problem) -> dict:
     return {"id": item_id, "error": problem.as_dict(request.path)}
 
 
-class _Summary:
-    """Counts by verdict, and what the batch-level reading needs (across.py)."""
-
-    def __init__(self, total: int, rate: float):
-        self.counts = {"series": total, "white_noise": 0, "not_white_noise": 0, "undetermined": 0, "errors": 0}
-        self.rate = rate
-        self.index: list[int] = []
-        self.ids: list = []
-        self.verdicts: list[dict] = []
-        self.alphas: list[float] = []
-
-    def add(self, result: dict, index: int | None = None, alpha: float | None = None) -> None:
-        if "error" in result:
-            self.counts["errors"] += 1
-            return
-        verdict = result["verdict"]["white_noise"]
-        key = "undetermined" if verdict is None else ("white_noise" if verdict else "not_white_noise")
-        self.counts[key] += 1
-        self.index.append(index)
-        self.ids.append(result["id"])
-        self.verdicts.append(result["verdict"])
-        self.alphas.append(alpha)
-
-    def across(self) -> dict:
-        """The summary with the false-discovery reading; its q_values in request order (null for errors)."""
-        block, q = across.reading(self.ids, self.verdicts, self.alphas, self.rate)
-        q_values: list = [None] * self.counts["series"]
-        for i, qi in zip(self.index, q):
-            q_values[i] = qi
-        return {**self.counts, "false_discovery": {**block, "q_values": q_values}}
-
-
 @bp.post("/v1/diagnostics/batch")
 def diagnose_batch():
     """Diagnose every series of a batch; one bad series never sinks the others."""
@@ -266,7 +234,7 @@ def _answer(media: str) -> Response:
     del body, raw, data  # the parsed request is no longer needed: free it before the engine runs
     _check_simulation(prepared, cfg)
     budget.check(budget.engine_work(estimate, prepared, detail), "/series")
-    summary = _Summary(len(where) + len(errors), 1.0 - shared["confidence"])
+    summary = across.Tally(len(where) + len(errors), 1.0 - shared["confidence"])
     notes = _brief_notes(prepared) if detail == "brief" else {}
     if media == NDJSON:
         return Response(stream_with_context(_stream(errors, prepared, where, summary, detail, notes)),
@@ -335,7 +303,7 @@ def _line(obj) -> bytes:
     return dumps(obj) + b"\n"
 
 
-def _stream(errors, prepared, where, summary: _Summary, detail: str, notes: dict):
+def _stream(errors, prepared, where, summary: across.Tally, detail: str, notes: dict):
     """NDJSON lines: request errors first, then each block's results as it finishes, then the summary
     (which carries the brief answer's cautions and pointer to the full report)."""
     try:
