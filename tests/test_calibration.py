@@ -5,7 +5,8 @@ n = 200, 4,000 series, 5% level: Ljung-Box lag 20 5.7%, Box-Pierce lag 20 4.1%, 
 runs 6.0%, turning points 5.2%, cumulative periodogram 4.9%, Jarque-Bera 4.6%; share of r_1..r_20 outside
 the white_noise band 4.2% (1/n overstates Var(r_k)) and outside the small_sample band 4.9%;
 n = 30, lag 10: asymptotic Ljung-Box 7.2%, Monte Carlo (1,999 replicates) 4.9%;
-verdict "not white noise" on i.i.d. series of length 200: 4.3% (rule bounded by 5%).
+verdict "not white noise" on i.i.d. series of length 200: 2.9%, any structure named 3.4% (the rule's bound is
+5%: 4.5% for the autocorrelation channel, 0.5% for the volatility channel; CALIBRATION.md has the full run).
 """
 from __future__ import annotations
 
@@ -75,7 +76,7 @@ def _reports(x: np.ndarray, period: int | None = None, **opts) -> list[dict]:
 def test_verdict_false_alarm_rate_is_bounded():
     x = np.random.default_rng(4242).standard_normal((2000, 200))
     rate = np.mean([r["verdict"]["white_noise"] is False for r in _reports(x)])
-    assert rate <= 0.06  # the rule's Bonferroni bound is 5%; measured 4.3%
+    assert rate <= 0.06  # the autocorrelation channel's level is 4.5%; measured 2.9%
 
 
 def _ar1(seed: int, phi: float = 0.5, n: int = 200) -> np.ndarray:

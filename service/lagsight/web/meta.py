@@ -1,12 +1,15 @@
 """Service description: health, the methods catalogue and the OpenAPI document."""
 from __future__ import annotations
 
+import re
+
 from flask import Blueprint, current_app
 
 from lagsight import options
+from lagsight.consult import across, advice
 from lagsight.consult.decision import __doc__ as DECISION_RULE
 from lagsight.consult.words import MEANINGS
-from lagsight.engine import stl
+from lagsight.engine import stl, whiteness
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
 from lagsight.inputs.csv_input import __doc__ as csv_doc
@@ -24,7 +27,9 @@ bp = Blueprint("meta", __name__)
 
 
 def _prose(text: str) -> str:
-    """A docstring section as one line of plain text."""
+    """A docstring section as one line of plain words: no cross-reference markup, no citation marks."""
+    text = re.sub(r":[a-z]+:`~?\.?([^`]+)`", r"\1", text)
+    text = re.sub(r"\s*\[\d+\]_", "", text)
     return " ".join(text.replace("``", "").split())
 
 
@@ -81,7 +86,7 @@ def methods():
             "Monte Carlo p-values.")},
         "timestamps": {"periods": dict(options.PERIOD_BY_SPACING),
                        "rules": " ".join(timestamps_doc.split("----------------------------------------------------------")[1].split())},
-        "portmanteau_lags": options.portmanteau_lags.__doc__.strip(),
+        "portmanteau_lags": _prose(options.portmanteau_lags.__doc__),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
                    "max_batch_points": cfg["MAX_BATCH_POINTS"], "max_replicates": cfg["MAX_REPLICATES"],
@@ -108,5 +113,20 @@ def methods():
             "detail": {"default": options.DEFAULT_DETAIL, "enum": list(options.DETAIL_LEVELS),
                        "brief_fields": ["id", *BRIEF_FIELDS]},
         },
-        "decision_rule": " ".join(DECISION_RULE.split("-" * 74)[1].split()),
+        "decision_rule": _prose(DECISION_RULE.split("-" * 74)[1]),
+        "evidence": _prose(whiteness.__doc__.split("References\n----------")[0]),
+        "advice_codes": {"codes": list(advice.CODES), "rule": _prose(advice.__doc__)},
+        "across_series": _prose(across.__doc__.split("References\n----------")[0]),
+        "references": _prose(DECISION_SOURCES),
     })
+
+
+#: The published sources of the decision rule, in one place for /v1/methods.
+DECISION_SOURCES = """
+Ljung and Box (1978), Biometrika 65, 297-303. Diebold (1986), Proceedings of the Business and Economic Statistics
+Section, ASA, 323-328. Lobato, Nankervis and Savin (2001), International Economic Review 42, 187-205. Westfall and
+Young (1993), Resampling-Based Multiple Testing, Wiley. Said and Dickey (1984), Biometrika 71, 599-607. Kwiatkowski,
+Phillips, Schmidt and Shin (1992), Journal of Econometrics 54, 159-178. Newey and West (1987), Econometrica 55,
+703-708. Benjamini and Hochberg (1995), JRSS B 57, 289-300. Benjamini and Yekutieli (2001), Annals of Statistics
+29, 1165-1188. Box, Jenkins, Reinsel and Ljung (2015), Time Series Analysis, 5th ed., Wiley.
+"""
