@@ -170,11 +170,10 @@ def _batch(b: dict | None) -> list[str]:
     fdp = ar["false_discovery_proportion"]
     out = ["## Batches and false discovery", "",
            f"Each batch is one request of {b['batch_size']} series at confidence {b['confidence']:g}. A series counts as"
-           " flagged after adjustment when its result carries a false-discovery reading (the first key naming \"fdr\""
-           " or \"adjusted\") that flags it: a boolean as it is, a number as an adjusted p-value at most 1 - c.",
+           " flagged after adjustment when its Benjamini-Hochberg q-value (`summary.false_discovery.q_values`, in"
+           " request order; the harness copies it beside each result as `fdr_q_value`) is at most 1 - c.",
            "",
-           f"- reading found in the series results: {('`' + b['series_path'] + '`') if b['series_path'] else '**none** (n/a)'};"
-           f" batch-level reading: {('`' + b['batch_path'] + '`') if b['batch_path'] else 'none'}",
+           f"- batch-level reading: {('`' + b['batch_path'] + '`') if b['batch_path'] else '**none** (n/a)'}",
            "",
            "| part | batches | measured | target |", "| --- | --- | --- | --- |",
            f"| pure noise (n {no['n']}): batches with any series flagged, each verdict on its own (no adjustment) |"

@@ -5,8 +5,8 @@ Each check allows 2.5 Monte Carlo standard errors at its bound (calibration.targ
 from the reps of the case), so a rate that truly sits at its bound fails one check about 0.6% of the
 time; with dozens of checks, a failure close to a bound is worth re-reading in CALIBRATION.md (larger
 runs) before it is believed, and a passing check is no proof of calibration either.
-The structure kinds trend, unit_root, over_differenced and outliers, the advice `code` and the batch's
-false-discovery reading are read when the service reports them; until then those checks fail and say so.
+A check that cannot read what its target needs (a structure kind, the advice `code`, the batch's
+false-discovery reading) fails and says so.
 The single Ljung-Box test the power is compared with is statsmodels.stats.diagnostic.acorr_ljungbox (lag 10).
 """
 from __future__ import annotations
