@@ -79,12 +79,14 @@ def _short_term(report: dict, d: Decision) -> dict:
                      f"Both the autocorrelation and the partial autocorrelation stop after lag {p}; the correlograms "
                      "alone cannot tell the two apart.")
     if p is not None:
-        return _item("add_ar_terms", f"Add an AR({p}) term (autoregression on the last {plural(p, 'value')}), then "
+        last = "value" if p == 1 else plural(p, "value")
+        return _item("add_ar_terms", f"Add an AR({p}) term (autoregression on the last {last}), then "
                                      f"test the new residuals with model_df = {p + df}.",
                      f"The partial autocorrelation is outside the band at lag{'s' if p > 1 else ''} "
                      f"1{'' if p == 1 else ' to ' + str(p)} and not beyond it: the pattern of an AR({p}).")
     if q is not None:
-        return _item("add_ma_terms", f"Add an MA({q}) term (a moving average of the last {plural(q, 'shock')}), then "
+        last = "shock" if q == 1 else plural(q, "shock")
+        return _item("add_ma_terms", f"Add an MA({q}) term (a moving average of the last {last}), then "
                                      f"test the new residuals with model_df = {q + df}.",
                      f"The autocorrelation is outside the band at lag{'s' if q > 1 else ''} "
                      f"1{'' if q == 1 else ' to ' + str(q)} and not beyond it: the pattern of an MA({q}).")
@@ -120,7 +122,8 @@ def advice(report: dict, d: Decision) -> list[dict]:
     for kind in kinds:
         if kind == "outliers":
             where = [f"{i} (robust z {fmt(z, 2)})" for i, z in zip(d.outliers[:5], d.outlier_z[:5])]
-            out.append(_item("check_outliers", f"Check the {plural(len(d.outliers), 'value')} at index "
+            what = "value" if len(d.outliers) == 1 else plural(len(d.outliers), "value")
+            out.append(_item("check_outliers", f"Check the {what} at index "
                                                f"{and_(where)}{' ...' if len(d.outliers) > 5 else ''}: correct a "
                                                "recording error, or model the event (an intervention term), then "
                                                "check again.",

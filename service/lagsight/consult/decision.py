@@ -127,11 +127,13 @@ def _phrase(d: Decision) -> str:
     if k == "unit_root":
         return f"the level wanders, r1 = {fmt(d.r1, 2)}, and a unit root cannot be ruled out"
     if k == "outliers":
-        return (f"autocorrelation remains that {plural(len(d.outliers), 'extreme value')} partly "
-                f"{'hides' if len(d.outliers) == 1 else 'hide'} or {'fakes' if len(d.outliers) == 1 else 'fake'}")
+        one = len(d.outliers) == 1
+        return (f"autocorrelation remains, and {'an extreme value' if one else plural(len(d.outliers), 'extreme value')}"
+                f" {'hides or fakes' if one else 'hide or fake'} part of it")
     if k == "seasonal":
-        return f"autocorrelation at the seasonal lag {d.strongest_lag} (period {d.period}, r = {fmt(d.strongest_r, 2)})"
-    return f"autocorrelation remains, strongest at lag {d.strongest_lag} (r = {fmt(d.strongest_r, 2)})"
+        return (f"autocorrelation at the seasonal lag {d.strongest_lag} of period {d.period}, where "
+                f"r = {fmt(d.strongest_r, 2)}")
+    return f"autocorrelation remains, strongest at lag {d.strongest_lag} where r = {fmt(d.strongest_r, 2)}"
 
 
 def summary(d: Decision) -> str:

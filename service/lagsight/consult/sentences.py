@@ -76,7 +76,7 @@ def _mechanism_sentences(report: dict, d: Decision, alpha: float) -> list[str]:
     if "outliers" in d.structure:
         out.append(f"The rank-based autocorrelations, which extreme values cannot move much, differ from the ordinary "
                    f"ones by more than 3 standard errors: {plural(len(d.outliers), 'extreme value')} "
-                   "change the reading.")
+                   f"{'changes' if len(d.outliers) == 1 else 'change'} the reading.")
     if "trend" in d.structure:
         out.append(f"The slope of a straight line through the values is clear (t = {fmt(c['slope_t'], 2)}, Newey-West) "
                    f"and what is left around it is stationary ({d.around_line()}): a steady trend, not a level that "
