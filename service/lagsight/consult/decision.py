@@ -12,7 +12,7 @@ Let alpha = 1 - confidence. Two channels of evidence share alpha
    1993). The autocorrelations are standardised with heteroskedasticity-consistent variances (Diebold 1986;
    Lobato, Nankervis and Savin 2001), so volatility alone is not called autocorrelation. ``white_noise`` is false
    exactly when this channel rejects.
-2. volatility, at level 0.1 alpha: autocorrelation of the ranks of |x - median|. Named ``volatility_clustering``
+2. volatility, at level 0.1 alpha: autocorrelation of the ranks of |x - mean|. Named ``volatility_clustering``
    only when the autocorrelation channel does not reject (the magnitudes of an autocorrelated series are
    autocorrelated too); the series is then uncorrelated but not independent, and ``white_noise`` stays true.
 

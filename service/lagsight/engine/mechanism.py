@@ -64,17 +64,18 @@ def check(x: np.ndarray, r: np.ndarray, persistence_rows: np.ndarray, outlier_ro
         kpss_trend_p[persistence_rows] = trend.kpss_rows(rows, "ct").p_value
         slow[persistence_rows] = stationarity.decays_slowly(r[persistence_rows])
     if n >= 8 and outlier_rows.size:
-        rows = x[outlier_rows]
-        level = outlier_flags(rows)
-        step = outlier_flags(np.diff(rows, axis=1))
-        # An isolated value is far from the median and makes two far steps (into it and out of it).
-        into = np.zeros_like(level.mask)
-        into[:, 1:] = step.mask
-        out_of = np.zeros_like(level.mask)
-        out_of[:, :-1] = step.mask
-        isolated = level.mask & (into | out_of)
-        for i, row in enumerate(outlier_rows.tolist()):
-            where = np.flatnonzero(isolated[i])
-            outliers[row] = where.tolist()
-            outlier_z[row] = level.z[i, where].tolist()
+        level = outlier_flags(x[outlier_rows])
+        hit = np.flatnonzero(level.mask.any(axis=1))  # rows with a far value: few, so the steps are checked there only
+        if hit.size:
+            rows = x[outlier_rows[hit]]
+            step = outlier_flags(np.diff(rows, axis=1)).mask
+            # An isolated value is far from the median and makes a far step into it or out of it.
+            near_step = np.zeros(rows.shape, dtype=bool)
+            near_step[:, 1:] |= step
+            near_step[:, :-1] |= step
+            isolated = level.mask[hit] & near_step
+            for i, row in enumerate(outlier_rows[hit].tolist()):
+                where = np.flatnonzero(isolated[i])
+                outliers[row] = where.tolist()
+                outlier_z[row] = level.z[hit[i], where].tolist()
     return Mechanism(adf_p, adf_trend_p, slope_t, resid_r1, kpss_trend_p, slow, outliers, outlier_z)

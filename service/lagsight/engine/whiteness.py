@@ -28,7 +28,7 @@ Bonferroni bound, which is always valid.
 
 Volatility channel
 ------------------
-The Ljung-Box sum at h of the autocorrelations of the ranks of |x - median|: clustering of large swings. Ranks
+The Ljung-Box sum at h of the autocorrelations of the ranks of |x - mean|: clustering of large swings. Ranks
 make it hold for heavy-tailed values, where the squared-value test (McLeod-Li) is unreliable; its p-value is
 referred to the same simulated null.
 
@@ -207,12 +207,12 @@ def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: i
 
 
 def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int) -> np.ndarray:
-    """Ljung-Box p-values at h of the ranks of |x - median| (chi-square scale; referred to the null by callers)."""
+    """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers)."""
     if mask is None:
-        med = np.median(x, axis=1, keepdims=True)
+        centre = x.mean(axis=1, keepdims=True)
     else:
-        med = np.nanmedian(np.where(mask, x, np.nan), axis=1, keepdims=True)
-    a = _ranks(np.abs(x - med), mask)
+        centre = np.where(mask, x, 0.0).sum(axis=1, keepdims=True) / np.maximum(mask.sum(axis=1, keepdims=True), 1)
+    a = _ranks(np.abs(x - centre), mask)
     z, _ = _standardised(a, mask, h, robust=False)
     return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
 
