@@ -80,7 +80,8 @@ def methods():
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
                    "max_batch_points": cfg["MAX_BATCH_POINTS"], "max_replicates": cfg["MAX_REPLICATES"],
-                   "max_simulated_values": cfg["MAX_SIMULATED_VALUES"]},
+                   "max_simulated_values": cfg["MAX_SIMULATED_VALUES"],
+                   "model_search_fits": options.MODEL_SEARCH_FITS, "model_work_budget": options.MODEL_WORK_BUDGET},
         "data_in": {
             "media_types": ["application/json", "text/csv"],
             "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),
