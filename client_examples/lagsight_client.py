@@ -12,6 +12,7 @@ From the shell (PAYLOAD is a request body, for example a file from demo_payloads
 
     python lagsight_client.py single demo_payloads/bakery_daily_residuals.json
     python lagsight_client.py batch  demo_payloads/retail_weekly_batch_500.json
+    python lagsight_client.py model-check demo_payloads/dairy_daily_milk_intake_model_check.json
 
 Settings come from the environment: LAGSIGHT_URL (default http://127.0.0.1:8000),
 LAGSIGHT_TIMEOUT in seconds (default 30) and LAGSIGHT_TOKEN (a bearer token, only
@@ -25,6 +26,9 @@ import os
 import sys
 
 import requests
+
+#: Mode on the command line -> route.
+ROUTES = {"single": "/v1/diagnostics", "batch": "/v1/diagnostics/batch", "model-check": "/v1/model-check"}
 
 
 class LagsightError(Exception):
@@ -61,8 +65,13 @@ class Lagsight:
         """Many series: each ``{"id": ..., "values": [...]}``; options are shared (a series may override them)."""
         return self._post("/v1/diagnostics/batch", {"series": series, **options})
 
+    def model_check(self, values, order="suggested", **options) -> dict:
+        """Fit a model (``order`` [p, d, q] or "suggested") and diagnose its residuals."""
+        return self._post("/v1/model-check", {"values": list(values), "order": order, **options})
+
     def send(self, mode: str, body: dict) -> dict:
-        return self._post("/v1/diagnostics/batch" if mode == "batch" else "/v1/diagnostics", body)
+        return self._post(ROUTES[mode], body)
+
 
 
 def verdict_word(white_noise) -> str:
@@ -93,9 +102,21 @@ def print_batch(answer: dict) -> None:
           f"{s['undetermined']} undetermined, {s['errors']} errors")
 
 
+def print_model_check(answer: dict) -> None:
+    c = answer["comparison"]
+    print(answer.get("name") or "(unnamed)")
+    print(f"model: {answer['model']['label']} (chosen by {answer['model']['chosen_by']})")
+    print(f"before: {verdict_word(c['before']['white_noise'])}")
+    print(f"residuals: {verdict_word(c['after']['white_noise'])}")
+    print(c["sentence"])
+
+
+PRINTERS = {"single": print_report, "batch": print_batch, "model-check": print_model_check}
+
+
 def main(argv: list[str]) -> int:
-    if len(argv) != 2 or argv[0] not in ("single", "batch"):
-        print("usage: lagsight_client.py single|batch PAYLOAD.json", file=sys.stderr)
+    if len(argv) != 2 or argv[0] not in ROUTES:
+        print("usage: lagsight_client.py single|batch|model-check PAYLOAD.json", file=sys.stderr)
         return 64
     mode, path = argv
     with open(path, encoding="utf-8") as fh:
@@ -116,7 +137,7 @@ def main(argv: list[str]) -> int:
     except requests.RequestException as err:
         print(f"error: could not reach {api.base_url}: {err}", file=sys.stderr)
         return 3
-    print_batch(answer) if mode == "batch" else print_report(answer)
+    PRINTERS[mode](answer)
     return 0
 
 

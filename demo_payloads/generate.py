@@ -25,6 +25,8 @@ Expectation keys (all optional) read by the test:
 - ``test_rejects``: {test name: true}: some lag of that test rejects.
 - ``cautions_mention``: words that some caution must contain (case-insensitive).
 - ``batch``: expectations for a batch (see the retail scenario).
+- ``model_check``: expectations for POST /v1/model-check: ``model`` (the fitted model's label),
+  ``before_white_noise``, ``residuals_white_noise``, ``structure_removed`` (see the dairy scenario).
 """
 from __future__ import annotations
 
@@ -289,6 +291,25 @@ def retail_weekly_batch_500():
     }
 
 
+def dairy_daily_milk_intake_model_check():
+    rng = np.random.default_rng(2)
+    values = rounded(ar1(rng, 182, 0.55, 4.2), 2)
+    payload = {"name": "dairy co-operative, valley creamery: daily milk intake minus plan (thousand litres)",
+               "values": values, "order": "suggested"}
+    return payload, {
+        "scenario": "A dairy co-operative plans the milk its valley creamery takes in each day; these are 26 weeks "
+                    "of intake minus plan, in thousands of litres. The planner asks whether a simple time-series "
+                    "model of the shortfalls would leave nothing but noise.",
+        "requires": ["model_check"],
+        "send": {"endpoint": "/v1/model-check"},
+        "expect": {"model_check": {"model": "ARIMA(1,0,0)", "before_white_noise": False,
+                                   "residuals_white_noise": True, "structure_removed": True}},
+        "why": "Simulated as AR(1) with coefficient 0.55 (sd 4.2): a shortfall one day carries into the next as "
+               "herds and collection rounds catch up. The deviations themselves are far from white noise; the "
+               "suggested model should be an AR(1) with a constant, and its residuals should show no structure.",
+    }
+
+
 SCENARIOS = [
     bakery_daily_residuals,
     water_utility_monthly_pump_energy,
@@ -300,6 +321,7 @@ SCENARIOS = [
     ferry_terminal_daily_gaps,
     cold_store_hourly_temperature_csv,
     retail_weekly_batch_500,
+    dairy_daily_milk_intake_model_check,
 ]
 
 
