@@ -20,6 +20,7 @@ from lagsight.inputs.schema import (
     StrictInteger,
     TransformFields,
 )
+from lagsight.inputs.stability import StabilityRequest
 
 from .spec_tools import assert_valid, spec
 
@@ -54,6 +55,7 @@ def _types(prop: dict) -> list:
 @pytest.mark.parametrize("schema_cls,component", [
     (DiagnosticsRequest, "DiagnosticsRequest"), (BatchRequest, "BatchRequest"), (BatchSeries, "BatchSeries"),
     (TransformFields, "Transform"), (ModelCheckRequest, "ModelCheckRequest"),
+    (StabilityRequest, "StabilityRequest"),
 ])
 def test_request_schema_agrees_with_spec(schema_cls, component):
     """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""

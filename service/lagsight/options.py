@@ -150,3 +150,10 @@ MODEL_SEARCH_FITS = 8
 #: machine; seasonal and non-seasonal orders of 6 to 76 states), inside the 60-second worker timeout; most fits
 #: converge in a fraction of the limit.
 MODEL_WORK_BUDGET = 15_000_000
+
+# --- after the verdict: stability over time ------------------------------------------------------
+
+#: POST /v1/stability: the shortest window (common practice, no source: below about 20 values a window's
+#: autocorrelations are too noisy to compare), and the most windows one request may diagnose.
+STABILITY_MIN_WINDOW = 20
+STABILITY_MAX_WINDOWS = 2_000

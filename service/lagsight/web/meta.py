@@ -16,6 +16,7 @@ from lagsight.inputs.transforms import __doc__ as transforms_doc
 from lagsight.outputs.brief import FIELDS as BRIEF_FIELDS
 from lagsight.outputs.charts import __doc__ as charts_doc
 from lagsight.outputs.csv_table import COLUMNS as CSV_COLUMNS
+from lagsight.outputs.stability import METHOD as CHANGE_METHOD
 from lagsight.version import __version__
 from lagsight.web import query
 from lagsight.web.responses import json_response
@@ -102,4 +103,6 @@ def methods():
                        "brief_fields": ["id", *BRIEF_FIELDS]},
         },
         "decision_rule": " ".join(DECISION_RULE.split("-" * 74)[1].split()),
+        "stability": {"route": "/v1/stability", "min_window": options.STABILITY_MIN_WINDOW,
+                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": CHANGE_METHOD},
     })
