@@ -4,18 +4,20 @@
 #   ./lagsight.sh single demo_payloads/bakery_daily_residuals.json
 #   ./lagsight.sh batch  demo_payloads/retail_weekly_batch_500.json
 #   ./lagsight.sh model-check demo_payloads/dairy_daily_milk_intake_model_check.json
+#   ./lagsight.sh stability demo_payloads/bus_line_daily_boardings_stability.json
 #
 # Environment: LAGSIGHT_URL (default http://127.0.0.1:8000), LAGSIGHT_TIMEOUT in seconds (default 30),
 # LAGSIGHT_TOKEN (bearer token, only where the deployment requires one).
 # Exit codes: 0 answered, 2 the service refused the request (problem details printed), 3 no answer.
 set -euo pipefail
 
-usage() { echo "usage: $0 single|batch|model-check PAYLOAD.json" >&2; exit 64; }
+usage() { echo "usage: $0 single|batch|model-check|stability PAYLOAD.json" >&2; exit 64; }
 [ $# -eq 2 ] || usage
 case "$1" in
   single) route=/v1/diagnostics ;;
   batch) route=/v1/diagnostics/batch ;;
   model-check) route=/v1/model-check ;;
+  stability) route=/v1/stability ;;
   *) usage ;;
 esac
 payload=$2
@@ -69,6 +71,13 @@ elif [ "$1" = model-check ]; then
     "before: \(.comparison.before.white_noise | word)",
     "residuals: \(.comparison.after.white_noise | word)",
     "\(.comparison.sentence)"' "$answer"
+elif [ "$1" = stability ]; then
+  jq -r '
+    (.name // "(unnamed)"),
+    (.counts | "windows: \(.windows) (\(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) errors)"),
+    (if .changes.found == null then "changes: not computed"
+     elif (.changes.found | length) == 0 then "changes: none found"
+     else (.changes.found[] | "change: \(.kind) at \(.time // "index \(.index)"), p = \(.p_value)") end)' "$answer"
 else
   jq -r "$filters"'
     (.results[] | if .error then "\(.id): error \(.error.status): \(.error.detail)"

@@ -13,6 +13,7 @@ From the shell (PAYLOAD is a request body, for example a file from demo_payloads
     python lagsight_client.py single demo_payloads/bakery_daily_residuals.json
     python lagsight_client.py batch  demo_payloads/retail_weekly_batch_500.json
     python lagsight_client.py model-check demo_payloads/dairy_daily_milk_intake_model_check.json
+    python lagsight_client.py stability demo_payloads/bus_line_daily_boardings_stability.json
 
 Settings come from the environment: LAGSIGHT_URL (default http://127.0.0.1:8000),
 LAGSIGHT_TIMEOUT in seconds (default 30) and LAGSIGHT_TOKEN (a bearer token, only
@@ -28,7 +29,8 @@ import sys
 import requests
 
 #: Mode on the command line -> route.
-ROUTES = {"single": "/v1/diagnostics", "batch": "/v1/diagnostics/batch", "model-check": "/v1/model-check"}
+ROUTES = {"single": "/v1/diagnostics", "batch": "/v1/diagnostics/batch", "model-check": "/v1/model-check",
+          "stability": "/v1/stability"}
 
 
 class LagsightError(Exception):
@@ -68,6 +70,10 @@ class Lagsight:
     def model_check(self, values, order="suggested", **options) -> dict:
         """Fit a model (``order`` [p, d, q] or "suggested") and diagnose its residuals."""
         return self._post("/v1/model-check", {"values": list(values), "order": order, **options})
+
+    def stability(self, values, window: int, **options) -> dict:
+        """Diagnose every window of ``window`` values (``step`` apart) and read when the structure changed."""
+        return self._post("/v1/stability", {"values": list(values), "window": window, **options})
 
     def send(self, mode: str, body: dict) -> dict:
         return self._post(ROUTES[mode], body)
@@ -111,12 +117,27 @@ def print_model_check(answer: dict) -> None:
     print(c["sentence"])
 
 
-PRINTERS = {"single": print_report, "batch": print_batch, "model-check": print_model_check}
+def print_stability(answer: dict) -> None:
+    n = answer["counts"]
+    print(answer.get("name") or "(unnamed)")
+    print(f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white noise, "
+          f"{n['undetermined']} undetermined, {n['errors']} errors)")
+    found = answer["changes"]["found"]
+    if found is None:
+        print("changes: not computed")
+    elif not found:
+        print("changes: none found")
+    for c in found or []:
+        print(f"change: {c['kind']} at {c['time'] or 'index ' + str(c['index'])}, p = {c['p_value']}")
+
+
+PRINTERS = {"single": print_report, "batch": print_batch, "model-check": print_model_check,
+            "stability": print_stability}
 
 
 def main(argv: list[str]) -> int:
     if len(argv) != 2 or argv[0] not in ROUTES:
-        print("usage: lagsight_client.py single|batch|model-check PAYLOAD.json", file=sys.stderr)
+        print("usage: lagsight_client.py single|batch|model-check|stability PAYLOAD.json", file=sys.stderr)
         return 64
     mode, path = argv
     with open(path, encoding="utf-8") as fh:

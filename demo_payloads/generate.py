@@ -27,6 +27,9 @@ Expectation keys (all optional) read by the test:
 - ``batch``: expectations for a batch (see the retail scenario).
 - ``model_check``: expectations for POST /v1/model-check: ``model`` (the fitted model's label),
   ``before_white_noise``, ``residuals_white_noise``, ``structure_removed`` (see the dairy scenario).
+- ``stability``: expectations for POST /v1/stability: ``structure_change_near`` and ``within`` (a
+  structure change reported that close to that index), ``first_window_white_noise``,
+  ``last_window_white_noise`` (see the bus operator scenario).
 """
 from __future__ import annotations
 
@@ -310,6 +313,32 @@ def dairy_daily_milk_intake_model_check():
     }
 
 
+def bus_line_daily_boardings_stability():
+    rng = np.random.default_rng(5)
+    n, switch = 280, 168
+    e = rng.normal(0.0, 55.0, n)
+    x = np.zeros(n)
+    for t in range(n):
+        x[t] = (0.65 * x[t - 1] if t >= switch else 0.0) + e[t]
+    stamps = [(date(2025, 1, 6) + timedelta(days=i)).isoformat() for i in range(n)]
+    payload = {"name": "bus operator, line 12: daily boardings, forecast errors", "values": rounded(x, 0),
+               "timestamps": stamps, "window": 28, "step": 7}
+    return payload, {
+        "scenario": "A regional bus operator forecasts daily boardings on each line; these are 40 weeks of the "
+                    "forecast errors of line 12, checked four weeks at a time, one week apart. A new timetable "
+                    "started on Monday 23 June 2025.",
+        "requires": ["stability"],
+        "send": {"endpoint": "/v1/stability"},
+        "expect": {"stability": {"structure_change_near": switch, "within": 28, "first_window_white_noise": True,
+                                 "last_window_white_noise": False}},
+        "why": "The errors were simulated as independent draws (sd 55 boardings) until the new timetable, then as "
+               "AR(1) with coefficient 0.65: late buses now carry passengers over from one day to the next, a "
+               "pattern the forecast misses. The early windows look like white noise, the late ones do not, and "
+               "the change reading should place the structure change at the timetable change (index 168), "
+               "within one window.",
+    }
+
+
 SCENARIOS = [
     bakery_daily_residuals,
     water_utility_monthly_pump_energy,
@@ -322,6 +351,7 @@ SCENARIOS = [
     cold_store_hourly_temperature_csv,
     retail_weekly_batch_500,
     dairy_daily_milk_intake_model_check,
+    bus_line_daily_boardings_stability,
 ]
 
 

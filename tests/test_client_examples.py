@@ -128,6 +128,20 @@ def test_model_check_prints_the_model_and_the_reading(client, live_server):
         f"before: {word(c['before']['white_noise'])}", f"residuals: {word(c['after']['white_noise'])}", c["sentence"]]
 
 
+@pytest.mark.parametrize("client", ["curl", "python"], indirect=True)
+def test_stability_prints_the_window_counts_and_the_changes(client, live_server):
+    path = DEMO / "bus_line_daily_boardings_stability.json"
+    answer = requests.post(live_server + "/v1/stability", data=path.read_bytes(),
+                           headers={"Content-Type": "application/json"}, timeout=60).json()
+    done = run(client, "stability", path, live_server)
+    assert done.returncode == 0, done.stderr
+    n = answer["counts"]
+    changes = [f"change: {c['kind']} at {c['time']}, p = {c['p_value']}" for c in answer["changes"]["found"]]
+    assert changes and done.stdout.splitlines() == [
+        answer["name"], f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white "
+                        f"noise, {n['undetermined']} undetermined, {n['errors']} errors)", *changes]
+
+
 def test_problem_details_are_printed_with_their_pointers(client, live_server, tmp_path):
     bad = tmp_path / "bad.json"
     bad.write_text(json.dumps({"values": [3.5, 1.25, "n/a", 2.0, 4.75], "period": 1}))

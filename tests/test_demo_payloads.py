@@ -17,7 +17,7 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_payloads"
 
 #: Features a payload may declare in its sidecar's "requires".
-FEATURES = {"batch", "missing", "csv", "mcleod_li", "model_check"}
+FEATURES = {"batch", "missing", "csv", "mcleod_li", "model_check", "stability"}
 
 #: Features a payload may need that are not in the service yet -> why the test is expected to fail.
 #: Remove an entry when the feature lands; the strict xfail turns into a failure until you do.
@@ -116,6 +116,17 @@ def check_model_check(body: dict, expect: dict) -> None:
         assert comparison["structure_removed"] is expect["structure_removed"], comparison["sentence"]
 
 
+def check_stability(body: dict, expect: dict) -> None:
+    """The windows and the change reading of POST /v1/stability."""
+    if "structure_change_near" in expect:
+        near = [c["index"] for c in body["changes"]["found"] or [] if c["kind"] == "structure"]
+        assert any(abs(i - expect["structure_change_near"]) <= expect["within"] for i in near), body["reading"]
+    if "first_window_white_noise" in expect:
+        assert body["windows"][0]["white_noise"] is expect["first_window_white_noise"]
+    if "last_window_white_noise" in expect:
+        assert body["windows"][-1]["white_noise"] is expect["last_window_white_noise"]
+
+
 def test_there_are_at_least_eight_payloads_each_with_a_sidecar():
     sidecars = _sidecars()
     assert len(sidecars) >= 8
@@ -141,5 +152,7 @@ def test_payload_reaches_the_stated_conclusion(client, sidecar):
         check_batch(body, side["expect"]["batch"])
     elif "model_check" in side["expect"]:
         check_model_check(body, side["expect"]["model_check"])
+    elif "stability" in side["expect"]:
+        check_stability(body, side["expect"]["stability"])
     else:
         check_report(body, side["expect"])
