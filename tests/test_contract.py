@@ -8,6 +8,7 @@ from marshmallow import missing, validate
 from openapi_spec_validator import validate as validate_spec
 
 from lagsight import options
+from lagsight.inputs.drivers import DriverCheckRequest, DriverFields
 from lagsight.inputs.model_check import ModelCheckRequest
 from lagsight.inputs.schema import (
     BATCH_OVERRIDES,
@@ -55,7 +56,7 @@ def _types(prop: dict) -> list:
 @pytest.mark.parametrize("schema_cls,component", [
     (DiagnosticsRequest, "DiagnosticsRequest"), (BatchRequest, "BatchRequest"), (BatchSeries, "BatchSeries"),
     (TransformFields, "Transform"), (ModelCheckRequest, "ModelCheckRequest"),
-    (StabilityRequest, "StabilityRequest"),
+    (StabilityRequest, "StabilityRequest"), (DriverCheckRequest, "DriverCheckRequest"), (DriverFields, "Driver"),
 ])
 def test_request_schema_agrees_with_spec(schema_cls, component):
     """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""

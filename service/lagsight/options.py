@@ -157,3 +157,14 @@ MODEL_WORK_BUDGET = 15_000_000
 #: autocorrelations are too noisy to compare), and the most windows one request may diagnose.
 STABILITY_MIN_WINDOW = 20
 STABILITY_MAX_WINDOWS = 2_000
+
+# --- after the verdict: checking a driver ---------------------------------------------------------
+
+#: POST /v1/driver-check: at most this many drivers per request; at least this many paired values
+#: (common practice, no source: fewer leave the cross-correlations too noisy to read).
+DRIVER_MAX = 10
+DRIVER_MIN_POINTS = 20
+#: Cross-correlation lags -K..K: K = min(DRIVER_DEFAULT_LAG, n // 5) unless max_lag is sent (at most n // 4).
+DRIVER_DEFAULT_LAG = 10
+#: Highest AR order tried for prewhitening: min(DRIVER_MAX_AR_ORDER, n // 10).
+DRIVER_MAX_AR_ORDER = 10

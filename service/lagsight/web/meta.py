@@ -7,6 +7,7 @@ from lagsight import options
 from lagsight.consult.decision import __doc__ as DECISION_RULE
 from lagsight.consult.words import MEANINGS
 from lagsight.engine import stl
+from lagsight.engine.crosscorrelation import __doc__ as driver_doc
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
 from lagsight.inputs.csv_input import __doc__ as csv_doc
@@ -105,4 +106,7 @@ def methods():
         "decision_rule": " ".join(DECISION_RULE.split("-" * 74)[1].split()),
         "stability": {"route": "/v1/stability", "min_window": options.STABILITY_MIN_WINDOW,
                       "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": CHANGE_METHOD},
+        "driver_check": {"route": "/v1/driver-check", "max_drivers": options.DRIVER_MAX,
+                         "min_points": options.DRIVER_MIN_POINTS,
+                         "method": " ".join(driver_doc.split("References")[0].split())},
     })
