@@ -14,6 +14,7 @@ From the shell (PAYLOAD is a request body, for example a file from demo_payloads
     python lagsight_client.py batch  demo_payloads/retail_weekly_batch_500.json
     python lagsight_client.py model-check demo_payloads/dairy_daily_milk_intake_model_check.json
     python lagsight_client.py stability demo_payloads/bus_line_daily_boardings_stability.json
+    python lagsight_client.py driver-check demo_payloads/district_heating_daily_demand_drivers.json
 
 Settings come from the environment: LAGSIGHT_URL (default http://127.0.0.1:8000),
 LAGSIGHT_TIMEOUT in seconds (default 30) and LAGSIGHT_TOKEN (a bearer token, only
@@ -30,7 +31,7 @@ import requests
 
 #: Mode on the command line -> route.
 ROUTES = {"single": "/v1/diagnostics", "batch": "/v1/diagnostics/batch", "model-check": "/v1/model-check",
-          "stability": "/v1/stability"}
+          "stability": "/v1/stability", "driver-check": "/v1/driver-check"}
 
 
 class LagsightError(Exception):
@@ -74,6 +75,10 @@ class Lagsight:
     def stability(self, values, window: int, **options) -> dict:
         """Diagnose every window of ``window`` values (``step`` apart) and read when the structure changed."""
         return self._post("/v1/stability", {"values": list(values), "window": window, **options})
+
+    def driver_check(self, values, drivers: list[dict], **options) -> dict:
+        """Is each driver (``{"name": ..., "values": [...], "timestamps": [...]}``) still linked to the series?"""
+        return self._post("/v1/driver-check", {"values": list(values), "drivers": drivers, **options})
 
     def send(self, mode: str, body: dict) -> dict:
         return self._post(ROUTES[mode], body)
@@ -131,13 +136,23 @@ def print_stability(answer: dict) -> None:
         print(f"change: {c['kind']} at {c['time'] or 'index ' + str(c['index'])}, p = {c['p_value']}")
 
 
+def print_driver_check(answer: dict) -> None:
+    print(answer.get("name") or "(unnamed)")
+    for d in answer["drivers"]:
+        if d["moves_with_series"]:
+            print(f"{d['name']}: linked at lags {', '.join(map(str, d['key_lags']))} ({d['direction']})")
+        else:
+            print(f"{d['name']}: no link found")
+
+
 PRINTERS = {"single": print_report, "batch": print_batch, "model-check": print_model_check,
-            "stability": print_stability}
+            "stability": print_stability, "driver-check": print_driver_check}
 
 
 def main(argv: list[str]) -> int:
     if len(argv) != 2 or argv[0] not in ROUTES:
-        print("usage: lagsight_client.py single|batch|model-check|stability PAYLOAD.json", file=sys.stderr)
+        print("usage: lagsight_client.py single|batch|model-check|stability|driver-check PAYLOAD.json",
+              file=sys.stderr)
         return 64
     mode, path = argv
     with open(path, encoding="utf-8") as fh:

@@ -30,6 +30,8 @@ Expectation keys (all optional) read by the test:
 - ``stability``: expectations for POST /v1/stability: ``structure_change_near`` and ``within`` (a
   structure change reported that close to that index), ``first_window_white_noise``,
   ``last_window_white_noise`` (see the bus operator scenario).
+- ``driver_check``: expectations for POST /v1/driver-check: ``linked`` ({driver name: lags that must be
+  among its key lags}), ``not_linked`` (driver names judged not linked) (see the district heating scenario).
 """
 from __future__ import annotations
 
@@ -339,6 +341,39 @@ def bus_line_daily_boardings_stability():
     }
 
 
+def district_heating_daily_demand_drivers():
+    rng = np.random.default_rng(1)
+    n = 240
+    temperature = ar1(rng, n + 30, 0.75, 2.5)  # deviation from the seasonal normal, from 30 days before
+    newsletters = np.round(np.clip(rng.normal(3.0, 1.5, n + 10), 0.0, None))
+    errors = -3.0 * temperature[29:29 + n] + ar1(rng, n, 0.4, 9.0)  # yesterday's temperature, lag 1
+    start = date(2025, 3, 1)
+
+    def days(first: int, count: int) -> list[str]:
+        return [(start + timedelta(days=first + i)).isoformat() for i in range(count)]
+
+    payload = {"name": "district heating, west network: daily heat demand forecast errors (MWh)",
+               "values": rounded(errors, 1), "timestamps": days(0, n),
+               "drivers": [{"name": "outdoor temperature minus normal (C)", "values": rounded(temperature, 1),
+                            "timestamps": days(-30, n + 30)},
+                           {"name": "customer newsletters sent", "values": newsletters.tolist(),
+                            "timestamps": days(0, n + 10)}]}
+    return payload, {
+        "scenario": "A district heating company forecasts the daily heat demand of its west network; these are "
+                    "240 days of forecast errors in MWh. Two candidate drivers the forecast leaves out: the outdoor "
+                    "temperature's deviation from normal (exported from 30 days earlier) and the number of customer "
+                    "newsletters sent each day (to 10 days later); both are lined up with the errors by date.",
+        "requires": ["driver_check"],
+        "send": {"endpoint": "/v1/driver-check"},
+        "expect": {"driver_check": {"linked": {"outdoor temperature minus normal (C)": [1]},
+                                    "not_linked": ["customer newsletters sent"]}},
+        "why": "The errors were simulated as -3 MWh per degree of yesterday's temperature deviation (AR(1), "
+               "coefficient 0.75) plus AR(1) noise: buildings cool overnight, so yesterday's weather drives today's "
+               "demand. After prewhitening, the temperature should stand out at lag 1, the driver leading. The "
+               "newsletter counts were drawn independently and should show no link.",
+    }
+
+
 SCENARIOS = [
     bakery_daily_residuals,
     water_utility_monthly_pump_energy,
@@ -352,6 +387,7 @@ SCENARIOS = [
     retail_weekly_batch_500,
     dairy_daily_milk_intake_model_check,
     bus_line_daily_boardings_stability,
+    district_heating_daily_demand_drivers,
 ]
 
 
