@@ -1,8 +1,12 @@
 """POST /v1/stability: windows, their numbers against references, the change reading, and bad input."""
 from __future__ import annotations
 
+import io
+import xml.etree.ElementTree as ET
+
 import numpy as np
 import pytest
+from PIL import Image
 from statsmodels.stats.diagnostic import acorr_ljungbox
 from statsmodels.tsa.stattools import acf as sm_acf
 
@@ -129,7 +133,7 @@ def test_bad_input_is_422_with_a_pointer(client, body, pointer, phrase):
 def test_http_errors_auth_metrics_and_the_openapi_example(client):
     assert client.post(URL, data=b"[", content_type="application/json").status_code == 400
     assert client.post(URL, data=b"1,2", content_type="text/csv").status_code == 415
-    assert client.post(URL, json={"values": [1, 2]}, headers={"Accept": "image/png"}).status_code == 406
+    assert client.post(URL, json={"values": [1, 2]}, headers={"Accept": "text/html"}).status_code == 406
     guarded = create_app({"TESTING": True, "AUTH_TOKENS": ("s3cret",)}).test_client()
     body = {"values": np.random.default_rng(1).standard_normal(80).tolist(), "window": 40}
     assert guarded.post(URL, json=body).status_code == 401
@@ -156,3 +160,20 @@ def test_permutation_cusum_finds_a_plain_mean_shift():
     changes = segment(np.r_[np.zeros(10), np.ones(8), 3 * np.ones(10)], 0.05, "lag1_autocorrelation")
     assert [(c.boundary, c.rank) for c in changes] == [(10, 2), (18, 1)]  # the larger step is found first
     assert segment(np.random.default_rng(4).standard_normal(12), 0.05, "log_variance") == []
+
+
+def test_the_answer_as_an_image(client):
+    body = {"values": _switch(400, 200).tolist(), "window": 40, "step": 20, "name": "line 7"}
+    svg = client.post(URL, json=body, query_string={"format": "svg"})
+    assert svg.status_code == 200 and svg.mimetype == "image/svg+xml"
+    assert ET.fromstring(svg.data).tag == "{http://www.w3.org/2000/svg}svg"
+    png = client.post(URL, json=body, headers={"Accept": "image/png"})
+    assert png.status_code == 200 and png.mimetype == "image/png"
+    image = Image.open(io.BytesIO(png.data))
+    assert image.format == "PNG" and image.size[0] > 600
+    colours = {c for _, c in image.convert("RGB").getcolors(1 << 20)}
+    assert (0xB3, 0x26, 0x1E) in colours  # windows judged not white noise, in the "far" colour of the style
+    bad = client.post(URL, json=body, query_string={"format": "gif"})
+    assert bad.status_code == 422 and bad.get_json()["errors"][0]["pointer"] == "/format"
+    assert client.post(URL, json=body, query_string={"chart": "panel"}).get_json()["errors"][0]["pointer"] == "/chart"
+    assert client.post(URL, json=body, headers={"Accept": "text/csv"}).status_code == 406

@@ -9,7 +9,7 @@ from __future__ import annotations
 import secrets
 
 import numpy as np
-from flask import Blueprint, current_app, request
+from flask import Blueprint, Response, current_app, request
 
 from lagsight import options
 from lagsight.engine.changepoints import MIN_BLOCKS, find_changes
@@ -21,10 +21,31 @@ from lagsight.problems import Problem, invalid
 from lagsight.web import metrics
 from lagsight.web.diagnostics import load
 from lagsight.web.payload import read_json_object
-from lagsight.web.responses import json_response, require_json
+from lagsight.web.responses import json_response
 
 bp = Blueprint("stability", __name__)
 _SCHEMA = StabilityRequest()
+#: Answer formats: ``format`` in the query string, else the best match of Accept.
+FORMATS = {"json": "application/json", "svg": "image/svg+xml", "png": "image/png"}
+
+
+def _format() -> str:
+    requested = request.args.get("format")
+    unknown = set(request.args) - {"format"}
+    if unknown:
+        raise invalid(f"/{sorted(unknown)[0]}", f"Unknown query parameter {sorted(unknown)[0]!r}; this route takes "
+                                                "only format (json, svg or png).")
+    if requested is not None:
+        if requested not in FORMATS:
+            raise invalid("/format", f"format must be one of {', '.join(FORMATS)}, got {requested!r}.")
+        return requested
+    if not request.headers.get("Accept"):
+        return "json"
+    best = request.accept_mimetypes.best_match(list(FORMATS.values()))
+    if best is None:
+        raise Problem("not-acceptable", f"/v1/stability answers {', '.join(FORMATS.values())} (or choose with "
+                                        "format=); the Accept header allows none of them.")
+    return next(k for k, v in FORMATS.items() if v == best)
 
 
 def _check(data: dict, length: int, cfg) -> tuple[int, list[int]]:
@@ -53,8 +74,8 @@ def _window(series: PreparedSeries, start: int, width: int, method: str, cfg) ->
 
 @bp.post("/v1/stability")
 def stability():
-    """Diagnose every window, then read the changes."""
-    require_json(request)
+    """Diagnose every window, then read the changes; answer JSON or an image of it."""
+    fmt = _format()
     cfg = current_app.config
     data = load(_SCHEMA, read_json_object(request))
     series = prepare(data, cfg["MAX_POINTS"])
@@ -79,5 +100,9 @@ def stability():
     else:
         stats, found = None, []
     changes = outputs.change_block(stats, found, width, series.length, labels, alpha)
-    return json_response(outputs.answer(series.name, series.n, width, step, data["confidence"], windows, changes,
-                                        labels))
+    answer = outputs.answer(series.name, series.n, width, step, data["confidence"], windows, changes, labels)
+    if fmt != "json":
+        from lagsight.outputs.stability_image import render  # matplotlib only when an image is asked for
+
+        return Response(render(answer, fmt), mimetype=FORMATS[fmt])
+    return json_response(answer)
