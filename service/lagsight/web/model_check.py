@@ -49,10 +49,10 @@ def _check_size(order: Order, n: int, length: int, pointer: str) -> None:
                                f"residuals to diagnose), got {n}.")
     units = cost(order, length)
     if units > options.MODEL_WORK_BUDGET:
-        raise invalid(pointer, f"Fitting {order.label()} to {length} values would take about {units:,} units of work "
-                               f"(n (k + 4)^2 (terms + 2) with {order.states} states), more than this service's budget of "
-                               f"{options.MODEL_WORK_BUDGET:,} per request; send fewer values or a smaller "
-                               "(seasonal) order.")
+        raise invalid(pointer, f"Fitting {order.label()} to {length} values would take about {units:,} units of "
+                               f"work (n (k + 4)^2 (terms + 2) with {order.states} states), more than this "
+                               f"service's budget of {options.MODEL_WORK_BUDGET:,} per request; send fewer values "
+                               "or a smaller (seasonal) order.")
 
 
 def _fit_explicit(y: np.ndarray, order: Order) -> Fitted:
@@ -89,7 +89,8 @@ def _residual_series(series: PreparedSeries, fitted: Fitted, cfg) -> PreparedSer
     try:
         out = prepare(fields, cfg["MAX_POINTS"])
     except Problem as problem:
-        raise invalid("/order", f"The residuals of {fitted.order.label()} cannot be diagnosed: {problem.detail}") from None
+        detail = f"The residuals of {fitted.order.label()} cannot be diagnosed: {problem.detail}"
+        raise invalid("/order", detail) from None
     out.period_source = series.period_source if period is not None else None
     out.frequency = series.frequency
     out.labels = series.labels[fitted.burn:] if series.labels is not None else None
