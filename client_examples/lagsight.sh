@@ -3,17 +3,23 @@
 #
 #   ./lagsight.sh single demo_payloads/bakery_daily_residuals.json
 #   ./lagsight.sh batch  demo_payloads/retail_weekly_batch_500.json
+#   ./lagsight.sh model-check demo_payloads/dairy_daily_milk_intake_model_check.json
+#   ./lagsight.sh stability demo_payloads/bus_line_daily_boardings_stability.json
+#   ./lagsight.sh driver-check demo_payloads/district_heating_daily_demand_drivers.json
 #
 # Environment: LAGSIGHT_URL (default http://127.0.0.1:8000), LAGSIGHT_TIMEOUT in seconds (default 30),
 # LAGSIGHT_TOKEN (bearer token, only where the deployment requires one).
 # Exit codes: 0 answered, 2 the service refused the request (problem details printed), 3 no answer.
 set -euo pipefail
 
-usage() { echo "usage: $0 single|batch PAYLOAD.json" >&2; exit 64; }
+usage() { echo "usage: $0 single|batch|model-check|stability|driver-check PAYLOAD.json" >&2; exit 64; }
 [ $# -eq 2 ] || usage
 case "$1" in
   single) route=/v1/diagnostics ;;
   batch) route=/v1/diagnostics/batch ;;
+  model-check) route=/v1/model-check ;;
+  stability) route=/v1/stability ;;
+  driver-check) route=/v1/driver-check ;;
   *) usage ;;
 esac
 payload=$2
@@ -60,6 +66,25 @@ if [ "$1" = single ]; then
     "summary: \(.verdict.summary)",
     "outside the band (ACF): \(.acf.outside | lags)",
     "outside the band (PACF): \(.pacf.outside | lags)"' "$answer"
+elif [ "$1" = model-check ]; then
+  jq -r "$filters"'
+    (.name // "(unnamed)"),
+    "model: \(.model.label) (chosen by \(.model.chosen_by))",
+    "before: \(.comparison.before.white_noise | word)",
+    "residuals: \(.comparison.after.white_noise | word)",
+    "\(.comparison.sentence)"' "$answer"
+elif [ "$1" = stability ]; then
+  jq -r '
+    (.name // "(unnamed)"),
+    (.counts | "windows: \(.windows) (\(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) errors)"),
+    (if .changes.found == null then "changes: not computed"
+     elif (.changes.found | length) == 0 then "changes: none found"
+     else (.changes.found[] | "change: \(.kind) at \(.time // "index \(.index)"), p = \(.p_value)") end)' "$answer"
+elif [ "$1" = driver-check ]; then
+  jq -r '
+    (.name // "(unnamed)"),
+    (.drivers[] | if .moves_with_series then "\(.name): linked at lags \(.key_lags | map(tostring) | join(", ")) (\(.direction))"
+                  else "\(.name): no link found" end)' "$answer"
 else
   jq -r "$filters"'
     (.results[] | if .error then "\(.id): error \(.error.status): \(.error.detail)"

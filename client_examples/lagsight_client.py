@@ -12,6 +12,9 @@ From the shell (PAYLOAD is a request body, for example a file from demo_payloads
 
     python lagsight_client.py single demo_payloads/bakery_daily_residuals.json
     python lagsight_client.py batch  demo_payloads/retail_weekly_batch_500.json
+    python lagsight_client.py model-check demo_payloads/dairy_daily_milk_intake_model_check.json
+    python lagsight_client.py stability demo_payloads/bus_line_daily_boardings_stability.json
+    python lagsight_client.py driver-check demo_payloads/district_heating_daily_demand_drivers.json
 
 Settings come from the environment: LAGSIGHT_URL (default http://127.0.0.1:8000),
 LAGSIGHT_TIMEOUT in seconds (default 30) and LAGSIGHT_TOKEN (a bearer token, only
@@ -25,6 +28,10 @@ import os
 import sys
 
 import requests
+
+#: Mode on the command line -> route.
+ROUTES = {"single": "/v1/diagnostics", "batch": "/v1/diagnostics/batch", "model-check": "/v1/model-check",
+          "stability": "/v1/stability", "driver-check": "/v1/driver-check"}
 
 
 class LagsightError(Exception):
@@ -61,8 +68,21 @@ class Lagsight:
         """Many series: each ``{"id": ..., "values": [...]}``; options are shared (a series may override them)."""
         return self._post("/v1/diagnostics/batch", {"series": series, **options})
 
+    def model_check(self, values, order="suggested", **options) -> dict:
+        """Fit a model (``order`` [p, d, q] or "suggested") and diagnose its residuals."""
+        return self._post("/v1/model-check", {"values": list(values), "order": order, **options})
+
+    def stability(self, values, window: int, **options) -> dict:
+        """Diagnose every window of ``window`` values (``step`` apart) and read when the structure changed."""
+        return self._post("/v1/stability", {"values": list(values), "window": window, **options})
+
+    def driver_check(self, values, drivers: list[dict], **options) -> dict:
+        """Is each driver (``{"name": ..., "values": [...], "timestamps": [...]}``) still linked to the series?"""
+        return self._post("/v1/driver-check", {"values": list(values), "drivers": drivers, **options})
+
     def send(self, mode: str, body: dict) -> dict:
-        return self._post("/v1/diagnostics/batch" if mode == "batch" else "/v1/diagnostics", body)
+        return self._post(ROUTES[mode], body)
+
 
 
 def verdict_word(white_noise) -> str:
@@ -93,9 +113,46 @@ def print_batch(answer: dict) -> None:
           f"{s['undetermined']} undetermined, {s['errors']} errors")
 
 
+def print_model_check(answer: dict) -> None:
+    c = answer["comparison"]
+    print(answer.get("name") or "(unnamed)")
+    print(f"model: {answer['model']['label']} (chosen by {answer['model']['chosen_by']})")
+    print(f"before: {verdict_word(c['before']['white_noise'])}")
+    print(f"residuals: {verdict_word(c['after']['white_noise'])}")
+    print(c["sentence"])
+
+
+def print_stability(answer: dict) -> None:
+    n = answer["counts"]
+    print(answer.get("name") or "(unnamed)")
+    print(f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white noise, "
+          f"{n['undetermined']} undetermined, {n['errors']} errors)")
+    found = answer["changes"]["found"]
+    if found is None:
+        print("changes: not computed")
+    elif not found:
+        print("changes: none found")
+    for c in found or []:
+        print(f"change: {c['kind']} at {c['time'] or 'index ' + str(c['index'])}, p = {c['p_value']}")
+
+
+def print_driver_check(answer: dict) -> None:
+    print(answer.get("name") or "(unnamed)")
+    for d in answer["drivers"]:
+        if d["moves_with_series"]:
+            print(f"{d['name']}: linked at lags {', '.join(map(str, d['key_lags']))} ({d['direction']})")
+        else:
+            print(f"{d['name']}: no link found")
+
+
+PRINTERS = {"single": print_report, "batch": print_batch, "model-check": print_model_check,
+            "stability": print_stability, "driver-check": print_driver_check}
+
+
 def main(argv: list[str]) -> int:
-    if len(argv) != 2 or argv[0] not in ("single", "batch"):
-        print("usage: lagsight_client.py single|batch PAYLOAD.json", file=sys.stderr)
+    if len(argv) != 2 or argv[0] not in ROUTES:
+        print("usage: lagsight_client.py single|batch|model-check|stability|driver-check PAYLOAD.json",
+              file=sys.stderr)
         return 64
     mode, path = argv
     with open(path, encoding="utf-8") as fh:
@@ -116,7 +173,7 @@ def main(argv: list[str]) -> int:
     except requests.RequestException as err:
         print(f"error: could not reach {api.base_url}: {err}", file=sys.stderr)
         return 3
-    print_batch(answer) if mode == "batch" else print_report(answer)
+    PRINTERS[mode](answer)
     return 0
 
 

@@ -25,6 +25,13 @@ Expectation keys (all optional) read by the test:
 - ``test_rejects``: {test name: true}: some lag of that test rejects.
 - ``cautions_mention``: words that some caution must contain (case-insensitive).
 - ``batch``: expectations for a batch (see the retail scenario).
+- ``model_check``: expectations for POST /v1/model-check: ``model`` (the fitted model's label),
+  ``before_white_noise``, ``residuals_white_noise``, ``structure_removed`` (see the dairy scenario).
+- ``stability``: expectations for POST /v1/stability: ``structure_change_near`` and ``within`` (a
+  structure change reported that close to that index), ``first_window_white_noise``,
+  ``last_window_white_noise`` (see the bus operator scenario).
+- ``driver_check``: expectations for POST /v1/driver-check: ``linked`` ({driver name: lags that must be
+  among its key lags}), ``not_linked`` (driver names judged not linked) (see the district heating scenario).
 """
 from __future__ import annotations
 
@@ -289,6 +296,84 @@ def retail_weekly_batch_500():
     }
 
 
+def dairy_daily_milk_intake_model_check():
+    rng = np.random.default_rng(2)
+    values = rounded(ar1(rng, 182, 0.55, 4.2), 2)
+    payload = {"name": "dairy co-operative, valley creamery: daily milk intake minus plan (thousand litres)",
+               "values": values, "order": "suggested"}
+    return payload, {
+        "scenario": "A dairy co-operative plans the milk its valley creamery takes in each day; these are 26 weeks "
+                    "of intake minus plan, in thousands of litres. The planner asks whether a simple time-series "
+                    "model of the shortfalls would leave nothing but noise.",
+        "requires": ["model_check"],
+        "send": {"endpoint": "/v1/model-check"},
+        "expect": {"model_check": {"model": "ARIMA(1,0,0)", "before_white_noise": False,
+                                   "residuals_white_noise": True, "structure_removed": True}},
+        "why": "Simulated as AR(1) with coefficient 0.55 (sd 4.2): a shortfall one day carries into the next as "
+               "herds and collection rounds catch up. The deviations themselves are far from white noise; the "
+               "suggested model should be an AR(1) with a constant, and its residuals should show no structure.",
+    }
+
+
+def bus_line_daily_boardings_stability():
+    rng = np.random.default_rng(5)
+    n, switch = 280, 168
+    e = rng.normal(0.0, 55.0, n)
+    x = np.zeros(n)
+    for t in range(n):
+        x[t] = (0.65 * x[t - 1] if t >= switch else 0.0) + e[t]
+    stamps = [(date(2025, 1, 6) + timedelta(days=i)).isoformat() for i in range(n)]
+    payload = {"name": "bus operator, line 12: daily boardings, forecast errors", "values": rounded(x, 0),
+               "timestamps": stamps, "window": 28, "step": 7}
+    return payload, {
+        "scenario": "A regional bus operator forecasts daily boardings on each line; these are 40 weeks of the "
+                    "forecast errors of line 12, checked four weeks at a time, one week apart. A new timetable "
+                    "started on Monday 23 June 2025.",
+        "requires": ["stability"],
+        "send": {"endpoint": "/v1/stability"},
+        "expect": {"stability": {"structure_change_near": switch, "within": 28, "first_window_white_noise": True,
+                                 "last_window_white_noise": False}},
+        "why": "The errors were simulated as independent draws (sd 55 boardings) until the new timetable, then as "
+               "AR(1) with coefficient 0.65: late buses now carry passengers over from one day to the next, a "
+               "pattern the forecast misses. The early windows look like white noise, the late ones do not, and "
+               "the change reading should place the structure change at the timetable change (index 168), "
+               "within one window.",
+    }
+
+
+def district_heating_daily_demand_drivers():
+    rng = np.random.default_rng(1)
+    n = 240
+    temperature = ar1(rng, n + 30, 0.75, 2.5)  # deviation from the seasonal normal, from 30 days before
+    newsletters = np.round(np.clip(rng.normal(3.0, 1.5, n + 10), 0.0, None))
+    errors = -3.0 * temperature[29:29 + n] + ar1(rng, n, 0.4, 9.0)  # yesterday's temperature, lag 1
+    start = date(2025, 3, 1)
+
+    def days(first: int, count: int) -> list[str]:
+        return [(start + timedelta(days=first + i)).isoformat() for i in range(count)]
+
+    payload = {"name": "district heating, west network: daily heat demand forecast errors (MWh)",
+               "values": rounded(errors, 1), "timestamps": days(0, n),
+               "drivers": [{"name": "outdoor temperature minus normal (C)", "values": rounded(temperature, 1),
+                            "timestamps": days(-30, n + 30)},
+                           {"name": "customer newsletters sent", "values": newsletters.tolist(),
+                            "timestamps": days(0, n + 10)}]}
+    return payload, {
+        "scenario": "A district heating company forecasts the daily heat demand of its west network; these are "
+                    "240 days of forecast errors in MWh. Two candidate drivers the forecast leaves out: the outdoor "
+                    "temperature's deviation from normal (exported from 30 days earlier) and the number of customer "
+                    "newsletters sent each day (to 10 days later); both are lined up with the errors by date.",
+        "requires": ["driver_check"],
+        "send": {"endpoint": "/v1/driver-check"},
+        "expect": {"driver_check": {"linked": {"outdoor temperature minus normal (C)": [1]},
+                                    "not_linked": ["customer newsletters sent"]}},
+        "why": "The errors were simulated as -3 MWh per degree of yesterday's temperature deviation (AR(1), "
+               "coefficient 0.75) plus AR(1) noise: buildings cool overnight, so yesterday's weather drives today's "
+               "demand. After prewhitening, the temperature should stand out at lag 1, the driver leading. The "
+               "newsletter counts were drawn independently and should show no link.",
+    }
+
+
 SCENARIOS = [
     bakery_daily_residuals,
     water_utility_monthly_pump_energy,
@@ -300,6 +385,9 @@ SCENARIOS = [
     ferry_terminal_daily_gaps,
     cold_store_hourly_temperature_csv,
     retail_weekly_batch_500,
+    dairy_daily_milk_intake_model_check,
+    bus_line_daily_boardings_stability,
+    district_heating_daily_demand_drivers,
 ]
 
 

@@ -115,6 +115,46 @@ def test_batch_prints_one_line_per_series_and_the_summary(client, live_server):
     assert len(lines) == 501 and lines[-2].startswith("store-500: error 422:")  # the stuck till feed
 
 
+@pytest.mark.parametrize("client", ["curl", "python"], indirect=True)
+def test_model_check_prints_the_model_and_the_reading(client, live_server):
+    path = DEMO / "dairy_daily_milk_intake_model_check.json"
+    answer = requests.post(live_server + "/v1/model-check", data=path.read_bytes(),
+                           headers={"Content-Type": "application/json"}, timeout=60).json()
+    done = run(client, "model-check", path, live_server)
+    assert done.returncode == 0, done.stderr
+    c = answer["comparison"]
+    assert done.stdout.splitlines() == [
+        answer["name"], f"model: {answer['model']['label']} (chosen by {answer['model']['chosen_by']})",
+        f"before: {word(c['before']['white_noise'])}", f"residuals: {word(c['after']['white_noise'])}", c["sentence"]]
+
+
+@pytest.mark.parametrize("client", ["curl", "python"], indirect=True)
+def test_stability_prints_the_window_counts_and_the_changes(client, live_server):
+    path = DEMO / "bus_line_daily_boardings_stability.json"
+    answer = requests.post(live_server + "/v1/stability", data=path.read_bytes(),
+                           headers={"Content-Type": "application/json"}, timeout=60).json()
+    done = run(client, "stability", path, live_server)
+    assert done.returncode == 0, done.stderr
+    n = answer["counts"]
+    changes = [f"change: {c['kind']} at {c['time']}, p = {c['p_value']}" for c in answer["changes"]["found"]]
+    assert changes and done.stdout.splitlines() == [
+        answer["name"], f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white "
+                        f"noise, {n['undetermined']} undetermined, {n['errors']} errors)", *changes]
+
+
+@pytest.mark.parametrize("client", ["curl", "python"], indirect=True)
+def test_driver_check_prints_each_driver_and_its_key_lags(client, live_server):
+    path = DEMO / "district_heating_daily_demand_drivers.json"
+    answer = requests.post(live_server + "/v1/driver-check", data=path.read_bytes(),
+                           headers={"Content-Type": "application/json"}, timeout=60).json()
+    done = run(client, "driver-check", path, live_server)
+    assert done.returncode == 0, done.stderr
+    lines = [f"{d['name']}: linked at lags {', '.join(map(str, d['key_lags']))} ({d['direction']})"
+             if d["moves_with_series"] else f"{d['name']}: no link found" for d in answer["drivers"]]
+    assert done.stdout.splitlines() == [answer["name"], *lines]
+    assert lines[0].endswith("linked at lags 1 (driver_leads)")
+
+
 def test_problem_details_are_printed_with_their_pointers(client, live_server, tmp_path):
     bad = tmp_path / "bad.json"
     bad.write_text(json.dumps({"values": [3.5, 1.25, "n/a", 2.0, 4.75], "period": 1}))

@@ -8,6 +8,8 @@ from marshmallow import missing, validate
 from openapi_spec_validator import validate as validate_spec
 
 from lagsight import options
+from lagsight.inputs.drivers import DriverCheckRequest, DriverFields
+from lagsight.inputs.model_check import ModelCheckRequest
 from lagsight.inputs.schema import (
     BATCH_OVERRIDES,
     BatchRequest,
@@ -19,6 +21,7 @@ from lagsight.inputs.schema import (
     StrictInteger,
     TransformFields,
 )
+from lagsight.inputs.stability import StabilityRequest
 
 from .spec_tools import assert_valid, spec
 
@@ -52,7 +55,8 @@ def _types(prop: dict) -> list:
 
 @pytest.mark.parametrize("schema_cls,component", [
     (DiagnosticsRequest, "DiagnosticsRequest"), (BatchRequest, "BatchRequest"), (BatchSeries, "BatchSeries"),
-    (TransformFields, "Transform"),
+    (TransformFields, "Transform"), (ModelCheckRequest, "ModelCheckRequest"),
+    (StabilityRequest, "StabilityRequest"), (DriverCheckRequest, "DriverCheckRequest"), (DriverFields, "Driver"),
 ])
 def test_request_schema_agrees_with_spec(schema_cls, component):
     """Fields, required, defaults, bounds and nullability read the same in marshmallow and the spec."""

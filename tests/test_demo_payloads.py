@@ -17,7 +17,7 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_payloads"
 
 #: Features a payload may declare in its sidecar's "requires".
-FEATURES = {"batch", "missing", "csv", "mcleod_li"}
+FEATURES = {"batch", "missing", "csv", "mcleod_li", "model_check", "stability", "driver_check"}
 
 #: Features a payload may need that are not in the service yet -> why the test is expected to fail.
 #: Remove an entry when the feature lands; the strict xfail turns into a failure until you do.
@@ -103,6 +103,40 @@ def check_batch(body: dict, expect: dict) -> None:
     assert len(flagged & clean) <= expect["max_false_alarm_share"] * len(clean)
 
 
+def check_model_check(body: dict, expect: dict) -> None:
+    """The fitted model and the before/after reading of POST /v1/model-check."""
+    comparison = body["comparison"]
+    if "model" in expect:
+        assert body["model"]["label"] == expect["model"], body["search"]
+    if "before_white_noise" in expect:
+        assert comparison["before"]["white_noise"] is expect["before_white_noise"]
+    if "residuals_white_noise" in expect:
+        assert body["residuals"]["verdict"]["white_noise"] is expect["residuals_white_noise"]
+    if "structure_removed" in expect:
+        assert comparison["structure_removed"] is expect["structure_removed"], comparison["sentence"]
+
+
+def check_stability(body: dict, expect: dict) -> None:
+    """The windows and the change reading of POST /v1/stability."""
+    if "structure_change_near" in expect:
+        near = [c["index"] for c in body["changes"]["found"] or [] if c["kind"] == "structure"]
+        assert any(abs(i - expect["structure_change_near"]) <= expect["within"] for i in near), body["reading"]
+    if "first_window_white_noise" in expect:
+        assert body["windows"][0]["white_noise"] is expect["first_window_white_noise"]
+    if "last_window_white_noise" in expect:
+        assert body["windows"][-1]["white_noise"] is expect["last_window_white_noise"]
+
+
+def check_driver_check(body: dict, expect: dict) -> None:
+    """The judgement and key lags of each driver named in POST /v1/driver-check's expectations."""
+    by_name = {d["name"]: d for d in body["drivers"]}
+    for name, lags in expect.get("linked", {}).items():
+        assert by_name[name]["moves_with_series"] is True, by_name[name]["reading"]
+        assert set(lags) <= set(by_name[name]["key_lags"]), by_name[name]["key_lags"]
+    for name in expect.get("not_linked", []):
+        assert by_name[name]["moves_with_series"] is False, by_name[name]["reading"]
+
+
 def test_there_are_at_least_eight_payloads_each_with_a_sidecar():
     sidecars = _sidecars()
     assert len(sidecars) >= 8
@@ -126,5 +160,11 @@ def test_payload_reaches_the_stated_conclusion(client, sidecar):
     body = r.get_json()
     if "batch" in side["expect"]:
         check_batch(body, side["expect"]["batch"])
+    elif "model_check" in side["expect"]:
+        check_model_check(body, side["expect"]["model_check"])
+    elif "stability" in side["expect"]:
+        check_stability(body, side["expect"]["stability"])
+    elif "driver_check" in side["expect"]:
+        check_driver_check(body, side["expect"]["driver_check"])
     else:
         check_report(body, side["expect"])

@@ -11,8 +11,10 @@ from __future__ import annotations
 from collections import Counter
 
 import hypothesis
+import pytest
 import schemathesis
 from schemathesis.checks import negative_data_rejection, positive_data_acceptance
+from threadpoolctl import threadpool_limits
 
 from lagsight import create_app
 
@@ -32,6 +34,16 @@ def _examples_per_operation() -> int:
     return max(300, -(-1100 // max(with_inputs, 1)))
 
 SENT: Counter = Counter()
+
+
+@pytest.fixture(scope="module", autouse=True)
+def one_blas_thread():
+    """One BLAS thread, as in a gunicorn worker (serving/gunicorn_conf.py): with BLAS threads competing for the
+    cores, the Kalman filter behind /v1/model-check runs several times slower."""
+    with threadpool_limits(1):
+        yield
+
+
 #: Schema-valid bodies can still be refused with 422 for rules JSON Schema cannot state (timestamps as long as
 #: values, at least 3 usable points, a non-constant series, max_lag below n, parseable dates), so the check that
 #: every schema-valid body is accepted does not apply; every other schemathesis check runs.

@@ -25,11 +25,14 @@ def create_app(config: dict | None = None) -> Flask:
     observability.init_app(app)  # first: the request id and clock start before anything can fail
     security.init_app(app)
     errors.init_app(app)
-    from lagsight.web import batch, diagnostics, meta, operations, page
+    from lagsight.web import batch, diagnostics, drivers, meta, model_check, operations, page, stability
 
     app.register_blueprint(meta.bp)
     app.register_blueprint(operations.bp)
     app.register_blueprint(diagnostics.bp)
     app.register_blueprint(batch.bp)
+    app.register_blueprint(model_check.bp)
+    app.register_blueprint(stability.bp)
+    app.register_blueprint(drivers.bp)
     app.register_blueprint(page.bp)
     return app

@@ -135,3 +135,37 @@ FAR_OUTSIDE_SE = 3.0
 CSV_DELIMITERS = {"comma": ",", "semicolon": ";", "tab": "\t"}
 CSV_DECIMALS = {"point": ".", "comma": ","}
 CSV_MISSING_TOKENS = ("", "na", "n/a", "nan", "null", "none", "#n/a", "-")
+
+# --- after the verdict: checking a model ---------------------------------------------------------
+
+#: POST /v1/model-check: ``order`` is [p, d, q] within these bounds, or "suggested".
+MODEL_SUGGESTED = "suggested"
+MODEL_MAX_ORDER = (5, 2, 5)  # p, d, q
+MODEL_MAX_SEASONAL_ORDER = (2, 1, 2)  # P, D, Q
+MODEL_TRENDS = ("none", "constant", "linear", "constant_linear")
+#: The suggested model's AICc search fits at most this many orders (the start included).
+MODEL_SEARCH_FITS = 8
+#: Work one request may spend on fits, in units of n (k + 4)^2 (terms + 2) per fit (k the model's state dimension,
+#: terms its AR, MA and trend coefficients; see lagsight.engine.arima.cost). Fits of about 15,000,000 units that
+#: ran to statsmodels' iteration limit took 16-18 s (1.1-1.2 microseconds a unit; one BLAS thread, a busy two-core
+#: machine; seasonal and non-seasonal orders of 6 to 76 states), inside the 60-second worker timeout; most fits
+#: converge in a fraction of the limit.
+MODEL_WORK_BUDGET = 15_000_000
+
+# --- after the verdict: stability over time ------------------------------------------------------
+
+#: POST /v1/stability: the shortest window (common practice, no source: below about 20 values a window's
+#: autocorrelations are too noisy to compare), and the most windows one request may diagnose.
+STABILITY_MIN_WINDOW = 20
+STABILITY_MAX_WINDOWS = 2_000
+
+# --- after the verdict: checking a driver ---------------------------------------------------------
+
+#: POST /v1/driver-check: at most this many drivers per request; at least this many paired values
+#: (common practice, no source: fewer leave the cross-correlations too noisy to read).
+DRIVER_MAX = 10
+DRIVER_MIN_POINTS = 20
+#: Cross-correlation lags -K..K: K = min(DRIVER_DEFAULT_LAG, n // 5) unless max_lag is sent (at most n // 4).
+DRIVER_DEFAULT_LAG = 10
+#: Highest AR order tried for prewhitening: min(DRIVER_MAX_AR_ORDER, n // 10).
+DRIVER_MAX_AR_ORDER = 10

@@ -162,3 +162,7 @@ def render(report: dict, chart: str, fmt: str) -> bytes:
         buf = io.BytesIO()
         fig.savefig(buf, format=fmt, dpi=DPI, metadata={"Date": None} if fmt == "svg" else {"Software": "Lagsight"})
     return buf.getvalue()
+
+
+#: The style settings and helpers, for other images drawn the same way (outputs/stability_image.py).
+RC, matplotlib_parts, tidy = _RC, _mpl, _tidy

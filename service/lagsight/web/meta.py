@@ -10,6 +10,7 @@ from lagsight.consult import across, advice
 from lagsight.consult.decision import __doc__ as DECISION_RULE
 from lagsight.consult.words import MEANINGS
 from lagsight.engine import stl, whiteness
+from lagsight.engine.crosscorrelation import __doc__ as driver_doc
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
 from lagsight.inputs.csv_input import __doc__ as csv_doc
@@ -19,6 +20,7 @@ from lagsight.inputs.transforms import __doc__ as transforms_doc
 from lagsight.outputs.brief import FIELDS as BRIEF_FIELDS
 from lagsight.outputs.charts import __doc__ as charts_doc
 from lagsight.outputs.csv_table import COLUMNS as CSV_COLUMNS
+from lagsight.outputs.stability import METHOD as CHANGE_METHOD
 from lagsight.version import __version__
 from lagsight.web import budget, query
 from lagsight.web.responses import json_response
@@ -93,7 +95,8 @@ def methods():
                    "max_simulated_values": cfg["MAX_SIMULATED_VALUES"], "max_cost": cfg["MAX_COST"],
                    "request_deadline_seconds": cfg["REQUEST_DEADLINE"],
                    "cost": _prose(budget.__doc__.split("Cost\n----")[1].split("Deadline\n--------")[0]),
-                   "deadline": _prose(budget.__doc__.split("Deadline\n--------")[1])},
+                   "deadline": _prose(budget.__doc__.split("Deadline\n--------")[1]),
+                   "model_search_fits": options.MODEL_SEARCH_FITS, "model_work_budget": options.MODEL_WORK_BUDGET},
         "data_in": {
             "media_types": ["application/json", "text/csv"],
             "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),
@@ -118,6 +121,10 @@ def methods():
         "advice_codes": {"codes": list(advice.CODES), "rule": _prose(advice.__doc__)},
         "across_series": _prose(across.__doc__.split("References\n----------")[0]),
         "references": _prose(DECISION_SOURCES),
+        "stability": {"route": "/v1/stability", "min_window": options.STABILITY_MIN_WINDOW,
+                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": CHANGE_METHOD},
+        "driver_check": {"route": "/v1/driver-check", "max_drivers": options.DRIVER_MAX,
+                         "min_points": options.DRIVER_MIN_POINTS, "method": _prose(driver_doc.split("References")[0])},
     })
 
 

@@ -78,3 +78,10 @@ def worker_exited(pid: int) -> None:
     """Let the multiprocess files of a dead worker be merged and its live gauges dropped (gunicorn child_exit)."""
     if os.environ.get(MULTIPROC_ENV):
         multiprocess.mark_process_dead(pid)
+
+
+MODEL_FITS = Counter("lagsight_models_fitted", "Models fitted by POST /v1/model-check (each order of a search counts).")
+
+
+def record_fits(count: int) -> None:
+    MODEL_FITS.inc(count)
