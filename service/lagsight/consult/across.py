@@ -1,11 +1,13 @@
 """The reading across the series of a batch: false-discovery-rate adjusted values and what they say.
 
 With 10,000 series checked at 95%, about 500 are flagged by chance alone even if every one is white noise.
-Each series' ``verdict.tail_p_value`` (Bonferroni over its spike components: a normal tail that holds far out,
-unlike the chi-square tail of a Ljung-Box statistic at moderate n) is adjusted across the batch by the
-Benjamini-Hochberg step-up procedure [1]_: q_(i) = min over j >= i of m p_(j) / j. A series "stands out" when its
-q-value is at most the rate (1 - confidence by default): then the expected share of false discoveries among the
-series that stand out is at most the rate.
+Each series' ``verdict.tail_p_value`` is adjusted across the batch by the Benjamini-Hochberg step-up procedure
+[1]_: q_(i) = min over j >= i of m p_(j) / j. That p-value is the verdict's own adjusted p-value where its
+simulated null resolves it, and beyond (below twice the table's resolution) the normal tails of the largest
+robust spike over every lag and of the rank spike, which hold far out, unlike the chi-square tail of a Ljung-Box
+statistic at moderate n. A series "stands out" when its own verdict flags it and its q-value is at most the rate
+(1 - confidence of the request): the expected share of false discoveries among the series that stand out is
+then at most the rate.
 
 The procedure controls that share when the series are independent or positively dependent (PRDS, [2]_); series
 that move together in other ways (one shock hitting many stores) make it approximate.
@@ -48,7 +50,9 @@ def reading(ids: list, verdicts: list[dict], alphas: list[float], rate: float) -
     q = q_values([v["tail_p_value"] for v in verdicts])
     flagged = sum(1 for v in verdicts if v["white_noise"] is False)
     chance = float(sum(alphas))
-    standing = [i for i, qi in zip(ids, q) if qi <= rate]
+    # A series stands out when its own verdict flags it and it survives the adjustment: the adjustment only
+    # ever removes series from those flagged one by one.
+    standing = [i for i, qi, v in zip(ids, q, verdicts) if qi <= rate and v["white_noise"] is False]
     text = (f"{plural(flagged, 'series', 'series')} of {len(ids)} {'is' if flagged == 1 else 'are'} called not white "
             f"noise one by one; chance alone would flag about {fmt(chance, 2)} even if all were white noise. After "
             f"the false-discovery adjustment at {fmt(rate * 100, 2)}%, {plural(len(standing), 'series', 'series')} "

@@ -123,27 +123,31 @@ def advice(report: dict, d: Decision) -> list[dict]:
         if kind == "outliers":
             where = [f"{i} (robust z {fmt(z, 2)})" for i, z in zip(d.outliers[:5], d.outlier_z[:5])]
             what = "value" if len(d.outliers) == 1 else plural(len(d.outliers), "value")
-            out.append(_item("check_outliers", f"Check the {what} at index "
+            out.append(_item("check_outliers", f"Check the {what} at {'index' if len(d.outliers) == 1 else 'indices'} "
                                                f"{and_(where)}{' ...' if len(d.outliers) > 5 else ''}: correct a "
                                                "recording error, or model the event (an intervention term), then "
                                                "check again.",
                              "The ordinary and the rank-based autocorrelations disagree: the reading rests on these "
                              "values."))
         elif kind == "over_differenced":
-            out.append(_item("undo_difference", "Undo the last difference (model the series one difference lower, "
-                                                "with an MA term if needed) and check again; do not difference again.",
+            out.append(_item("undo_difference", "If the series was differenced, undo the last difference (model it "
+                                                "one difference lower) and check again; do not difference again.",
                              f"The lag-1 autocorrelation is {fmt(d.r1, 2)}: a series differenced once too often "
                              "has it near -0.5."))
+            out.append(_item("add_ma_terms", "If it was not differenced, add an MA(1) term (a moving average of the "
+                                             f"last shock) and test the new residuals with model_df = "
+                                             f"{1 + report['model_df']}.",
+                             "A strongly negative lag-1 autocorrelation alone is also the pattern of an MA(1) with a "
+                             "negative coefficient."))
         elif kind == "trend":
             out.append(_item("remove_trend", "Remove the trend (fit a straight line in time, or send transform "
-                                             "{\"detrend\": true}) and check what is left; do not difference.",
-                             f"The slope is clear (t = {fmt(d.checks['slope_t'], 2)}, Newey-West) and what is left "
+                                             "{\"detrend\": \"linear\"}) and check what is left; do not difference.",
+                             f"The slope is clear ({d.slope_text()}) and what is left "
                              f"around the line is stationary ({d.around_line()}): the level follows a steady trend."))
         elif kind == "unit_root":
             out.append(_item("difference", "Difference the series once (or send transform {\"difference\": 1}) and "
                                            "check again.",
-                             f"The autocorrelation decays slowly (r1 = {fmt(d.r1, 2)}) and the augmented Dickey-Fuller "
-                             f"test cannot rule out a unit root ({fmt_p(d.checks['adf_p'])})."))
+                             f"The autocorrelation decays slowly (r1 = {fmt(d.r1, 2)}) and {d.unit_root_test()}."))
         elif kind == "seasonal":
             out.append(_seasonal(report, d))
         elif kind == "autocorrelation" and not explained:

@@ -13,6 +13,10 @@ def short_series_warning(n: int) -> dict:
         "that holds at this length; for the individual tests consider p_values \"monte_carlo\".")}
 
 
+#: From this share of values equal to the most common one on, a caution says the reference is approximate.
+TIED_SHARE = 0.5
+
+
 def cautions(report: dict, decision: Decision) -> list[str]:
     """The cautions that always apply, and those this report calls for."""
     ex = report["exceedances"]
@@ -30,9 +34,18 @@ def cautions(report: dict, decision: Decision) -> list[str]:
                    "neighbouring values look correlated.")
     if decision.outliers:
         where = and_([str(i) for i in decision.outliers[:8]]) + (" ..." if len(decision.outliers) > 8 else "")
-        out.append(f"{plural(len(decision.outliers), 'value')} at index {where} "
+        out.append(f"{plural(len(decision.outliers), 'value')} at {'index' if len(decision.outliers) == 1 else 'indices'} "
+                   f"{where} (counted from 0 in the series analysed, after any transform) "
                    f"{'lies' if len(decision.outliers) == 1 else 'lie'} far from the rest (median/MAD rule); "
                    "a single extreme value can hide or fake autocorrelation.")
+    if report["missing"]["method"] == "pairwise" and report["missing"]["remaining"]:
+        out.append("With missing values kept missing (pairwise), the checks for a trend, a unit root and isolated "
+                   "extreme values were not made: they need a complete series (missing \"interpolate\" makes one).")
+    if decision.tied_share >= TIED_SHARE:
+        out.append(f"{pct(decision.tied_share)} of the values share one value (for example zero sales): the verdict's "
+                   "reference assumes values that vary continuously, and with mostly equal values it can flag "
+                   "structure more often than its level says; read a rejection resting on a few non-zero values "
+                   "with care.")
     if report["model_df"] == 0:
         out.append("If these values are residuals of a fitted ARMA model, set model_df to its number of "
                    "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
@@ -72,4 +85,4 @@ def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: boo
 
 def _count(expected: float) -> str:
     """An expected count for a sentence: whole above 10, one decimal below."""
-    return f"{expected:.0f}" if expected >= 10 else f"{expected:.1f}"
+    return f"{expected:.0f}" if expected >= 10 else fmt(expected, 2)

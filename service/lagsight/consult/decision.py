@@ -90,6 +90,7 @@ class Decision:
     outliers: list[int] = field(default_factory=list)
     outlier_z: list[float] = field(default_factory=list)
     filled: int = 0
+    tied_share: float = 0.0
     checks: dict = field(default_factory=dict)  # ADF p-values and the slope's t where computed
 
     @property
@@ -97,10 +98,27 @@ class Decision:
         return self.structure[0] if self.structure else None
 
     def around_line(self) -> str:
-        """The evidence that the values around a fitted line are stationary, in words."""
+        """The evidence that the values around a fitted line are stationary, in words (only what supports it)."""
         c = self.checks
-        return (f"augmented Dickey-Fuller with a trend {fmt_p(c['adf_trend_p'])}, lag-1 autocorrelation around the "
-                f"line {fmt(c['residual_r1'], 2)}")
+        if c["residual_r1"] is None:
+            return "the values lie on the line"
+        if c["residual_r1"] <= TREND_RESIDUAL_R1:
+            return f"their lag-1 autocorrelation around the line is {fmt(c['residual_r1'], 2)}"
+        return (f"the augmented Dickey-Fuller test with a trend rejects a unit root, {fmt_p(c['adf_trend_p'])}, and the "
+                "KPSS test does not reject stationarity around the trend")
+
+    def slope_text(self) -> str:
+        """The slope's evidence in words: its Newey-West t, or that the values lie on an exact line."""
+        t = self.checks["slope_t"]
+        return "the values lie on an exact line" if t is None else f"t = {fmt(t, 2)}, Newey-West"
+
+    def unit_root_test(self) -> str:
+        """The augmented Dickey-Fuller test that cannot rule out a unit root, with its p-value, in words."""
+        c = self.checks
+        if c["adf_p"] is not None and c["adf_p"] > self.alpha:
+            return f"the augmented Dickey-Fuller test with a constant cannot rule out a unit root ({fmt_p(c['adf_p'])})"
+        return (f"the augmented Dickey-Fuller test with a constant and a trend cannot rule out a unit root "
+                f"({fmt_p(c['adf_trend_p'])})")
 
     def verdict(self) -> dict:
         """The report's ``verdict`` object."""
@@ -169,17 +187,18 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
     lay = ev.layout
     alpha = 1.0 - analysis.spec.confidence
     level_a, level_v = WEIGHT_AUTOCORRELATION * alpha, WEIGHT_VOLATILITY * alpha
-    t_star = raw_threshold(ev.simulated_n, lay, level_a)
+    thresholds = {n: raw_threshold(n, lay, level_a) for n in np.unique(ev.simulated_n).tolist()}
     against_a = ev.p_autocorrelation < level_a
     against_v = ev.p_volatility < level_v
     order = _rejects(analysis, "runs", alpha) | _rejects(analysis, "turning_points", alpha)
     uneven = _rejects(analysis, "cumulative_periodogram", alpha)
-    r = analysis.acf
+    r = ev.r  # the autocorrelations the evidence rests on (observed values only when some were filled)
     # Without a portmanteau lag that has degrees of freedom left after model_df, only a rejection is read.
     judged = lay.max_lag - analysis.spec.model_df > 0
     out = []
     for i in range(r.shape[0]):
         z, zr, comps = ev.z[i], ev.z_rank[i], ev.components[i]
+        t_star = thresholds[int(ev.simulated_n[i])]
         evidence = []
         for j, name in enumerate(COMPONENTS):
             if comps[j] >= 1.0 and name in ("ljung_box_long", "seasonal_spike"):
@@ -187,26 +206,37 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
             evidence.append({"source": name, "lag": _COMPONENT_LAG[name](lay, zr if name.startswith("rank") else z),
                              "p_value": float(comps[j]), "threshold": t_star,
                              "against_white_noise": bool(comps[j] <= t_star and against_a[i])})
-        k = int(np.argmax(np.abs(z))) + 1
+        k = _strongest_lag(lay, z, zr, comps)
         structure: list[str] = []
         r1 = float(r[i, 0])
         if against_a[i]:
             structure = _mechanisms(i, z, zr, comps, t_star, r1, lay, periods[i], mech, alpha)
             structure += [kind for kind, hit in (("non_random_order", order[i]), ("uneven_spectrum", uneven[i])) if hit]
-            if "seasonal" in structure and structure[0] == "seasonal":
-                k = _COMPONENT_LAG["seasonal_spike"](lay, z)
         elif against_v[i]:
             structure = ["volatility_clustering"]
         d = Decision(
             n=ns[i], alpha=alpha, white_noise=False if against_a[i] else (True if judged else None), p_value=float(ev.p_autocorrelation[i]),
             threshold=level_a, volatility_p=float(ev.p_volatility[i]), volatility_threshold=level_v,
-            tail_p_value=float(ev.p_spikes[i]), structure=structure, evidence=evidence, strongest_lag=k,
+            tail_p_value=float(ev.p_tail[i]), structure=structure, evidence=evidence, strongest_lag=k,
             strongest_r=float(r[i, k - 1]), r1=r1, period=periods[i], max_lag=lay.max_lag, outliers=mech.outliers[i],
-            outlier_z=mech.outlier_z[i], filled=filled[i],
+            outlier_z=mech.outlier_z[i], filled=filled[i], tied_share=float(ev.tied_share[i]),
             checks={"adf_p": _num(mech.adf_p[i]), "adf_trend_p": _num(mech.adf_trend_p[i]),
                     "slope_t": _num(mech.slope_t[i]), "residual_r1": _num(mech.resid_r1[i])})
         out.append(d)
     return out
+
+
+def _strongest_lag(lay, z: np.ndarray, zr: np.ndarray, comps: np.ndarray) -> int:
+    """The lag the strongest evidence points to: that of the component with the smallest p-value (the rank
+    autocorrelations' own lag when a rank component wins; the largest robust spike for the sums)."""
+    name = COMPONENTS[int(np.argmin(comps))]
+    if name == "seasonal_spike":
+        return _COMPONENT_LAG[name](lay, z)
+    if name.startswith("rank"):
+        return int(np.argmax(np.abs(zr[:lay.short]))) + 1
+    if name == "ljung_box_long":
+        return int(np.argmax(np.abs(z))) + 1
+    return int(np.argmax(np.abs(z[:lay.short]))) + 1
 
 
 def _num(v: float) -> float | None:
@@ -222,9 +252,10 @@ def _mechanisms(i, z, zr, comps, t_star, r1, lay, period, mech: Mechanism, alpha
     if r1 <= OVER_DIFFERENCED_R1:
         kinds.append("over_differenced")
     elif r1 >= PERSISTENT_R1 and np.isfinite(adf_trend_p):
-        stationary_around_line = (mech.resid_r1[i] <= TREND_RESIDUAL_R1
+        resid_r1 = mech.resid_r1[i]
+        stationary_around_line = (not np.isfinite(resid_r1) or resid_r1 <= TREND_RESIDUAL_R1  # an exact line: nothing left
                                   or (adf_trend_p <= alpha and mech.kpss_trend_p[i] > alpha))
-        if abs(slope_t) >= TREND_T and stationary_around_line:
+        if not abs(slope_t) < TREND_T and stationary_around_line:
             kinds.append("trend")
         elif mech.slow[i] and not (adf_p <= alpha and adf_trend_p <= alpha):
             kinds.append("unit_root")

@@ -25,7 +25,7 @@ def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | N
              "simultaneous": " simultaneous"}[band["kind"]]
     conf = pct(report["confidence"])
     line = (f"{ex['count']} of {K} autocorrelations (lags 1 to {K}) fall outside the {conf}{label} band{width}"
-            + (f" (lags {lag_list(report['acf']['outside'])})" if ex["count"] else "")
+            + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(report['acf']['outside'])})" if ex["count"] else "")
             + f"; about {fmt(ex['expected'], 2)} would be expected by chance if the series were white noise")
     if ex["count"]:
         line += f", and {ex['count']} or more happen by chance with probability {fmt(ex['chance_probability'], 2)}."
@@ -34,7 +34,9 @@ def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | N
     out.append(line)
     if ex["far"]:
         out.append(f"Far outside the band (beyond 3 standard errors): lag{'s' if len(ex['far']) > 1 else ''} "
-                   f"{lag_list(ex['far'])}; chance alone rarely produces such spikes.")
+                   f"{lag_list(ex['far'])}"
+                   + ("; chance alone rarely produces such spikes." if report["verdict"]["white_noise"] is not True else
+                      "; the verdict, which allows for changing variance and extreme values, does not count them."))
     if ex["marginal"]:
         out.append(f"Just outside the band: lag{'s' if len(ex['marginal']) > 1 else ''} {lag_list(ex['marginal'])}; "
                    "single marginal spikes like these are often chance.")
@@ -78,12 +80,11 @@ def _mechanism_sentences(report: dict, d: Decision, alpha: float) -> list[str]:
                    f"ones by more than 3 standard errors: {plural(len(d.outliers), 'extreme value')} "
                    f"{'changes' if len(d.outliers) == 1 else 'change'} the reading.")
     if "trend" in d.structure:
-        out.append(f"The slope of a straight line through the values is clear (t = {fmt(c['slope_t'], 2)}, Newey-West) "
+        out.append(f"The slope of a straight line through the values is clear ({d.slope_text()}) "
                    f"and what is left around it is stationary ({d.around_line()}): a steady trend, not a level that "
                    "wanders.")
     elif "unit_root" in d.structure:
-        out.append(f"The autocorrelation decays slowly and the augmented Dickey-Fuller test cannot rule out a unit "
-                   f"root ({fmt_p(c['adf_p'])}): the level of the series wanders.")
+        out.append(f"The autocorrelation decays slowly and {d.unit_root_test()}: the level of the series wanders.")
     elif c.get("adf_p") is not None and c["adf_p"] <= alpha and d.r1 >= 0.5:
         out.append(f"The autocorrelation is persistent, but the augmented Dickey-Fuller test rejects a unit root "
                    f"({fmt_p(c['adf_p'])}): strong but stationary persistence.")
@@ -106,8 +107,8 @@ def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dic
                f"lag{'s' if len(rejecting) > 1 else ''} {and_(rejecting)}" if rejecting
                else f"none rejects white noise at the {fmt(alpha * 100, 2)}% level")
     if rejecting and report["verdict"]["white_noise"]:
-        verdict += (", but once the number of lags and checks is allowed for this is within what chance gives, "
-                    "and the verdict does not count it")
+        verdict += (", but the verdict, which allows for the number of lags and checks and for changing variance and "
+                    "extreme values, does not count it")
     out.append(f"The Ljung-Box test of the autocorrelations taken together{mc}: {'; '.join(parts)}; {verdict}.")
     return out
 

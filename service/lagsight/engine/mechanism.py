@@ -23,6 +23,8 @@ from lagsight.engine.evidence import outlier_flags
 
 #: Below this length the regressions have too few degrees of freedom to be read.
 MIN_N = 16
+#: More far values than this share of a row are its distribution's tails, not isolated outliers.
+MAX_OUTLIER_SHARE = 0.02
 
 
 @dataclass
@@ -65,15 +67,21 @@ def check(x: np.ndarray, r: np.ndarray, persistence_rows: np.ndarray, outlier_ro
         slow[persistence_rows] = stationarity.decays_slowly(r[persistence_rows])
     if n >= 8 and outlier_rows.size:
         level = outlier_flags(x[outlier_rows])
-        hit = np.flatnonzero(level.mask.any(axis=1))  # rows with a far value: few, so the steps are checked there only
+        # Rows with a far value, but not so many that they are the distribution's tails rather than outliers.
+        far = level.mask.sum(axis=1)
+        hit = np.flatnonzero((far > 0) & (far <= max(1, int(MAX_OUTLIER_SHARE * n))))
         if hit.size:
             rows = x[outlier_rows[hit]]
-            step = outlier_flags(np.diff(rows, axis=1)).mask
-            # An isolated value is far from the median and makes a far step into it or out of it.
-            near_step = np.zeros(rows.shape, dtype=bool)
-            near_step[:, 1:] |= step
-            near_step[:, :-1] |= step
-            isolated = level.mask[hit] & near_step
+            steps = np.diff(rows, axis=1)
+            big = outlier_flags(steps).mask
+            # An isolated value jumps away and back: a far step into it and a far step out of it, of opposite
+            # signs (a level shift makes one far step, growth makes many of one sign). At either end of the
+            # series only one step exists, and it must be far.
+            both = np.zeros(rows.shape, dtype=bool)
+            both[:, 1:-1] = big[:, :-1] & big[:, 1:] & (np.sign(steps[:, :-1]) == -np.sign(steps[:, 1:]))
+            both[:, 0] = big[:, 0]
+            both[:, -1] = big[:, -1]
+            isolated = level.mask[hit] & both
             for i, row in enumerate(outlier_rows[hit].tolist()):
                 where = np.flatnonzero(isolated[i])
                 outliers[row] = where.tolist()

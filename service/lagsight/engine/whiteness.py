@@ -19,12 +19,15 @@ The components are
 - the sum at h and the largest spike over 1..h of the autocorrelations of the ranks (rank autocorrelation: a
   single outlier can hide or fake a correlation, it cannot move ranks much).
 
-The smallest component p-value is referred to its own null distribution: REPLICATES i.i.d. normal series of the
-same length (up to a capped length, see :func:`simulated_length`), seeded, with the classical statistics
+The smallest component p-value is referred to its own null distribution: REPLICATES i.i.d. normal series of
+about the same length (see below), seeded, with the classical statistics
 (tau = 1). That is the min-p adjustment of Westfall and Young (1993): it accounts for the strong correlation among
 the components (no Bonferroni waste) and for the small-sample bias of the chi-square and normal approximations
-(the Ljung-Box test at lag K is liberal at n = 20-40). Beyond the table's resolution the adjusted p-value is the
-Bonferroni bound, which is always valid.
+(the Ljung-Box test at lag K is liberal at n = 20-40). The adjusted p-value is the exact Monte Carlo one,
+(draws at or below + 1) / (draws + 1), so it is never below the table's resolution 1 / (draws + 1).
+Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (a shorter length is
+the more liberal one, so this errs on the safe side); long lengths get fewer draws (at most MAX_SIMULATED
+values per table). A table is built once per process for each (length, layout) and kept.
 
 Volatility channel
 ------------------
@@ -53,12 +56,14 @@ from functools import lru_cache
 import numpy as np
 from scipy.special import chdtrc, ndtr
 
-from lagsight.engine.autocorrelation import autocovariance
+from lagsight.engine.autocorrelation import autocovariance, center
 from lagsight.engine.masked import center_observed, pair_counts
 
 #: Simulated series behind each null table, and the table's seed (fixed: the verdict is reproducible).
 REPLICATES = 4000
 NULL_SEED = 20_261_205
+#: Values simulated for one null table at most (long lengths get fewer draws).
+MAX_SIMULATED = 4_000_000
 #: Lengths up to this are simulated exactly; longer ones at a grid length at most their own (conservative:
 #: the approximations are more liberal at shorter lengths), at least 4 K.
 EXACT_MAX_N = 50
@@ -88,12 +93,14 @@ class Evidence:
 
     z: np.ndarray  # (m, K) robust standardised autocorrelations
     z_rank: np.ndarray  # (m, K) standardised rank autocorrelations
+    r: np.ndarray  # (m, K) the autocorrelations the evidence rests on (observed values only, with a mask)
     components: np.ndarray  # (m, 6) component p-values (1.0 where absent), in COMPONENTS order
     p_autocorrelation: np.ndarray  # (m,) min-p adjusted
     p_volatility: np.ndarray  # (m,) simulated-null p-value of the volatility channel
-    p_spikes: np.ndarray  # (m,) Bonferroni over the spike components: a far tail that holds (for batches)
+    p_tail: np.ndarray  # (m,) p_autocorrelation, with a far tail that holds beyond the table (for batches)
     layout: Layout
-    simulated_n: int
+    simulated_n: np.ndarray  # (m,) the length each row's null was simulated at
+    tied_share: np.ndarray  # (m,) share of the observed values equal to the most common one
 
 
 def simulated_length(n: int, max_lag: int) -> int:
@@ -111,23 +118,32 @@ def sidak(z: np.ndarray, count: int) -> np.ndarray:
         return np.where(tail >= 1.0, 1.0, -np.expm1(count * np.log1p(-tail)))
 
 
-def _ranks(x: np.ndarray, mask: np.ndarray | None) -> np.ndarray:
-    """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank."""
+def _ranks(x: np.ndarray, mask: np.ndarray | None, largest_tie: list | None = None) -> np.ndarray:
+    """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank.
+
+    ``largest_tie``, when given, receives per row the size of the largest group of equal observed values.
+    """
     filled = x if mask is None else np.where(mask, x, np.inf)
     m, n = x.shape
     order = np.argsort(filled, axis=1)
     sorted_x = np.take_along_axis(filled, order, axis=1)
     tied = sorted_x[:, 1:] == sorted_x[:, :-1]
     positions = np.broadcast_to(np.arange(1, n + 1, dtype=np.float64), x.shape)
+    if mask is not None:
+        tied = tied & np.isfinite(sorted_x[:, 1:])  # missing entries (ranked last as +inf) are no tie
     if not tied.any():  # the common case: the rank is the position in the sorted row
         out = np.empty((m, n))
         np.put_along_axis(out, order, positions, axis=1)
+        if largest_tie is not None:
+            largest_tie.append(np.ones(m, dtype=np.int64))
         return out
     new = np.ones((m, n), dtype=bool)
     new[:, 1:] = ~tied
     flat = np.cumsum(new, axis=1) - 1 + np.arange(m)[:, None] * n  # tie-group id, unique across rows
     total = np.bincount(flat.ravel(), weights=positions.ravel(), minlength=m * n)
     count = np.bincount(flat.ravel(), minlength=m * n)
+    if largest_tie is not None:
+        largest_tie.append(count.reshape(m, n).max(axis=1))
     mean_rank = (total / np.maximum(count, 1))[flat]
     out = np.empty((m, n))
     np.put_along_axis(out, order, mean_rank, axis=1)
@@ -145,8 +161,7 @@ def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, rob
     m, n = x.shape
     k = np.arange(1, max_lag + 1)
     if mask is None:
-        d = x - x.mean(axis=1, keepdims=True)
-        d -= d.mean(axis=1, keepdims=True)
+        d = center(x)  # rescaled by a power of two: no overflow near the largest floats, ratios unchanged
         c = autocovariance(d, max_lag)
         r = c[:, 1:] / c[:, :1]
         v = (n - k) / (n * (n + 2.0))
@@ -208,63 +223,95 @@ def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: i
 
 def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int) -> np.ndarray:
     """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers)."""
-    if mask is None:
-        centre = x.mean(axis=1, keepdims=True)
-    else:
-        centre = np.where(mask, x, 0.0).sum(axis=1, keepdims=True) / np.maximum(mask.sum(axis=1, keepdims=True), 1)
-    a = _ranks(np.abs(x - centre), mask)
+    d = center(x) if mask is None else center_observed(x, mask)  # scaled by a power of two: ranks unchanged
+    a = _ranks(np.abs(d), mask)
     z, _ = _standardised(a, mask, h, robust=False)
     return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
+
+
+def replicates(n: int) -> int:
+    """Null draws for length n: REPLICATES, fewer for long simulated lengths (at most MAX_SIMULATED values, at
+    least 999 draws), so that one table costs at most a second or two."""
+    return int(min(REPLICATES, max(999, MAX_SIMULATED // n)))
+
+
+def table_cost(n_obs: int, layout: Layout) -> int:
+    """Values simulated to build the null table a series of n_obs observed values needs, 0 when this process has
+    it already: a request's cost estimate counts them."""
+    n = min(n_obs, max(simulated_length(n_obs, layout.max_lag), layout.max_lag + 1))
+    return 0 if (n, layout) in _BUILT else replicates(n) * n
+
+
+#: The (length, layout) keys whose table this process has built.
+_BUILT: set = set()
 
 
 @lru_cache(maxsize=256)
 def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
     """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n."""
     rng = np.random.default_rng([NULL_SEED, n, layout.max_lag, layout.short, *layout.seasonal])
-    rows = max(1, min(REPLICATES, _CHUNK_VALUES // n))
+    draws = replicates(n)
+    rows = max(1, min(draws, _CHUNK_VALUES // n))
     minp, vol = [], []
-    for start in range(0, REPLICATES, rows):
-        x = rng.standard_normal((min(rows, REPLICATES - start), n))
+    for start in range(0, draws, rows):
+        x = rng.standard_normal((min(rows, draws - start), n))
         z, _ = _standardised(x, None, layout.max_lag, robust=False)
         zr, _ = _standardised(_ranks(x, None), None, layout.short, robust=False)
         minp.append(_components(z, zr, layout, 0).min(axis=1))
         vol.append(_volatility(x, None, layout.short))
+    _BUILT.add((n, layout))
     return np.sort(np.concatenate(minp)), np.sort(np.concatenate(vol))
 
 
 def raw_threshold(n: int, layout: Layout, level: float) -> float:
     """The smallest component p-value at which the adjusted p-value falls below ``level`` (the level's quantile of
-    the simulated null): each evidence entry can be compared with it."""
+    the simulated null), so that each evidence entry can be compared with it. Where the table cannot resolve the
+    level (a level below 1 / (draws + 1)), the Bonferroni threshold level / components."""
     table = null_table(n, layout)[0]
     i = int(np.floor(level * (table.size + 1.0))) - 1
-    return float(table[i]) if i >= 0 else 0.0
+    return float(table[i]) if i >= 0 else level / component_count(layout)
 
 
-def _refer(p: np.ndarray, table: np.ndarray, bound: np.ndarray) -> np.ndarray:
-    """Share of null draws at or below p (with the +1 of an exact Monte Carlo p-value); the Bonferroni bound
-    where p lies below every draw, since the table cannot resolve that tail."""
-    count = np.searchsorted(table, p, side="right")
-    simulated = (count + 1.0) / (table.size + 1.0)
-    return np.where(count == 0, np.minimum(bound, simulated), simulated)
+def component_count(layout: Layout) -> int:
+    return 5 + bool(layout.seasonal) + (layout.max_lag != layout.short)
+
+
+def _refer(p: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """The exact Monte Carlo p-value (count of null draws at or below p, plus one, over draws plus one): never
+    below 1 / (draws + 1), the resolution of the table."""
+    return (np.searchsorted(table, p, side="right") + 1.0) / (table.size + 1.0)
 
 
 def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | None = None) -> Evidence:
-    """The channels' evidence for every row of x (rows of equal length; NaN only where mask is False)."""
+    """The channels' evidence for every row of x (rows of equal length; NaN only where mask is False).
+
+    Each row's null is simulated at the length of its own observed values (:func:`simulated_length`), so a
+    row's evidence does not depend on the other rows of its block.
+    """
     x = np.atleast_2d(np.asarray(x, dtype=np.float64))
     m, n = x.shape
     if mask is not None and mask.all():
         mask = None
-    z, _ = _standardised(x, mask, layout.max_lag, robust=True)
-    zr, _ = _standardised(_ranks(x, mask), mask, layout.max_lag, robust=False)
+    z, r = _standardised(x, mask, layout.max_lag, robust=True)
+    largest_tie: list = []
+    zr, _ = _standardised(_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False)
     comps = _components(z, zr, layout, model_df)
-    count = 5 + bool(layout.seasonal) + (layout.max_lag != layout.short)
-    n_obs = n if mask is None else int(mask.sum(axis=1).min())
-    n_sim = min(n, max(simulated_length(n_obs, layout.max_lag), layout.max_lag + 1))
-    minp_table, vol_table = null_table(n_sim, layout)
+    n_obs = np.full(m, n) if mask is None else mask.sum(axis=1)
+    n_sim = np.array([min(n, max(simulated_length(int(k), layout.max_lag), layout.max_lag + 1)) for k in n_obs])
     smallest = comps.min(axis=1)
-    p_auto = _refer(smallest, minp_table, np.minimum(1.0, count * smallest))
     p_vol_raw = _volatility(x, mask, layout.short)
-    p_vol = _refer(p_vol_raw, vol_table, p_vol_raw)
-    spikes = comps[:, [3, 4, 6]] if layout.seasonal else comps[:, [3, 6]]
-    p_spikes = np.minimum(1.0, spikes.shape[1] * spikes.min(axis=1))
-    return Evidence(z, zr, comps, p_auto, p_vol, p_spikes, layout, n_sim)
+    p_auto = np.empty(m)
+    p_vol = np.empty(m)
+    for length in np.unique(n_sim).tolist():
+        rows = n_sim == length
+        minp_table, vol_table = null_table(int(length), layout)
+        p_auto[rows] = _refer(smallest[rows], minp_table)
+        p_vol[rows] = _refer(p_vol_raw[rows], vol_table)
+    # For a batch's false-discovery adjustment the p-value must hold far into its tail, beyond the table's
+    # resolution: there the normal tails of the largest robust spike over every lag and of the rank spike
+    # (Sidak, then Bonferroni over the two) are used; the chi-square tails of the sums are too light there.
+    resolution = 1.0 / (REPLICATES + 1.0)
+    spikes = np.minimum(1.0, 2.0 * np.minimum(sidak(np.abs(z).max(axis=1), layout.max_lag), comps[:, 6]))
+    p_tail = np.where(p_auto > 2.0 * resolution, p_auto, np.minimum(p_auto, spikes))
+    tied_share = largest_tie[0] / np.maximum(n_obs, 1)
+    return Evidence(z, zr, np.nan_to_num(r), comps, p_auto, p_vol, p_tail, layout, n_sim, tied_share)

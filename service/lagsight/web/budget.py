@@ -46,7 +46,7 @@ from dataclasses import dataclass, field
 
 from flask import current_app, g
 
-from lagsight.engine import stl
+from lagsight.engine import stl, whiteness
 from lagsight.pipeline import Plan, blocks
 from lagsight.problems import FieldError, Problem
 from lagsight.web import metrics
@@ -72,6 +72,7 @@ STL_POINT = 2e-4  # ... per point
 STL_POINT_W = 6.5e-7  # ... per point and trend window
 MC_VALUE = 8.5e-5  # a simulated value (replicates x points)
 MC_LAG = 1.2e-4  # a replicate, per lag
+NULL_VALUE = 3.5e-4  # a value simulated for the verdict's null table (4,000 x 400 values measured at about 0.56 s)
 BOX_COX = 0.45  # estimating one series' Box-Cox lambda
 BOX_COX_POINT = 2e-5  # ... per point
 
@@ -114,6 +115,7 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
     """Add the work of analysing ``prepared`` ((series, plan) pairs) and answering with ``detail``."""
     full = detail == "full"
     decomposed: set[tuple[int, int]] = set()
+    verdict_nulls: set = set()
     for plan, members in blocks(prepared):
         rows, lags, n = len(members), plan.spec.max_lag, max(plan.n, plan.length)
         estimate.add("engine passes", PASS)
@@ -129,6 +131,13 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
                 STL_SERIES_W2 * w2 + (STL_POINT + STL_POINT_W * trend) * plan.n))
         if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
             estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
+        layout = whiteness.Layout(lags, plan.spec.short_lag, plan.spec.seasonal_lags)
+        key = (plan.n, layout)
+        if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
+            verdict_nulls.add(key)
+            values = whiteness.table_cost(plan.n, layout)
+            if values:
+                estimate.add("verdict null tables", NULL_VALUE * values)
     if decomposed:
         periods = sorted({p for _, p in decomposed})
         shown = ", ".join(f"{p:,}" for p in periods[:3]) + (" ..." if len(periods) > 3 else "")
