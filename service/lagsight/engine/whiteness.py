@@ -63,7 +63,7 @@ from lagsight.engine.masked import center_observed, pair_counts
 REPLICATES = 4000
 NULL_SEED = 20_261_205
 #: Values simulated for one null table at most (long lengths get fewer draws).
-MAX_SIMULATED = 4_000_000
+MAX_SIMULATED = 2_000_000
 #: Lengths up to this are simulated exactly; longer ones at a grid length at most their own (conservative:
 #: the approximations are more liberal at shorter lengths), at least 4 K.
 EXACT_MAX_N = 50
@@ -104,11 +104,28 @@ class Evidence:
 
 
 def simulated_length(n: int, max_lag: int) -> int:
-    """The length the null is simulated at: n up to EXACT_MAX_N, else a grid length <= n and >= 4 K (or n)."""
+    """The length the null is simulated at.
+
+    n itself up to EXACT_MAX_N; beyond, the largest grid length (50, 60, 70, 85, 100, 120, 150, 200, 250, 300,
+    400, then steps of a quarter) that is at most n and at most max(400, 4 K), and above K. A shorter length's
+    null is the more liberal one, so the verdict errs on the safe side; the grid keeps the number of tables
+    small when a batch has many lengths.
+    """
     if n <= EXACT_MAX_N:
         return n
-    grid = max(g for g in _GRID if g <= n)
-    return min(n, max(grid, 4 * max_lag))
+    ceiling = min(n, max(400, 4 * max_lag))
+    fitting = [g for g in _grid_upto(ceiling) if g > max_lag]
+    return fitting[-1] if fitting else min(n, max_lag + 1)
+
+
+def _grid_upto(limit: int) -> list[int]:
+    out = [g for g in _GRID if g <= limit]
+    g = _GRID[-1]
+    while True:
+        g = int(g * 1.25)
+        if g > limit:
+            return out
+        out.append(g)
 
 
 def sidak(z: np.ndarray, count: int) -> np.ndarray:
@@ -238,7 +255,7 @@ def replicates(n: int) -> int:
 def table_cost(n_obs: int, layout: Layout) -> int:
     """Values simulated to build the null table a series of n_obs observed values needs, 0 when this process has
     it already: a request's cost estimate counts them."""
-    n = min(n_obs, max(simulated_length(n_obs, layout.max_lag), layout.max_lag + 1))
+    n = simulated_length(n_obs, layout.max_lag)
     return 0 if (n, layout) in _BUILT else replicates(n) * n
 
 
@@ -297,7 +314,7 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     zr, _ = _standardised(_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False)
     comps = _components(z, zr, layout, model_df)
     n_obs = np.full(m, n) if mask is None else mask.sum(axis=1)
-    n_sim = np.array([min(n, max(simulated_length(int(k), layout.max_lag), layout.max_lag + 1)) for k in n_obs])
+    n_sim = np.array([simulated_length(int(k), layout.max_lag) for k in n_obs])
     smallest = comps.min(axis=1)
     p_vol_raw = _volatility(x, mask, layout.short)
     p_auto = np.empty(m)

@@ -85,6 +85,7 @@ _ADVICE = {
     "lags": "ask for a lower max_lag",
     "Monte Carlo p-values": "use fewer replicates, fewer distinct series lengths, or asymptotic p-values",
     "Box-Cox estimates": "send a Box-Cox lambda instead of \"estimate\", or split the batch",
+    "verdict null tables": "send fewer distinct max_lag values and periods (or a lower max_lag), or split the batch",
 }
 
 
@@ -132,11 +133,13 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
         if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
             estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
         layout = whiteness.Layout(lags, plan.spec.short_lag, plan.spec.seasonal_lags)
-        key = (plan.n, layout)
+        key = (whiteness.simulated_length(plan.n, lags), layout)
         if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
             verdict_nulls.add(key)
             values = whiteness.table_cost(plan.n, layout)
-            if values:
+            # The first table a request needs is warm-up work (at most whiteness.MAX_SIMULATED values, under a
+            # second); every further one that is not built yet counts.
+            if values and len(verdict_nulls) > 1:
                 estimate.add("verdict null tables", NULL_VALUE * values)
     if decomposed:
         periods = sorted({p for _, p in decomposed})
