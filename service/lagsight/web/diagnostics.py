@@ -12,7 +12,7 @@ from marshmallow import Schema, ValidationError
 from werkzeug.datastructures import ImmutableMultiDict
 
 from lagsight import options
-from lagsight.inputs import csv_input
+from lagsight.inputs import csv_input, numbers
 from lagsight.inputs.schema import (
     DIRECT_CHECKS,
     DIRECT_FIELDS,
@@ -70,10 +70,13 @@ def _from_query(args) -> dict:
 
 
 def _number(text: str):
+    """An item of ``values=`` read by the one rule for numbers as text (inputs/numbers.py), with a decimal point:
+    commas separate the items. Text that is not a number is left for the schema to point at."""
     try:
-        return float(text)
+        number = numbers.read(text, ".")
     except ValueError:
-        return text  # the schema points at it
+        return text
+    return text if number is None else number
 
 
 def _with_lines(problem: Problem, raw: dict) -> Problem:

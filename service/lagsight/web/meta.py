@@ -13,6 +13,7 @@ from lagsight.engine import stl, whiteness
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
 from lagsight.inputs.csv_input import __doc__ as csv_doc
+from lagsight.inputs.numbers import __doc__ as numbers_doc
 from lagsight.inputs.schema import BATCH_OVERRIDES
 from lagsight.inputs.timestamps import __doc__ as timestamps_doc
 from lagsight.inputs.transforms import __doc__ as transforms_doc
@@ -97,6 +98,7 @@ def methods():
         "data_in": {
             "media_types": ["application/json", "text/csv"],
             "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),
+            "numbers_as_text": _prose(numbers_doc.split("The rule\n--------")[1]),
             "query_parameters": {"output": list(query.OUTPUT_PARAMS), "csv": list(query.CSV_PARAMS),
                                  "analysis": list(query.ANALYSIS_PARAMS), "transform": list(query.TRANSFORM_PARAMS)},
         },
