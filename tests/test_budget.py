@@ -71,7 +71,8 @@ def test_many_lengths_with_a_long_period_are_refused_before_any_analysis(log_lin
     assert "over this deployment's budget of 20,000 (LAGSIGHT_MAX_COST" in problem["detail"]
     cost = int(re.search(r"would cost about ([\d,]+) units", problem["detail"]).group(1).replace(",", ""))
     assert cost > 20_000
-    assert "seasonal decompositions" in problem["detail"] and "150 distinct series length(s)" in problem["detail"]
+    assert "seasonal decompositions" in problem["detail"]
+    assert "150 distinct pairs of series length and period" in problem["detail"]
     assert "fewer distinct series lengths" in problem["detail"]  # what to change
     assert [e["pointer"] for e in problem["errors"]] == ["/series"]
     assert _counter(client, "lagsight_series_analysed_total") == before  # nothing analysed

@@ -106,7 +106,8 @@ def export(values, delimiter: str, decimal: str, group: str, quote: bool) -> str
     days = np.datetime64("2025-03-03") + np.arange(len(values))
     cells = [_written(v, decimal, group) for v in values]
     cells = [f'"{c}"' if quote else c for c in cells]
-    return "\r\n".join([delimiter.join(["day", "litres"])] + [f"{d}{delimiter}{c}" for d, c in zip(days, cells)]) + "\r\n"
+    lines = [delimiter.join(["day", "litres"])] + [f"{d}{delimiter}{c}" for d, c in zip(days, cells)]
+    return "\r\n".join(lines) + "\r\n"
 
 
 @pytest.mark.parametrize("name,delimiter,decimal,group,quote", LOCALES, ids=[loc[0] for loc in LOCALES])

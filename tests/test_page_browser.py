@@ -232,8 +232,8 @@ def test_a_decimal_comma_paste_in_the_default_mode_asks_instead_of_doubling_the_
     assert page.locator("#reading-options button").first.inner_text().startswith("56 values: ")
     page.locator("#reading-options button", has_text="(decimal comma)").click()
     assert page.is_hidden("#reading-choice")
-    assert page.inner_text("#values-count").startswith("56 values, read with decimal comma: " + _js(float(written[0]
-                                                                                                        .replace(",", "."))))
+    first = _js(float(written[0].replace(",", ".")))
+    assert page.inner_text("#values-count").startswith(f"56 values, read with decimal comma: {first}, ")
     page.click("#submit")
     page.wait_for_selector("#result:not([hidden])")
     assert "n = 56" in page.inner_text("#facts") and len(sent) == 1

@@ -34,7 +34,7 @@ import numpy as np
 
 from lagsight import options
 from lagsight.inputs import numbers
-from lagsight.problems import FieldError, Problem
+from lagsight.problems import FieldError, Problem, counted, did_you_mean
 
 _ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}")
 _MAX_LISTED = 10
@@ -71,7 +71,7 @@ def _named_choice(args: Mapping[str, str], name: str, table: dict, what: str, al
     chosen = table.get(given.lower(), given)
     if chosen not in table.values():
         raise Problem("invalid-content", f"Unknown {what}.", [FieldError(
-            f"/{name}", f"Must be {allowed}, got {given!r}.")])
+            f"/{name}", f"Must be {allowed}, got {given!r}.{did_you_mean(given, table)}")])
     return chosen
 
 
@@ -129,7 +129,8 @@ def _pick(spec: str | None, header: list[str] | None, width: int, param: str) ->
         return int(spec)
     listing = ", ".join(repr(h) for h in header) if header is not None else f"indexes 0 to {width - 1}"
     raise Problem("invalid-content", f"No column {spec!r} in the file.", [FieldError(
-        f"/{param}", f"No column {spec!r}: the file has {width} column(s) ({listing}); give a name or a 0-based index.")])
+        f"/{param}", f"No column {spec!r}: the file has {counted(width, 'column', 'columns')} ({listing}); give a "
+                     f"name or a 0-based index.{did_you_mean(spec, header or ())}")])
 
 
 def _flag(args: Mapping[str, str], name: str) -> bool | None:
@@ -138,7 +139,8 @@ def _flag(args: Mapping[str, str], name: str) -> bool | None:
         return None
     if raw.lower() in ("true", "false"):
         return raw.lower() == "true"
-    raise Problem("invalid-content", f"Invalid {name}.", [FieldError(f"/{name}", "Must be true, false or auto.")])
+    raise Problem("invalid-content", f"Invalid {name}.", [FieldError(
+        f"/{name}", f"Must be true, false or auto, got {raw!r}.{did_you_mean(raw, ('true', 'false', 'auto'))}")])
 
 
 def read_series(body: bytes, args: Mapping[str, str]) -> dict:
@@ -167,9 +169,10 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
     if vcol is None:
         others = [i for i in range(width) if i != tcol]
         if len(others) != 1:
-            names = ", ".join(repr(h) for h in header) if header is not None else f"{width} columns"
+            names = ", ".join(repr(h) for h in header) if header is not None else counted(width, "column", "columns")
             raise Problem("invalid-content", "Choose the value column.", [FieldError(
-                "/column", f"The file has {width} columns ({names}); choose the value column with column=<name or "
+                "/column", f"The file has {counted(width, 'column', 'columns')} ({names}); choose the value column "
+                           "with column=<name or "
                            "0-based index>.")])
         vcol = others[0]
     if vcol == tcol:
@@ -182,7 +185,7 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
     short = np.flatnonzero(sizes < need)
     if short.size:
         i = int(short[0])
-        raise _malformed(f"the row has {int(sizes[i])} field(s) but column {need} is needed"
+        raise _malformed(f"the row has {counted(int(sizes[i]), 'field', 'fields')} but column {need} is needed"
                          + (f" (the header has {width})" if header is not None else "")
                          + f"; is the delimiter {delimiter!r} right?", lines[i])
     if header is not None:
@@ -219,8 +222,9 @@ def _numbers(cells: list[str], lines: list[int], args: Mapping[str, str], column
     if read.ambiguous is not None:
         i = read.ambiguous
         cell = cells[i].strip(numbers.SPACE)
-        detail = (f"Line {lines[i]}, column {column}: {cell[:40]!r} is {_plain(numbers.read(cell, '.'))} with a decimal "
-                  f"point and {_plain(numbers.read(cell, ','))} with a decimal comma, and every value cell reads "
+        point, comma = _plain(numbers.read(cell, ".")), _plain(numbers.read(cell, ","))
+        detail = (f"Line {lines[i]}, column {column}: {cell[:40]!r} is {point} with a decimal point and {comma} "
+                  "with a decimal comma, and every value cell reads "
                   "either way; give decimal=point or decimal=comma.")
         raise Problem("invalid-content", "The decimal mark of the value column is ambiguous; see errors.",
                       [FieldError("/decimal", detail, lines[i], column)])
@@ -235,6 +239,6 @@ def _numbers(cells: list[str], lines: list[int], args: Mapping[str, str], column
                 if numbers.reads(cell, other) else f" with a decimal {mark}" if "," in cell or "." in cell else "")
         errors.append(FieldError(f"/values/{i}", f"Line {lines[i]}, column {column}: {cell[:40]!r} is not a finite "
                                                  f"number{hint}.", lines[i], column))
-    count = ("1 cell of the value column is not a number" if read.n_bad == 1
-             else f"{read.n_bad} cells of the value column are not numbers")
-    raise Problem("invalid-content", f"{count}; see errors.", errors)
+    said = ("1 cell of the value column is not a number" if read.n_bad == 1
+            else f"{read.n_bad} cells of the value column are not numbers")
+    raise Problem("invalid-content", f"{said}; see errors.", errors)

@@ -72,7 +72,7 @@ def _check_size(body: dict, cfg) -> None:
 
 def _check_shared(shared: dict, cfg) -> None:
     if shared["max_lag"] is not None and shared["max_lag"] > cfg["MAX_LAG"]:
-        raise Problem("invalid-content", "1 field(s) are invalid; see errors.", [FieldError(
+        raise Problem("invalid-content", "1 field is invalid; see errors.", [FieldError(
             "/max_lag", f"max_lag must be at most {cfg['MAX_LAG']} (this deployment's limit), got {shared['max_lag']}.")])
 
 
@@ -99,7 +99,8 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int, axes: dict | 
         data = ITEM_LOAD.load(item)
     except ValidationError as err:
         errors = [e.under(prefix) for e in flatten_messages(err.messages)]
-        raise Problem("invalid-content", f"{len(errors)} field(s) of this series are invalid; see errors.", errors) from None
+        said = "1 field of this series is" if len(errors) == 1 else f"{len(errors)} fields of this series are"
+        raise Problem("invalid-content", f"{said} invalid; see errors.", errors) from None
     if data["id"] in seen:
         detail = f"The id {data['id']!r} is already used by /series/{seen[data['id']]}; ids must be unique."
         raise Problem("invalid-content", detail, [FieldError(prefix + "/id", detail)])

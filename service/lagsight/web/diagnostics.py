@@ -23,7 +23,7 @@ from lagsight.inputs.series import prepare
 from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
 from lagsight.pipeline import plan_for, run
-from lagsight.problems import Problem, flatten_messages
+from lagsight.problems import Problem, counted, flatten_messages
 from lagsight.web import budget, metrics, query
 from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
@@ -42,7 +42,8 @@ def load(schema: Schema | DirectLoad, body: dict) -> dict:
         return schema.load(body)
     except ValidationError as err:
         errors = flatten_messages(err.messages)
-        raise Problem("invalid-content", f"{len(errors)} field(s) are invalid; see errors.", errors) from None
+        raise Problem("invalid-content", f"{counted(len(errors), 'field is', 'fields are')} invalid; see errors.",
+                      errors) from None
 
 
 def _negotiate(requested: str | None) -> str:

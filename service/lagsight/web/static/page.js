@@ -281,7 +281,7 @@
 
     const facts = [`n = ${report.n}`, `lags 1 to ${report.max_lag}`, `band level ${report.confidence * 100}%`];
     if (report.period) facts.push(`period ${report.period}` + (report.seasonal && report.seasonal.period_source === "timestamps" ? " (from timestamps)" : ""));
-    if (report.model_df) facts.push(`${report.model_df} fitted parameters`);
+    if (report.model_df) facts.push(count(report.model_df, "fitted parameter", "fitted parameters"));
     if (report.n_missing) facts.push(`${report.n_missing} missing`);
     $("facts").textContent = facts.join(" · ");
 
@@ -348,7 +348,8 @@
     const svg = el("svg", { viewBox: `0 0 ${W} ${H}`, role: "img", "aria-labelledby": `${host.id}-t ${host.id}-d` });
     el("title", { id: `${host.id}-t` }, svg).textContent = `${label} for lags 1 to ${K}`;
     el("desc", { id: `${host.id}-d` }, svg).textContent =
-      `${nOut} of ${K} lags fall outside the shaded band` + (nOut ? `: lags ${block.outside.join(", ")}.` : ".");
+      `${nOut} of ${K} ${K === 1 ? "lag" : "lags"} ${nOut === 1 ? "falls" : "fall"} outside the shaded band` +
+      (nOut ? `: ${nOut === 1 ? "lag" : "lags"} ${block.outside.join(", ")}.` : ".");
 
     for (const y of [-ymax, -ymax / 2, 0, ymax / 2, ymax]) {
       el("line", { x1: left, x2: W - right, y1: ys(y), y2: ys(y), class: "grid" }, svg);
