@@ -18,7 +18,7 @@ import pytest
 from .live_server import gunicorn
 from .test_numbers import CASES, LOCALES, _values, export
 
-pytestmark = pytest.mark.slow
+pytestmark = [pytest.mark.slow, pytest.mark.browser]
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_payloads"
