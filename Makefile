@@ -5,25 +5,33 @@ BIN    := $(VENV)/bin
 HOST   ?= 127.0.0.1
 PORT   ?= 8000
 WORKERS ?= 2
-STAMP  := $(VENV)/.installed
+# Two installs: serving needs only the package; the suite adds the test extras (which include everything serving needs).
+SERVE_STAMP := $(VENV)/.installed-serve
+TEST_STAMP  := $(VENV)/.installed-test
 
 # Programs the tests run, as command:Debian package (browser tests, example clients).
 SYSTEM_TOOLS := chromium:chromium node:nodejs curl:curl jq:jq javac:default-jdk-headless
 
-.PHONY: serve test install lock clean bench screenshots system-tools
+.PHONY: serve test test-core install install-test lock clean bench screenshots system-tools
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 
 # Reinstall when the project's own install files change.
-$(STAMP): $(BIN)/python pyproject.toml constraints.txt
+$(SERVE_STAMP): $(BIN)/python pyproject.toml constraints.txt
+	$(BIN)/python -m pip install --quiet -c constraints.txt -e .
+	touch $(SERVE_STAMP)
+
+$(TEST_STAMP): $(BIN)/python pyproject.toml constraints.txt
 	$(BIN)/python -m pip install --quiet -c constraints.txt -e '.[test]'
-	touch $(STAMP)
+	touch $(TEST_STAMP) $(SERVE_STAMP)
 
-install: $(STAMP)
+install: $(SERVE_STAMP)
 
-serve: $(STAMP)
+install-test: $(TEST_STAMP)
+
+serve: $(SERVE_STAMP)
 	$(BIN)/lagsight serve --host $(HOST) --port $(PORT) --workers $(WORKERS)
 
 # Install the programs the tests run when one is missing (needs root and apt; once per machine).
@@ -35,21 +43,25 @@ system-tools:
 	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends $$missing; \
 	fi
 
-test: $(STAMP) system-tools
+test: $(TEST_STAMP) system-tools
 	$(BIN)/python -m pytest
 
+# The suite without the tests that need programs from apt (the browser tests and the example clients).
+test-core: $(TEST_STAMP)
+	$(BIN)/python -m pytest -m "not browser and not clients"
+
 # Refresh the page screenshots in docs/ (the browser tests write them there).
-screenshots: $(STAMP) system-tools
+screenshots: $(TEST_STAMP) system-tools
 	LAGSIGHT_SCREENSHOTS=docs $(BIN)/python -m pytest tests/test_page_browser.py -q
 
 # Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.
-bench: $(STAMP)
+bench: $(TEST_STAMP)
 	command -v wrk >/dev/null || (apt-get install -y wrk >/dev/null 2>&1 || true)
 	$(BIN)/python -m benchmarks.run
 
 # How often the verdict, named structure and advice are right, by seeded simulation (~10 minutes): writes CALIBRATION.md.
 .PHONY: calibrate
-calibrate: $(STAMP)
+calibrate: $(TEST_STAMP)
 	$(BIN)/python -m calibration.run
 
 # Refresh constraints.txt from a fresh resolution of pyproject.toml's ranges.

@@ -1,6 +1,8 @@
 """The consultation options over HTTP: bands, test selection, Monte Carlo p-values, and their limits."""
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
 
@@ -100,6 +102,34 @@ def test_monte_carlo_with_pairwise_missing_values_is_refused(client):
     values[5] = None
     r = client.post(URL, json={"values": values, "missing": "pairwise", "p_values": "monte_carlo"})
     assert r.status_code == 422 and r.get_json()["errors"][0]["pointer"] == "/p_values"
+
+
+def _strings(node, path=""):
+    if isinstance(node, dict):
+        for key, value in node.items():
+            yield from _strings(value, f"{path}/{key}")
+    elif isinstance(node, list):
+        for i, value in enumerate(node):
+            yield from _strings(value, f"{path}/{i}")
+    elif isinstance(node, str):
+        yield path, node
+
+
+#: Source markup that must not reach a reader: a role (:func:`x`), code quotes (``x``), a citation mark ([1]_),
+#: a directive (.. note::), a constant named by its place in the code (options.MIN_OBSERVED_SHARE).
+SOURCE_MARKUP = re.compile(r":[a-z]+:`|`|\[\d+\]_|^\.\. |\s\.\. [a-z]+::|\boptions\.|\(see [a-z_]+\)")
+
+
+def test_methods_text_is_plain_words(client):
+    methods = client.get("/v1/methods").get_json()
+    marked = [(path, SOURCE_MARKUP.search(text).group(0)) for path, text in _strings(methods)
+              if SOURCE_MARKUP.search(text)]
+    assert marked == []
+    assert "the short lag min(10, n // 5), or min(2 m, n // 5) with a period m, raised" in methods["portmanteau_lags"]
+    assert "at least 0.5 of the slots" in methods["timestamps"]["rules"]  # options.MIN_OBSERVED_SHARE, as its value
+    chart_data = methods["data_out"]["chart_data"]
+    assert "at most 2,000 by" in chart_data and "within 3 standard errors" in chart_data
+    assert "amplitude-modulated estimator forms" in methods["options"]["missing"]["pairwise"]
 
 
 def test_verdict_evidence_and_rule_are_in_methods(client):

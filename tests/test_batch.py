@@ -286,13 +286,47 @@ def test_ndjson_stream_carries_the_same_results_and_a_final_summary(client, smal
     assert lines[-1] == {"kind": "summary", "summary": plain["summary"]}
     results = lines[:-1]
     assert all(line["kind"] == "result" for line in results)
-    assert results[0]["index"] == 1 and "error" in results[0]  # failed validation: sent first
-    assert sorted(line["index"] for line in results) == list(range(len(series)))
+    assert [line["index"] for line in results] == list(range(len(series)))  # request order, failures included
+    assert "error" in results[1]
     by_index = {line.pop("index"): line for line in results}
     for i, expected in enumerate(plain["results"]):
         got = by_index[i]
         assert got.pop("kind") == "result"
         assert orjson.dumps(got) == orjson.dumps(expected)
+
+
+def test_ndjson_keeps_request_order_when_the_engine_finishes_blocks_in_another(app, monkeypatch, small_blocks):
+    """Series of two lengths, interleaved: the engine groups equal lengths, so its blocks come out of request
+    order; the stream still sends the lines by index, the failed ones in their place, the summary last."""
+    import lagsight.web.batch as view
+
+    real, finished = view.run_blocks, []
+
+    def recording(items, *args, **kwargs):
+        for block in real(items, *args, **kwargs):
+            finished.extend(j for j, _ in block)
+            yield block
+
+    monkeypatch.setattr(view, "run_blocks", recording)
+    series = [{"id": f"s{i}", "values": _noise(90 if i % 2 else 160, i)} for i in range(16)]
+    series[5] = {"id": "too-short", "values": [1.0, 2.0]}
+    series[12] = {"id": "flat", "values": [3.0] * 20}
+    plain = app.test_client().post(URL, json={"series": series}).get_json()
+    finished.clear()
+    r = app.test_client().post(URL, json={"series": series}, headers={"Accept": NDJSON}, buffered=False)
+    chunks = [c for c in r.response if c]
+    r.close()
+    assert finished != sorted(finished)  # the engine's order is not the request's
+    lines = [orjson.loads(line) for chunk in chunks for line in chunk.splitlines()]
+    for line in lines:
+        assert_valid(line, "BatchStreamLine")
+    assert [line["index"] for line in lines[:-1]] == list(range(16))
+    assert [line["id"] for line in lines[:-1]] == [s["id"] for s in series]
+    assert "error" in lines[5] and "error" in lines[12]
+    assert lines[-1] == {"kind": "summary", "summary": plain["summary"]}
+    for line, expected in zip(lines[:-1], plain["results"]):
+        assert {k: v for k, v in line.items() if k not in ("kind", "index")} == expected
+    assert len(chunks) >= 2  # still sent as blocks finish, not held to the end
 
 
 def test_ndjson_is_sent_block_by_block(app, small_blocks):
@@ -342,6 +376,8 @@ def test_a_failure_mid_stream_ends_with_an_error_line(app, monkeypatch, caplog, 
     lines = _lines(r)
     assert lines[-1]["kind"] == "error" and lines[-1]["error"]["status"] == 500
     assert 0 < len(lines) - 1 < 20 and "secret" not in r.get_data(as_text=True)
+    sent = [line["index"] for line in lines[:-1]]
+    assert sent == sorted(sent)
     assert any("streaming" in rec.message for rec in caplog.records)
 
 

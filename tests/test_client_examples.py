@@ -21,7 +21,7 @@ import requests
 
 from .live_server import gunicorn
 
-pytestmark = pytest.mark.slow
+pytestmark = [pytest.mark.slow, pytest.mark.clients]
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "client_examples"

@@ -16,8 +16,9 @@ import numpy as np
 import pytest
 
 from .live_server import gunicorn
+from .test_numbers import CASES, LOCALES, _values, export
 
-pytestmark = pytest.mark.slow
+pytestmark = [pytest.mark.slow, pytest.mark.browser]
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_payloads"
@@ -122,8 +123,10 @@ def test_dropped_csv_with_semicolons_and_decimal_commas_is_read_with_its_timesta
     page.wait_for_selector("#csv-columns:not([hidden])")
     assert page.input_value("#csv-value-column") == "1"  # temperatur_c, not the time or door columns
     assert page.input_value("#csv-time-column") == "0"
-    assert "decimal commas" in page.inner_text("#csv-status")
-    assert page.input_value("#values").split("\n")[0] == "-18.49"  # the first reading, "-18,49" in the file
+    assert page.inner_text("#csv-status") == "Read cold_store_hourly_temperature.csv: 169 lines, 168 values."
+    read = page.inner_text("#values-count")  # what was read, with the first reading ("-18,49" in the file)
+    assert read.startswith('168 values from "temperatur_c", timestamps from "zeitpunkt", read with decimal comma: '
+                           "-18.49, -18.4, ")
     page.click("#submit")
     page.wait_for_selector("#result:not([hidden])")
     facts = page.inner_text("#facts")
@@ -159,7 +162,8 @@ def test_decimal_commas_are_read_when_chosen_and_a_stray_point_is_named(page, li
     page.select_option("#decimal", ",")
     page.fill("#values", "; ".join(f"{v:,.2f}".replace(",", " ").replace(".", ",").replace(" ", ".")
                                    for v in values))  # 1.234,50 and -0,60 as a spreadsheet writes them
-    assert page.inner_text("#values-count") == "12 values"
+    assert page.inner_text("#values-count") == ("12 values, read with decimal comma: -0.6, 5.25, 23.2, -24.4, 20.75, "
+                                                "…, -2.5")
     page.click("#submit")
     page.wait_for_selector("#result:not([hidden])")
     shown = page.evaluate("() => [...document.querySelectorAll('#lags-table tbody tr')].map(r => r.cells[1].textContent)")
@@ -168,7 +172,124 @@ def test_decimal_commas_are_read_when_chosen_and_a_stray_point_is_named(page, li
     page.fill("#values", "1,5\n2.5\n3,25")
     page.click("#submit")
     page.locator("#problem").wait_for(state="visible")
-    assert 'Value 2 ("2.5") has a decimal point' in page.inner_text("#problem")
+    assert ('Value 2 ("2.5") is not a number; it reads as a number with a decimal point: choose "point" or "work it '
+            'out" as the decimal mark.') in page.inner_text("#problem")
+
+
+def _js(v: float) -> str:
+    """A number as JavaScript's String() writes it (the shortest repr; no ".0" on whole numbers)."""
+    text = repr(float(v))
+    return text[:-2] if text.endswith(".0") else text
+
+
+def test_the_page_reads_numbers_by_the_services_rule(page, live_server):
+    """The shared table of cases, and 3,000 seeded random strings, read by reading.js and by inputs/numbers.py."""
+    from lagsight.inputs import numbers
+
+    page.goto(live_server + "/")
+    read = """([texts, marks]) => texts.map((t) => marks.map((m) => {
+        try { const v = window.LagsightReading.readNumber(t, m); return v; } catch (e) { return "x"; } }))"""
+    texts = [c[0] for c in CASES["numbers"]]
+    assert page.evaluate(read, [texts, [".", ","]]) == [[c[1], c[2]] for c in CASES["numbers"]]
+    rng = np.random.default_rng(17)
+    alphabet = list("0123456789.,' -+eE") + ["\u00a0", "\u202f", "\u2212", "\u2019", "NA", "\t"]
+    randoms = ["".join(rng.choice(alphabet, size=rng.integers(0, 10))) for _ in range(3000)]
+    in_js = page.evaluate(read, [randoms, [".", ","]])
+    for text, got in zip(randoms, in_js):
+        expected = []
+        for mark in ".,":
+            try:
+                expected.append(numbers.read(text, mark))
+            except ValueError:
+                expected.append("x")
+        assert got == expected, text
+    columns = page.evaluate("""(cases) => cases.map((c) => {
+        const r = window.LagsightReading.readColumn(c.cells, null);
+        return [r.mark, r.ambiguous, r.bad, r.values]; })""", CASES["columns"])
+    for case, (mark, ambiguous, bad, values) in zip(CASES["columns"], columns):
+        py = numbers.read_column(case["cells"])
+        assert (mark, ambiguous, bad) == (py.mark, py.ambiguous, py.bad), case
+        if not bad:
+            assert values == py.values, case
+
+
+def test_a_decimal_comma_paste_in_the_default_mode_asks_instead_of_doubling_the_count(page, live_server):
+    values = _demo("bakery_daily_residuals")["values"]  # 56 values
+    written = [f"{v:.2f}".replace(".", ",") for v in values]
+    page.goto(live_server + "/")
+    sent = []
+    page.on("request", lambda r: sent.append(r.url) if r.method == "POST" else None)
+    page.fill("#values", "1,5 2,25 3,75")  # the three numbers could be six: the page asks
+    assert page.input_value("#decimal") == "auto"
+    assert page.inner_text("#values-count") == "These numbers can be read in more than one way: choose one."
+    options = page.locator("#reading-options button")
+    assert [options.nth(i).inner_text() for i in range(options.count())] == [
+        "3 values: 1.5, 2.25, 3.75 (decimal comma)", "6 values: 1, 5, 2, 25, 3, 75 (commas between values)"]
+    page.fill("#values", " ".join(written))
+    page.click("#submit")  # not sent while the reading is open
+    page.locator("#problem").wait_for(state="visible")
+    assert "choose one under Values first" in page.inner_text("#problem") and sent == []
+    assert page.locator("#reading-options button").first.inner_text().startswith("56 values: ")
+    page.locator("#reading-options button", has_text="(decimal comma)").click()
+    assert page.is_hidden("#reading-choice")
+    first = _js(float(written[0].replace(",", ".")))
+    assert page.inner_text("#values-count").startswith(f"56 values, read with decimal comma: {first}, ")
+    page.click("#submit")
+    page.wait_for_selector("#result:not([hidden])")
+    assert "n = 56" in page.inner_text("#facts") and len(sent) == 1
+    page.fill("#values", "\n".join(written))  # one number a line: commas cannot separate values, nothing to ask
+    assert page.is_hidden("#reading-choice")
+    assert page.inner_text("#values-count").startswith("56 values, read with decimal comma: ")
+
+
+@pytest.mark.parametrize("name,delimiter,decimal,group,quote", LOCALES, ids=[loc[0] for loc in LOCALES])
+def test_spreadsheet_tables_of_common_locales_are_read_as_the_service_reads_them(page, live_server, name, delimiter,
+                                                                                 decimal, group, quote):
+    values = _values()
+    page.goto(live_server + "/")
+    page.fill("#values", export(values, delimiter, decimal, group, quote))
+    assert page.is_visible("#csv-columns") and page.input_value("#csv-value-column") == "1"
+    shown = ", ".join(_js(v) for v in values[:5]) + f", …, {_js(values[-1])}"
+    mark = "comma" if decimal == "," else "point"
+    assert page.inner_text("#values-count") == (f'60 values from "litres", timestamps from "day", read with decimal '
+                                                f"{mark}: {shown}")
+    if group == "\u202f":
+        page.click("#submit")
+        page.wait_for_selector("#result:not([hidden])")
+        assert "n = 60" in page.inner_text("#facts") and "period 7 (from timestamps)" in page.inner_text("#facts")
+
+
+def test_the_value_column_is_chosen_by_the_whole_table_and_both_columns_can_be_changed(page, live_server, shots):
+    """NA fills the first 22 rows of the value column: the page still picks it, not the dates or the notes."""
+    rng = np.random.default_rng(5)
+    kwh = (rng.standard_normal(80) * 12 + 410).round(1)
+    rows = []
+    for i, v in enumerate(kwh):
+        cell = "NA" if i < 22 or i in (40, 41) else f"{v:.1f}"
+        rows.append(f"2025-01-{1 + i // 24:02d}T{i % 24:02d}:00:00,{cell},{'night' if i % 2 else 'day'},{i % 3}")
+    text = "reading_at,pump_kwh,shift,crew\n" + "\n".join(rows) + "\n"
+    page.goto(live_server + "/")
+    page.fill("#values", text)
+    assert page.input_value("#csv-value-column") == "1" and page.input_value("#csv-time-column") == "0"
+    assert page.inner_text("#values-count").startswith(
+        '80 values (24 missing) from "pump_kwh", timestamps from "reading_at", read with decimal point: NA, NA, ')
+    page.select_option("#csv-value-column", "3")  # the user's choice: the crew numbers, no timestamps
+    page.select_option("#csv-time-column", "-1")
+    assert page.inner_text("#values-count").startswith('80 values from "crew": 0, 1, 2, 0, 1, …, 1')
+    page.select_option("#csv-value-column", "2")
+    assert page.inner_text("#values-count") == 'Value 1 in column "shift" ("day") is not a number.'
+    page.select_option("#csv-value-column", "1")
+    page.select_option("#csv-time-column", "0")
+    page.select_option("#missing", "pairwise")
+    with page.expect_request(lambda r: r.method == "POST") as request:
+        page.click("#submit")
+    sent = request.value.post_data_json
+    assert sent["values"][21] is None and sent["values"][22] == kwh[22] and len(sent["values"]) == 80
+    assert sent["timestamps"][:2] == ["2025-01-01T00:00:00", "2025-01-01T01:00:00"] and len(sent["timestamps"]) == 80
+    page.wait_for_selector("#result:not([hidden])")
+    facts = page.inner_text("#facts")  # 56 observed of 80 hourly readings
+    assert "n = 56" in facts and "24 missing" in facts and "period 24 (from timestamps)" in facts
+    page.screenshot(path=str(shots / "page-table-columns.png"), full_page=True)
 
 
 def test_keyboard_alone_can_fill_the_form_and_submit(page, live_server):

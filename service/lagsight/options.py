@@ -57,8 +57,9 @@ def short_lag(n: int, max_lag: int, period: int | None) -> int:
 def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int) -> list[int]:
     """Lags at which the portmanteau tests are reported.
 
-    - the short lag (see :func:`short_lag`), raised to model_df + 1 so it has
-      degrees of freedom and kept within max_lag;
+    - the short lag min(10, n // 5), or min(2 m, n // 5) with a period m (see
+      :func:`short_lag`), raised to model_df + 1 so it has degrees of freedom and
+      kept within max_lag;
     - the seasonal lags m and 2 m when a period is known and they are within max_lag;
     - max_lag itself.
     """

@@ -7,6 +7,7 @@ is an RFC 6901 JSON pointer into the request body.
 """
 from __future__ import annotations
 
+import difflib
 from dataclasses import dataclass, field
 
 PROBLEM_MEDIA_TYPE = "application/problem+json"
@@ -100,6 +101,20 @@ class Problem(Exception):
 def invalid(pointer_: str, detail: str) -> Problem:
     """A 422 about one field."""
     return Problem("invalid-content", detail, [FieldError(pointer_, detail)])
+
+
+def counted(n: int, one: str, many: str) -> str:
+    """A count with the words that agree with it: ``counted(1, "field is", "fields are") == "1 field is"``."""
+    return f"{n:,} {one if n == 1 else many}"
+
+
+def did_you_mean(given, choices) -> str:
+    """`` Did you mean 'x'?`` for the choice nearest to ``given`` (difflib's ratio, case ignored), else ""."""
+    if not isinstance(given, str) or not given.strip():
+        return ""
+    names = {str(c).casefold(): str(c) for c in choices}
+    close = difflib.get_close_matches(given.strip().casefold(), list(names), n=1, cutoff=0.6)
+    return f" Did you mean {names[close[0]]!r}?" if close else ""
 
 
 def flatten_messages(messages, prefix: str = "") -> list[FieldError]:

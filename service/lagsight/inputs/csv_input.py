@@ -4,8 +4,10 @@ Dialects read (query parameters, each optional)
 -----------------------------------------------
 - ``delimiter``: ``,`` ``;`` or a tab (also spelt ``comma``, ``semicolon``, ``tab``).
   By default the first line decides: a tab if it has one, else a semicolon, else a comma.
-- ``decimal``: ``.`` or ``,``. By default a decimal comma is assumed when the delimiter
-  is not a comma and the value cells use commas and no points.
+- ``decimal``: ``.`` or ``,`` (also ``point``, ``comma``). By default the mark under which
+  every value cell is a number; 422 when both marks read every cell but give different
+  numbers (``1,234``). Thousands separators are read as ``numbers.py`` says (the one rule
+  for numbers written as text, shared with the query string and the page).
 - ``header``: ``true`` or ``false``. By default the first line is a header when none of
   its cells is a number or an ISO 8601 date.
 - ``column``: the value column, by header name or 0-based index. By default the only
@@ -25,17 +27,16 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 import re
 from collections.abc import Mapping
 
 import numpy as np
 
 from lagsight import options
-from lagsight.problems import FieldError, Problem
+from lagsight.inputs import numbers
+from lagsight.problems import FieldError, Problem, counted, did_you_mean
 
 _ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}")
-_DECIMAL_COMMA = re.compile(r"^[+-]?\d*,\d+$|^[+-]?\d+,?$")
 _MAX_LISTED = 10
 csv.field_size_limit(1 << 20)
 
@@ -70,7 +71,7 @@ def _named_choice(args: Mapping[str, str], name: str, table: dict, what: str, al
     chosen = table.get(given.lower(), given)
     if chosen not in table.values():
         raise Problem("invalid-content", f"Unknown {what}.", [FieldError(
-            f"/{name}", f"Must be {allowed}, got {given!r}.")])
+            f"/{name}", f"Must be {allowed}, got {given!r}.{did_you_mean(given, table)}")])
     return chosen
 
 
@@ -108,11 +109,10 @@ def _rows(text: str, delimiter: str) -> tuple[list[list[str]], list[int] | None]
 
 
 def _is_number(cell: str) -> bool:
-    try:
-        float(cell.replace(",", "."))
-        return True
-    except ValueError:
+    """A number (not a missing value) under either decimal mark."""
+    if cell.strip(numbers.SPACE).lower() in options.CSV_MISSING_TOKENS:
         return False
+    return numbers.reads(cell, ".") or numbers.reads(cell, ",")
 
 
 def _pick(spec: str | None, header: list[str] | None, width: int, param: str) -> int | None:
@@ -129,7 +129,8 @@ def _pick(spec: str | None, header: list[str] | None, width: int, param: str) ->
         return int(spec)
     listing = ", ".join(repr(h) for h in header) if header is not None else f"indexes 0 to {width - 1}"
     raise Problem("invalid-content", f"No column {spec!r} in the file.", [FieldError(
-        f"/{param}", f"No column {spec!r}: the file has {width} column(s) ({listing}); give a name or a 0-based index.")])
+        f"/{param}", f"No column {spec!r}: the file has {counted(width, 'column', 'columns')} ({listing}); give a "
+                     f"name or a 0-based index.{did_you_mean(spec, header or ())}")])
 
 
 def _flag(args: Mapping[str, str], name: str) -> bool | None:
@@ -138,7 +139,8 @@ def _flag(args: Mapping[str, str], name: str) -> bool | None:
         return None
     if raw.lower() in ("true", "false"):
         return raw.lower() == "true"
-    raise Problem("invalid-content", f"Invalid {name}.", [FieldError(f"/{name}", "Must be true, false or auto.")])
+    raise Problem("invalid-content", f"Invalid {name}.", [FieldError(
+        f"/{name}", f"Must be true, false or auto, got {raw!r}.{did_you_mean(raw, ('true', 'false', 'auto'))}")])
 
 
 def read_series(body: bytes, args: Mapping[str, str]) -> dict:
@@ -167,9 +169,10 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
     if vcol is None:
         others = [i for i in range(width) if i != tcol]
         if len(others) != 1:
-            names = ", ".join(repr(h) for h in header) if header is not None else f"{width} columns"
+            names = ", ".join(repr(h) for h in header) if header is not None else counted(width, "column", "columns")
             raise Problem("invalid-content", "Choose the value column.", [FieldError(
-                "/column", f"The file has {width} columns ({names}); choose the value column with column=<name or "
+                "/column", f"The file has {counted(width, 'column', 'columns')} ({names}); choose the value column "
+                           "with column=<name or "
                            "0-based index>.")])
         vcol = others[0]
     if vcol == tcol:
@@ -182,7 +185,7 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
     short = np.flatnonzero(sizes < need)
     if short.size:
         i = int(short[0])
-        raise _malformed(f"the row has {int(sizes[i])} field(s) but column {need} is needed"
+        raise _malformed(f"the row has {counted(int(sizes[i]), 'field', 'fields')} but column {need} is needed"
                          + (f" (the header has {width})" if header is not None else "")
                          + f"; is the delimiter {delimiter!r} right?", lines[i])
     if header is not None:
@@ -191,9 +194,7 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
                 raise _malformed(f"the row has {int(sizes[i])} fields but the header has {width}; a decimal comma "
                                  "in a comma-separated file must be quoted (or use ';' between fields).", lines[i],
                                  width + 1)
-    cells = [r[vcol].strip() for r in data]
-    decimal = _decimal(args, delimiter, cells)
-    values = _numbers(cells, lines, decimal, vcol + 1)
+    values = _numbers([r[vcol] for r in data], lines, args, vcol + 1)
     out = {"values": values, "_value_lines": lines, "_value_column": vcol + 1}
     if tcol is not None:
         stamps = [r[tcol].strip() for r in data]
@@ -210,48 +211,34 @@ def read_series(body: bytes, args: Mapping[str, str]) -> dict:
     return out
 
 
-def _decimal(args: Mapping[str, str], delimiter: str, cells: list[str]) -> str:
-    chosen = _named_choice(args, "decimal", options.CSV_DECIMALS, "decimal mark", "'.' or ',' (or point, comma)")
-    if chosen is not None:
-        return chosen
-    if delimiter == ",":
-        return "."
-    sample = [c for c in cells if c and c.lower() not in options.CSV_MISSING_TOKENS][:1000]
-    commas = any("," in c for c in sample)
-    points = any("." in c for c in sample)
-    return "," if commas and not points and all(_DECIMAL_COMMA.match(c) for c in sample) else "."
+def _plain(x: float) -> str:
+    return f"{x:.15g}"
 
 
-def _numbers(cells: list[str], lines: list[int], decimal: str, column: int) -> list:
-    """Cells to floats (None for missing). Clean columns convert in one step; otherwise cell by cell."""
-    if decimal == ",":
-        cells = [c.replace(",", ".") if "." not in c else c + "!" for c in cells]  # "1.234,5" must fail
-    try:
-        array = np.array(cells, dtype=np.float64)
-        if np.isfinite(array).all():
-            return array.tolist()
-    except ValueError:
-        pass
-    missing = options.CSV_MISSING_TOKENS
-    values, errors = [], []
-    for i, cell in enumerate(cells):
-        if cell.rstrip("!").lower() in missing:
-            values.append(None)
-            continue
-        try:
-            number = float(cell)
-        except ValueError:
-            number = None
-        if number is None or not math.isfinite(number):
-            if len(errors) < _MAX_LISTED:
-                shown = cell.rstrip("!") if decimal == "," else cell
-                hint = " (decimal mark is ',')" if decimal == "," else ""
-                errors.append(FieldError(f"/values/{i}", f"Line {lines[i]}, column {column}: {shown[:40]!r} is not a "
-                                                         f"finite number{hint}.", lines[i], column))
-            values.append(None)
-            continue
-        values.append(number)
-    if errors:
-        raise Problem("invalid-content", f"{len(errors)} cell(s) of the value column are not numbers; see errors.",
-                      errors)
-    return values
+def _numbers(cells: list[str], lines: list[int], args: Mapping[str, str], column: int) -> list:
+    """The value cells as floats (None for missing), read with the decimal mark given or the one the cells allow."""
+    given = _named_choice(args, "decimal", options.CSV_DECIMALS, "decimal mark", "'.' or ',' (or point, comma)")
+    read = numbers.read_column(cells, given, _MAX_LISTED)
+    if read.ambiguous is not None:
+        i = read.ambiguous
+        cell = cells[i].strip(numbers.SPACE)
+        point, comma = _plain(numbers.read(cell, ".")), _plain(numbers.read(cell, ","))
+        detail = (f"Line {lines[i]}, column {column}: {cell[:40]!r} is {point} with a decimal point and {comma} "
+                  "with a decimal comma, and every value cell reads "
+                  "either way; give decimal=point or decimal=comma.")
+        raise Problem("invalid-content", "The decimal mark of the value column is ambiguous; see errors.",
+                      [FieldError("/decimal", detail, lines[i], column)])
+    if not read.bad:
+        return read.values
+    other = "," if read.mark == "." else "."
+    errors = []
+    for i in read.bad:
+        cell = cells[i].strip(numbers.SPACE)
+        mark, other_name = numbers.MARK_NAMES[read.mark], numbers.MARK_NAMES[other]
+        hint = (f" (it reads as a number with a decimal {other_name}, but the column's decimal mark is the {mark})"
+                if numbers.reads(cell, other) else f" with a decimal {mark}" if "," in cell or "." in cell else "")
+        errors.append(FieldError(f"/values/{i}", f"Line {lines[i]}, column {column}: {cell[:40]!r} is not a finite "
+                                                 f"number{hint}.", lines[i], column))
+    said = ("1 cell of the value column is not a number" if read.n_bad == 1
+            else f"{read.n_bad} cells of the value column are not numbers")
+    raise Problem("invalid-content", f"{said}; see errors.", errors)

@@ -20,6 +20,7 @@ from marshmallow import (
 from marshmallow import missing as missing_value
 
 from lagsight import options
+from lagsight.problems import did_you_mean
 
 _NUMBER_TYPES = (int, float)
 _MAX_LISTED_ERRORS = 10
@@ -118,6 +119,27 @@ class BoxCoxLambda(fields.Field):
                               f'{options.MAX_BOX_COX_LAMBDA:g}, or "{options.BOX_COX_ESTIMATE}".')
 
 
+class Choice(validate.OneOf):
+    """``OneOf`` whose message adds the nearest allowed value (``Did you mean 'bartlett'?``)."""
+
+    def __call__(self, value):
+        try:
+            return super().__call__(value)
+        except ValidationError as err:
+            raise ValidationError(f"{err.messages[0]}{did_you_mean(value, self.choices)}") from None
+
+
+class Suggesting(Schema):
+    """A schema whose unknown fields are answered with the nearest field's name."""
+
+    def handle_error(self, error: ValidationError, data, *, many: bool, **kwargs):
+        if isinstance(error.messages, dict):
+            unknown = self.error_messages["unknown"]
+            for key, messages in error.messages.items():
+                if key not in self.fields and messages == [unknown]:
+                    error.messages[key] = [unknown + did_you_mean(key, self.load_fields)]
+
+
 class StrictBoolean(fields.Boolean):
     """A JSON true or false, nothing else."""
 
@@ -127,7 +149,7 @@ class StrictBoolean(fields.Boolean):
         return value
 
 
-class TransformFields(Schema):
+class TransformFields(Suggesting):
     """The ``transform`` object: steps applied in the order of options.TRANSFORM_ORDER."""
 
     class Meta:
@@ -137,7 +159,7 @@ class TransformFields(Schema):
     box_cox = BoxCoxLambda(load_default=None, allow_none=True)
     difference = StrictInteger(load_default=0, validate=validate.Range(min=0, max=options.MAX_DIFFERENCE))
     seasonal_difference = StrictInteger(load_default=0, validate=validate.Range(min=0, max=options.MAX_SEASONAL_DIFFERENCE))
-    detrend = fields.String(load_default=None, allow_none=True, validate=validate.OneOf(options.DETREND_KINDS))
+    detrend = fields.String(load_default=None, allow_none=True, validate=Choice(options.DETREND_KINDS))
 
 
 MAX_STAMP_LENGTH = 64
@@ -163,7 +185,7 @@ def stamps_match_values(data: dict) -> bool:
     return stamps is None or values is None or len(stamps) == len(values)
 
 
-class SeriesFields(Schema):
+class SeriesFields(Suggesting):
     """The fields that describe one series (shared by the single and batch requests)."""
 
     class Meta:
@@ -173,7 +195,7 @@ class SeriesFields(Schema):
     timestamps = StampList(load_default=None)
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     name = fields.String(load_default=None, allow_none=True, validate=validate.Length(max=200))
-    missing = fields.String(load_default=options.DEFAULT_MISSING, validate=validate.OneOf(options.MISSING_METHODS))
+    missing = fields.String(load_default=options.DEFAULT_MISSING, validate=Choice(options.MISSING_METHODS))
     transform = fields.Nested(TransformFields, load_default=None, allow_none=True)
 
     @validates_schema
@@ -185,7 +207,7 @@ class SeriesFields(Schema):
             )
 
 
-class AnalysisOptions(Schema):
+class AnalysisOptions(Suggesting):
     """Options that shape the analysis."""
 
     class Meta:
@@ -197,12 +219,12 @@ class AnalysisOptions(Schema):
         validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False),
     )
     model_df = StrictInteger(load_default=options.DEFAULT_MODEL_DF, validate=validate.Range(min=0))
-    band = fields.String(load_default=options.DEFAULT_BAND, validate=validate.OneOf(options.BAND_KINDS))
+    band = fields.String(load_default=options.DEFAULT_BAND, validate=Choice(options.BAND_KINDS))
     tests = fields.List(
-        fields.String(validate=validate.OneOf(options.TEST_NAMES)),
+        fields.String(validate=Choice(options.TEST_NAMES)),
         load_default=None, allow_none=True, validate=validate.Length(min=1),
     )
-    p_values = fields.String(load_default=options.DEFAULT_P_VALUES, validate=validate.OneOf(options.P_VALUE_METHODS))
+    p_values = fields.String(load_default=options.DEFAULT_P_VALUES, validate=Choice(options.P_VALUE_METHODS))
     replicates = StrictInteger(load_default=options.DEFAULT_REPLICATES, validate=validate.Range(min=options.MIN_REPLICATES))
     seed = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=0, max=2**63 - 1))
 
@@ -303,7 +325,7 @@ class BatchSeries(SeriesFields):
     max_lag = StrictInteger(allow_none=True, validate=validate.Range(min=1))
     confidence = StrictFloat(validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False))
     model_df = StrictInteger(validate=validate.Range(min=0))
-    missing = fields.String(validate=validate.OneOf(options.MISSING_METHODS))
+    missing = fields.String(validate=Choice(options.MISSING_METHODS))
     transform = fields.Nested(TransformFields, allow_none=True)
 
 
@@ -318,7 +340,7 @@ class BatchRequest(AnalysisOptions):
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     missing = SeriesFields._declared_fields["missing"]
     transform = SeriesFields._declared_fields["transform"]
-    detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=validate.OneOf(options.DETAIL_LEVELS))
+    detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=Choice(options.DETAIL_LEVELS))
 
 #: The options a series of a batch may override, and the shared field each falls back to.
 BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df")

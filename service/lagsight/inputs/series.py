@@ -15,7 +15,7 @@ import numpy as np
 from lagsight import options
 from lagsight.engine.masked import pair_counts
 from lagsight.inputs import timestamps, transforms
-from lagsight.problems import invalid
+from lagsight.problems import counted, invalid
 
 
 @dataclass
@@ -71,10 +71,12 @@ def _refuse_missing(raw_missing: np.ndarray, axis: timestamps.TimeAxis | None, s
     hint = 'send missing = "interpolate" or "pairwise" to analyse it anyway.'
     if n_null:
         first = int(np.argmax(raw_missing))
-        return invalid(f"/values/{first}", f"{n_null} value(s) are missing (null), the first at index {first}; {hint}")
+        said = counted(n_null, "value is", "values are")
+        return invalid(f"/values/{first}", f"{said} missing (null), the first at index {first}; {hint}")
     jumps = np.diff(axis.slots)
     i = int(np.argmax(jumps > 1)) + 1
-    return invalid(f"/timestamps/{i}", f"The {axis.frequency} timestamps skip {n_gaps} step(s) in all, the first "
+    steps = counted(n_gaps, "step", "steps")
+    return invalid(f"/timestamps/{i}", f"The {axis.frequency} timestamps skip {steps} in all, the first "
                                        f"{int(jumps[i - 1]) - 1} between {stamps[i - 1]!r} and {stamps[i]!r}; {hint}")
 
 
@@ -90,7 +92,8 @@ def _fill_missing(values: np.ndarray, method: str, warnings: list, labels):
     lo, hi = int(observed[0]), int(observed[-1]) + 1
     dropped = values.size - (hi - lo)
     if dropped:
-        warnings.append(_warning("missing_ends_dropped", f"{dropped} missing value(s) at the start or end were "
+        warnings.append(_warning("missing_ends_dropped", f"{counted(dropped, 'missing value', 'missing values')} at "
+                                                         f"the start or end {'was' if dropped == 1 else 'were'} "
                                                          "dropped: they cannot be interpolated or paired."))
         values, missing = values[lo:hi], missing[lo:hi]
         labels = labels[lo:hi] if labels is not None else None
@@ -211,7 +214,8 @@ def _missing_note(method: str, count: int, dropped: int, filled: int) -> str | N
     if not count:
         return None
     if method == "interpolate":
-        return (f"{filled} missing value(s) were filled by straight lines between their neighbours"
+        return (f"{counted(filled, 'missing value was', 'missing values were')} filled by straight lines between their "
+                "neighbours"
                 + (f" and {dropped} at the ends dropped" if dropped else "")
                 + "; filled values make the series smoother and can raise low-lag autocorrelation.")
     return ("Autocovariances use only the pairs observed at each lag (the amplitude-modulated estimator, "
@@ -242,7 +246,8 @@ def limit_to_paired_lags(series: PreparedSeries, mask: np.ndarray, max_lag: int,
     lag = int(short[0]) + 1
     if requested or lag == 1:
         raise invalid("/max_lag" if requested else "/values",
-                      f"Lag {lag} has only {int(pairs[lag - 1])} pair(s) of observed values; at least "
+                      f"Lag {lag} has only {counted(int(pairs[lag - 1]), 'pair', 'pairs')} of observed values; "
+                      "at least "
                       f"{options.MIN_PAIRS} are needed at every lag analysed"
                       + (f": lower max_lag below {lag}." if requested else "."))
     series.warnings.append(_warning("max_lag_lowered", f"max_lag was lowered to {lag - 1}: lag {lag} has fewer than "

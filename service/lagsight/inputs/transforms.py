@@ -29,7 +29,7 @@ import numpy as np
 from scipy import optimize, special, stats
 
 from lagsight import options
-from lagsight.problems import invalid
+from lagsight.problems import counted, invalid
 
 
 def _step(name: str, *, order=None, lag=None, lambda_=None, lambda_source=None, n_after: int) -> dict:
@@ -181,7 +181,8 @@ def apply(x: np.ndarray, spec: dict | None, period: int | None, pointer: str = "
     d = spec.get("difference") or 0
     for _ in range(d):
         if x.size - 1 < options.MIN_POINTS:
-            raise invalid(f"{pointer}/difference", f"Differencing {d} time(s) leaves fewer than {options.MIN_POINTS} points.")
+            raise invalid(f"{pointer}/difference", f"Differencing {counted(d, 'time', 'times')} leaves fewer than "
+                                                        f"{options.MIN_POINTS} points.")
         with np.errstate(over="ignore", invalid="ignore"):
             x = x[1:] - x[:-1]
         _check_finite(x, "Differencing", f"{pointer}/difference")

@@ -72,7 +72,7 @@ def _check_size(body: dict, cfg) -> None:
 
 def _check_shared(shared: dict, cfg) -> None:
     if shared["max_lag"] is not None and shared["max_lag"] > cfg["MAX_LAG"]:
-        raise Problem("invalid-content", "1 field(s) are invalid; see errors.", [FieldError(
+        raise Problem("invalid-content", "1 field is invalid; see errors.", [FieldError(
             "/max_lag", f"max_lag must be at most {cfg['MAX_LAG']} (this deployment's limit), got {shared['max_lag']}.")])
 
 
@@ -99,7 +99,8 @@ def _prepare_item(item, shared: dict, cfg, seen: dict, index: int, axes: dict | 
         data = ITEM_LOAD.load(item)
     except ValidationError as err:
         errors = [e.under(prefix) for e in flatten_messages(err.messages)]
-        raise Problem("invalid-content", f"{len(errors)} field(s) of this series are invalid; see errors.", errors) from None
+        said = "1 field of this series is" if len(errors) == 1 else f"{len(errors)} fields of this series are"
+        raise Problem("invalid-content", f"{said} invalid; see errors.", errors) from None
     if data["id"] in seen:
         detail = f"The id {data['id']!r} is already used by /series/{seen[data['id']]}; ids must be unique."
         raise Problem("invalid-content", detail, [FieldError(prefix + "/id", detail)])
@@ -304,35 +305,47 @@ def _line(obj) -> bytes:
 
 
 def _stream(errors, prepared, where, summary: across.Tally, detail: str, notes: dict):
-    """NDJSON lines: request errors first, then each block's results as it finishes, then the summary
-    (which carries the brief answer's cautions and pointer to the full report)."""
+    """NDJSON lines in request order (each carries its ``index``): a line is held until every earlier series
+    has its line, and each block sends what it lets go; then the summary (with the brief answer's cautions
+    and pointer to the full report). Series that failed validation wait for their turn like the others."""
+    held: dict[int, bytes] = {}
+    sent = 0
+
+    def hold(i: int, result: dict) -> None:
+        held[i] = _line({"kind": "result", "index": i, **result})
+
+    def release(everything: bool = False) -> bytes:
+        nonlocal sent
+        out = []
+        while sent in held:
+            out.append(held.pop(sent))
+            sent += 1
+        if everything:  # after a failure: what was computed, still in increasing index
+            out.extend(held.pop(i) for i in sorted(held))
+        return b"".join(out)
+
     try:
-        if errors:
-            for _, result in errors:
-                summary.add(result)
-            yield b"".join(_line({"kind": "result", "index": i, **result}) for i, result in errors)
+        for i, result in errors:
+            summary.add(result)
+            hold(i, result)
         late: list[Problem] = []
         done = bytearray(len(prepared))
         for block in _blocks_in_time(prepared, detail, late):
-            lines = []
             for j, report in block:
                 i, item_id = where[j]
                 result = {"id": item_id, **report}
                 summary.add(result, i, 1.0 - prepared[j][1].spec.confidence)
                 done[j] = 1
-                lines.append(_line({"kind": "result", "index": i, **result}))
-            yield b"".join(lines)
-        if late:  # the status line is sent: one error line for each series not done, in request order
-            lines = []
-            for j in sorted((j for j in range(len(prepared)) if not done[j]), key=lambda j: where[j][0]):
-                i, item_id = where[j]
-                result = _error_result(item_id, late[0])
-                summary.add(result)
-                lines.append(_line({"kind": "result", "index": i, **result}))
-            yield b"".join(lines)
-        yield _line({"kind": "summary", "summary": summary.across(), **notes})
+                hold(i, result)
+            if chunk := release():
+                yield chunk
+        for j in (j for j in range(len(prepared)) if late and not done[j]):  # one error line per series not done
+            result = _error_result(where[j][1], late[0])
+            summary.add(result)
+            hold(where[j][0], result)
+        yield release() + _line({"kind": "summary", "summary": summary.across(), **notes})
     except Exception:  # the status line is sent: end the stream with an error line instead
         log.exception("unhandled error while streaming", extra={"request_id": request_id(), "route": route_label()})
         problem = Problem("internal-error", "The service failed while streaming this batch; it has been logged. "
                                             "Results already sent are valid; the others were not computed.")
-        yield _line({"kind": "error", "error": problem.as_dict(request.path)})
+        yield release(everything=True) + _line({"kind": "error", "error": problem.as_dict(request.path)})

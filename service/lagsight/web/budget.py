@@ -48,7 +48,7 @@ from flask import current_app, g
 
 from lagsight.engine import stl, whiteness
 from lagsight.pipeline import Plan, blocks
-from lagsight.problems import FieldError, Problem
+from lagsight.problems import FieldError, Problem, counted
 from lagsight.web import metrics
 from lagsight.web.observability import request_id, route_label
 
@@ -108,7 +108,7 @@ def box_cox_estimates(estimate: Estimate, count: int, points: int) -> Estimate:
     """Add ``count`` Box-Cox lambda estimates over ``points`` points in all."""
     if count:
         estimate.add("Box-Cox estimates", BOX_COX * count + BOX_COX_POINT * points)
-        estimate.notes["Box-Cox estimates"] = f"{count:,} lambda estimate(s)"
+        estimate.notes["Box-Cox estimates"] = counted(count, "lambda estimate", "lambda estimates")
     return estimate
 
 
@@ -144,8 +144,8 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
     if decomposed:
         periods = sorted({p for _, p in decomposed})
         shown = ", ".join(f"{p:,}" for p in periods[:3]) + (" ..." if len(periods) > 3 else "")
-        estimate.notes["seasonal decompositions"] = (f"{len(decomposed):,} distinct series length(s) and period(s) "
-                                                     f"to decompose (period {shown})")
+        estimate.notes["seasonal decompositions"] = (counted(len(decomposed), "distinct pair", "distinct pairs")
+                                                     + f" of series length and period to decompose (period {shown})")
     return estimate
 
 

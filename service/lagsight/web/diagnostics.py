@@ -12,7 +12,7 @@ from marshmallow import Schema, ValidationError
 from werkzeug.datastructures import ImmutableMultiDict
 
 from lagsight import options
-from lagsight.inputs import csv_input
+from lagsight.inputs import csv_input, numbers
 from lagsight.inputs.schema import (
     DIRECT_CHECKS,
     DIRECT_FIELDS,
@@ -23,7 +23,7 @@ from lagsight.inputs.series import prepare
 from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
 from lagsight.pipeline import plan_for, run
-from lagsight.problems import Problem, flatten_messages
+from lagsight.problems import Problem, counted, flatten_messages
 from lagsight.web import budget, metrics, query
 from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
@@ -42,7 +42,8 @@ def load(schema: Schema | DirectLoad, body: dict) -> dict:
         return schema.load(body)
     except ValidationError as err:
         errors = flatten_messages(err.messages)
-        raise Problem("invalid-content", f"{len(errors)} field(s) are invalid; see errors.", errors) from None
+        raise Problem("invalid-content", f"{counted(len(errors), 'field is', 'fields are')} invalid; see errors.",
+                      errors) from None
 
 
 def _negotiate(requested: str | None) -> str:
@@ -70,10 +71,13 @@ def _from_query(args) -> dict:
 
 
 def _number(text: str):
+    """An item of ``values=`` read by the one rule for numbers as text (inputs/numbers.py), with a decimal point:
+    commas separate the items. Text that is not a number is left for the schema to point at."""
     try:
-        return float(text)
+        number = numbers.read(text, ".")
     except ValueError:
-        return text  # the schema points at it
+        return text
+    return text if number is None else number
 
 
 def _with_lines(problem: Problem, raw: dict) -> Problem:

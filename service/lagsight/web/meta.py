@@ -14,10 +14,12 @@ from lagsight.engine.crosscorrelation import __doc__ as driver_doc
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
 from lagsight.inputs.csv_input import __doc__ as csv_doc
+from lagsight.inputs.numbers import __doc__ as numbers_doc
 from lagsight.inputs.schema import BATCH_OVERRIDES
 from lagsight.inputs.timestamps import __doc__ as timestamps_doc
 from lagsight.inputs.transforms import __doc__ as transforms_doc
 from lagsight.outputs.brief import FIELDS as BRIEF_FIELDS
+from lagsight.outputs.charts import MAX_TIME_POINTS
 from lagsight.outputs.charts import __doc__ as charts_doc
 from lagsight.outputs.csv_table import COLUMNS as CSV_COLUMNS
 from lagsight.outputs.stability import METHOD as CHANGE_METHOD
@@ -28,10 +30,25 @@ from lagsight.web.responses import json_response
 bp = Blueprint("meta", __name__)
 
 
-def _prose(text: str) -> str:
-    """A docstring section as one line of plain words: no cross-reference markup, no citation marks."""
+def _number(name: str, constants: dict) -> str | None:
+    value = constants.get(name, getattr(options, name, None))
+    return f"{value:,g}" if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+
+
+def _prose(text: str, **constants) -> str:
+    """A docstring section as one line of plain words: no cross-reference markup, no citation marks, and a
+    constant named in the source (``options.MIN_OBSERVED_SHARE``, or one of ``constants``) given as its value."""
+    def value(m: re.Match) -> str:
+        number = _number(m.group(1) or m.group(2), constants)
+        if number is None:
+            return m.group(0)
+        return number + (m.group(3) if m.group(3) and m.group(3) != f" ({number})" else "")
+
+    text = re.sub(r"(?:``(?:options\.)?([A-Z][A-Z0-9_]+)``|options\.([A-Z][A-Z0-9_]+))( \([^)]*\))?", value, text)
+    text = re.sub(r"\s*\(see\s+:[a-z]+:`[^`]+`\)", "", text)  # a pointer into the source, not a word
     text = re.sub(r":[a-z]+:`~?\.?([^`]+)`", r"\1", text)
-    text = re.sub(r"\s*\[\d+\]_", "", text)
+    text = re.sub(r"\s*\[\d+\]_(?:,\s*\[\d+\]_)*", "", text)
+    text = re.sub(r"\s*\(``(?:options|lagsight)\.[\w.]+``\)", "", text)  # a pointer into the source, not a word
     return " ".join(text.replace("``", "").split())
 
 
@@ -78,16 +95,16 @@ def methods():
                            "maximum": cfg["MAX_REPLICATES"]},
             "seed": {"default": None, "minimum": 0},
             "missing": {"default": options.DEFAULT_MISSING, "enum": list(options.MISSING_METHODS),
-                        "pairwise": " ".join(masked_doc.split("Notes\n-----")[1].split("References")[0].split())},
+                        "pairwise": _prose(masked_doc.split("Notes\n-----")[1].split("References")[0])},
             "transform": {"order": list(options.TRANSFORM_ORDER),
-                          "rules": " ".join(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1].split())},
+                          "rules": _prose(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1])},
         },
         "small_sample_threshold": {"n": options.SMALL_SAMPLE_N, "why": (
             "Below this length the chi-square p-values drift from their nominal level (simulated here: the 5% "
             "Ljung-Box test at lag 10 rejects about 7% of i.i.d. series of length 30); reports warn and advise "
             "Monte Carlo p-values.")},
         "timestamps": {"periods": dict(options.PERIOD_BY_SPACING),
-                       "rules": " ".join(timestamps_doc.split("----------------------------------------------------------")[1].split())},
+                       "rules": _prose(timestamps_doc.split("----------------------------------------------------------")[1])},
         "portmanteau_lags": _prose(options.portmanteau_lags.__doc__),
         "limits": {"min_points": options.MIN_POINTS, "max_points": cfg["MAX_POINTS"], "max_lag": cfg["MAX_LAG"],
                    "max_body_bytes": cfg["MAX_CONTENT_LENGTH"], "max_series": cfg["MAX_SERIES"],
@@ -99,7 +116,8 @@ def methods():
                    "model_search_fits": options.MODEL_SEARCH_FITS, "model_work_budget": options.MODEL_WORK_BUDGET},
         "data_in": {
             "media_types": ["application/json", "text/csv"],
-            "csv": " ".join(csv_doc.split("-----------------------------------------------")[1].split()),
+            "csv": _prose(csv_doc.split("-----------------------------------------------")[1]),
+            "numbers_as_text": _prose(numbers_doc.split("The rule\n--------")[1]),
             "query_parameters": {"output": list(query.OUTPUT_PARAMS), "csv": list(query.CSV_PARAMS),
                                  "analysis": list(query.ANALYSIS_PARAMS), "transform": list(query.TRANSFORM_PARAMS)},
         },
@@ -107,7 +125,7 @@ def methods():
             "formats": dict(options.FORMATS),
             "charts": list(options.CHART_KINDS),
             "csv_columns": list(CSV_COLUMNS),
-            "chart_data": " ".join(charts_doc.split("\n\n", 1)[1].split()),
+            "chart_data": _prose(charts_doc.split("\n\n", 1)[1], MAX_TIME_POINTS=MAX_TIME_POINTS),
         },
         "batch": {
             "route": "/v1/diagnostics/batch",

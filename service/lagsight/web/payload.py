@@ -110,7 +110,8 @@ def read_body(request: Request) -> bytes:
             raise _too_large(limit)
         body = _read_stream(stream, length)
         if len(body) < length:
-            raise _whole_body("bad-request", f"The request body ended after {len(body)} of the {length} bytes its "
+            raise _whole_body("bad-request", f"The request body ended after {len(body)} of the {length} "
+                                             f"{'byte' if length == 1 else 'bytes'} its "
                                              "Content-Length announced; send the whole body.")
     elif environ.get("wsgi.input_terminated"):
         body = _read_stream(stream, limit + 1 if limit is not None else 1 << 62)

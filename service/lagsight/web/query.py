@@ -11,7 +11,7 @@ from __future__ import annotations
 from werkzeug.datastructures import MultiDict
 
 from lagsight import options
-from lagsight.problems import FieldError, Problem
+from lagsight.problems import FieldError, Problem, counted, did_you_mean
 
 #: Options that shape the response, accepted on every diagnostics request.
 OUTPUT_PARAMS = ("format", "chart", "vega_lite")
@@ -66,8 +66,10 @@ def check_known(args: MultiDict, allowed) -> None:
     several would answer a question the caller did not ask)."""
     unknown = [k for k in args.keys() if k not in allowed]
     if unknown:
-        errors = [FieldError(f"/{k}", f"Unknown query parameter {k!r} for this request.") for k in unknown]
-        raise Problem("invalid-content", f"{len(errors)} query parameter(s) are not recognised; see errors.", errors)
+        errors = [FieldError(f"/{k}", f"Unknown query parameter {k!r} for this request.{did_you_mean(k, allowed)}")
+                  for k in unknown]
+        raise Problem("invalid-content", f"{counted(len(errors), 'query parameter is', 'query parameters are')} not "
+                                         "recognised; see errors.", errors)
     for name, values in args.lists():
         if len(values) > 1:
             raise _repeated(name, len(values))
@@ -92,12 +94,14 @@ def output_options(args: MultiDict) -> dict:
     if "format" in args:
         fmt = _single(args, "format").strip().lower()
         if fmt not in options.FORMATS:
-            errors.append(FieldError("/format", f"Must be one of {', '.join(options.FORMATS)}, got {fmt!r}."))
+            errors.append(FieldError("/format", f"Must be one of {', '.join(options.FORMATS)}, got {fmt!r}."
+                                                f"{did_you_mean(fmt, options.FORMATS)}"))
         out["format"] = fmt
     if "chart" in args:
         chart = _single(args, "chart").strip().lower()
         if chart not in options.CHART_KINDS:
-            errors.append(FieldError("/chart", f"Must be one of {', '.join(options.CHART_KINDS)}, got {chart!r}."))
+            errors.append(FieldError("/chart", f"Must be one of {', '.join(options.CHART_KINDS)}, got {chart!r}."
+                                               f"{did_you_mean(chart, options.CHART_KINDS)}"))
         out["chart"] = chart
     if "vega_lite" in args:
         flag = _convert(_single(args, "vega_lite"), "boolean")
@@ -105,5 +109,6 @@ def output_options(args: MultiDict) -> dict:
             errors.append(FieldError("/vega_lite", "Must be true or false."))
         out["vega_lite"] = flag is True
     if errors:
-        raise Problem("invalid-content", f"{len(errors)} query parameter(s) are invalid; see errors.", errors)
+        raise Problem("invalid-content", f"{counted(len(errors), 'query parameter is', 'query parameters are')} "
+                                         "invalid; see errors.", errors)
     return out

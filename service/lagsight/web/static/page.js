@@ -6,103 +6,22 @@
   const API = "v1/diagnostics"; // relative, so the page also works behind a path prefix
   const TIMEOUT_MS = 60000;
   const SVG = "http://www.w3.org/2000/svg";
-  const MISSING_WORDS = new Set(["", "na", "n/a", "nan", "null", "none", "-", "#n/a"]);
 
   const $ = (id) => document.getElementById(id);
-  const state = { timestamps: null, csv: null };
+  const state = { pick: null, tableSignature: null };
 
-  // ------------------------------------------------------------------ parsing
+  // ------------------------------------------------------------------ reading the input
 
-  /** Split pasted text into numbers (null = missing). Throws an Error naming the first bad item. */
-  function parseValues(text, decimalComma) {
-    const lines = text.replace(/\r\n?/g, "\n").split("\n");
-    const out = [];
-    const separators = decimalComma ? /[\s;]+/ : /[\s;,]+/;
-    const oneColumn = lines.filter((l) => l.trim() !== "").every((l) => l.trim().split(separators).length === 1);
-    for (const line of lines) {
-      const trimmed = line.trim();
-      if (trimmed === "") {
-        if (oneColumn && out.length) out.push(null); // an empty line in a column is a missing value
-        continue;
-      }
-      for (const token of trimmed.split(separators)) {
-        if (token === "") continue;
-        out.push(parseNumber(token, decimalComma, out.length));
-      }
-    }
-    while (out.length && out[out.length - 1] === null) out.pop(); // trailing empty lines are not data
-    return out;
+  const R = window.LagsightReading;
+  const PREVIEW = 5;
+
+  function preview(values) {
+    const shown = values.length <= PREVIEW + 1 ? values
+      : values.slice(0, PREVIEW).concat(["…", values[values.length - 1]]);
+    return shown.map((v) => (v === null ? "NA" : String(v))).join(", ");
   }
 
-  function parseNumber(token, decimalComma, index) {
-    const t = token.trim().replace(/^"(.*)"$/, "$1");
-    if (MISSING_WORDS.has(t.toLowerCase())) return null;
-    let normal = t;
-    if (decimalComma) {
-      // a point is taken only as a thousands separator (1.234,5); anything else would change the number silently
-      if (t.includes(".") && !/^[+-]?\d{1,3}(\.\d{3})+(,\d*)?$/.test(t)) {
-        throw new Error(`Value ${index + 1} ("${t.slice(0, 30)}") has a decimal point; choose "point" as the decimal mark.`);
-      }
-      normal = t.replace(/\./g, "").replace(",", ".");
-    }
-    if (!/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(normal)) {
-      throw new Error(`Value ${index + 1} ("${t.slice(0, 30)}") is not a number.`);
-    }
-    const v = Number(normal);
-    if (!Number.isFinite(v)) throw new Error(`Value ${index + 1} ("${t.slice(0, 30)}") is too large.`);
-    return v;
-  }
-
-  /** A small CSV reader: delimiter sniffed from the first line, double quotes honoured, BOM dropped. */
-  function parseCsv(text) {
-    text = text.replace(/^\uFEFF/, "").replace(/\r\n?/g, "\n");
-    const first = text.split("\n", 1)[0];
-    const counts = { ";": 0, "\t": 0, ",": 0 };
-    for (const ch of first) if (ch in counts) counts[ch] += 1;
-    let delimiter = ",";
-    if (counts[";"] >= counts[","] && counts[";"] >= counts["\t"] && counts[";"] > 0) delimiter = ";";
-    else if (counts["\t"] > counts[","]) delimiter = "\t";
-    const rows = [];
-    let row = [], field = "", quoted = false;
-    for (let i = 0; i < text.length; i++) {
-      const ch = text[i];
-      if (quoted) {
-        if (ch === '"' && text[i + 1] === '"') { field += '"'; i++; }
-        else if (ch === '"') quoted = false;
-        else field += ch;
-      } else if (ch === '"') quoted = true;
-      else if (ch === delimiter) { row.push(field); field = ""; }
-      else if (ch === "\n") { row.push(field); rows.push(row); row = []; field = ""; }
-      else field += ch;
-    }
-    if (field !== "" || row.length) { row.push(field); rows.push(row); }
-    const data = rows.filter((r) => r.some((f) => f.trim() !== ""));
-    if (!data.length) throw new Error("The file has no rows.");
-    const looksNumeric = (f) => /^[+-]?[\d.,]+([eE][+-]?\d+)?$/.test(f.trim());
-    const header = !data[0].some(looksNumeric);
-    const width = Math.max(...data.map((r) => r.length));
-    const names = [];
-    for (let j = 0; j < width; j++) names.push(header && data[0][j] ? data[0][j].trim() : `column ${j + 1}`);
-    const body = header ? data.slice(1) : data;
-    const sample = body.slice(0, 50).map((r) => r.join(delimiter)).join("\n");
-    const decimalComma = delimiter !== "," && /\d,\d/.test(sample) && !/\d\.\d/.test(sample);
-    return { names, rows: body, delimiter, decimalComma };
-  }
-
-  function guessColumns(csv) {
-    const isTime = (f) => /^\d{4}-\d{2}-\d{2}([T ][\d:.]+)?(Z|[+-]\d{2}:?\d{2})?$/.test((f || "").trim());
-    let time = -1, value = -1;
-    csv.names.forEach((_, j) => {
-      const cells = csv.rows.slice(0, 20).map((r) => r[j]);
-      if (time < 0 && cells.every(isTime)) time = j;
-    });
-    csv.names.forEach((_, j) => {
-      if (value >= 0 || j === time) return;
-      const cells = csv.rows.slice(0, 20).map((r) => (r[j] || "").trim()).filter((c) => c !== "");
-      if (cells.length && cells.every((c) => /^[+-]?[\d.,]+([eE][+-]?\d+)?$/.test(c))) value = j;
-    });
-    return { time, value: value < 0 ? 0 : value };
-  }
+  const count = (n, one, many) => `${n} ${n === 1 ? one : many}`;
 
   function fillSelect(select, names, chosen, withNone) {
     select.replaceChildren();
@@ -111,44 +30,102 @@
     select.value = String(chosen);
   }
 
-  function useCsvColumns() {
-    const csv = state.csv;
-    const vj = Number($("csv-value-column").value);
-    const tj = Number($("csv-time-column").value);
-    const values = csv.rows.map((r, i) => (r[vj] === undefined ? null : parseNumber(r[vj], csv.decimalComma, i)));
-    $("values").value = values.map((v) => (v === null ? "" : String(v))).join("\n");
-    $("decimal").value = ".";
-    state.timestamps = tj >= 0 ? csv.rows.map((r) => (r[tj] || "").trim()) : null;
-    const what = `${values.length} rows; values from "${csv.names[vj]}"` +
-      (tj >= 0 ? `, timestamps from "${csv.names[tj]}"` : "") +
-      (csv.decimalComma ? ", read with decimal commas" : "") + ".";
-    $("csv-status").textContent = what;
-    updateCount();
+  /** The readings of a table's value column allowed by the decimal mark chosen (one per distinct result). */
+  function tableReadings(cells, mode) {
+    const options = [], failures = [];
+    for (const mark of mode === "auto" ? [".", ","] : [mode]) {
+      const read = R.readColumn(cells, mark);
+      const reading = { key: "cells" + mark, mark, label: `decimal ${R.MARK_NAMES[mark]}`, cells, ...read };
+      if (read.nBad) failures.push(reading);
+      else if (!options.some((o) => JSON.stringify(o.values) === JSON.stringify(read.values))) options.push(reading);
+    }
+    failures.sort((a, b) => a.nBad - b.nBad);
+    return { options, failed: options.length ? null : failures[0] };
+  }
+
+  /** What the page reads from the text box now: { values, timestamps, what } or { ask: [readings] } or { error }. */
+  function analyse() {
+    const text = $("values").value;
+    const mode = $("decimal").value;
+    const table = R.readTable(text);
+    let where = "", column = "", timestamps = null, found;
+    if (table) {
+      const signature = table.names.join("\u0000");
+      if (state.tableSignature !== signature) { // a new table: guess its columns; the user may change them
+        const guess = R.guessColumns(table);
+        fillSelect($("csv-value-column"), table.names, guess.value, false);
+        fillSelect($("csv-time-column"), table.names, guess.time, true);
+        state.tableSignature = signature;
+      }
+      const vj = Number($("csv-value-column").value), tj = Number($("csv-time-column").value);
+      found = tableReadings(R.cellsOf(table, vj), mode);
+      column = ` in column "${table.names[vj]}"`;
+      where = ` from "${table.names[vj]}"`;
+      if (tj >= 0 && tj !== vj) {
+        timestamps = R.cellsOf(table, tj).map(R.strip);
+        where += `, timestamps from "${table.names[tj]}"`;
+      }
+    } else {
+      state.tableSignature = null;
+      found = R.readText(text, mode);
+    }
+    $("csv-columns").hidden = !table;
+    const { options, failed } = found;
+    if (!options.length) {
+      if (!failed) return { values: [], timestamps: null, what: "0 values" };
+      const i = failed.bad[0], cell = R.strip(failed.cells[i]).slice(0, 30);
+      const other = failed.mark === "." ? "," : ".";
+      const hint = mode !== "auto" && R.reads(failed.cells[i], other)
+        ? `; it reads as a number with a decimal ${R.MARK_NAMES[other]}: choose "${R.MARK_NAMES[other]}" or "work it out" as the decimal mark`
+        : mode !== "auto" ? ` with a decimal ${R.MARK_NAMES[failed.mark]}` : "";
+      return { error: `Value ${i + 1}${column} ("${cell}") is not a number${hint}.` };
+    }
+    const picked = options.length === 1 ? options[0] : options.find((o) => o.key === state.pick);
+    if (!picked) return { ask: options, where };
+    const missing = picked.values.filter((v) => v === null).length;
+    const marked = table ? picked.cells.some((c) => /[.,]/.test(c)) : /[.,]/.test(text);
+    const what = count(picked.values.length, "value", "values") + (missing ? ` (${missing} missing)` : "") + where +
+      (marked || options.length > 1 ? `, read with ${picked.label}` : "") +
+      (picked.values.length ? `: ${preview(picked.values)}` : "");
+    return { values: picked.values, timestamps, what };
+  }
+
+  /** Show what was read, or ask which reading was meant; returns the analysis. */
+  function updateCount() {
+    const a = analyse();
+    const choice = $("reading-choice");
+    choice.hidden = !a.ask;
+    if (a.ask) {
+      $("values-count").textContent = "These numbers can be read in more than one way: choose one.";
+      const box = $("reading-options");
+      box.replaceChildren();
+      for (const o of a.ask) {
+        const b = document.createElement("button");
+        b.type = "button";
+        b.className = "reading-option";
+        b.dataset.key = o.key;
+        b.textContent = `${count(o.values.length, "value", "values")}: ${preview(o.values)} (${o.label})`;
+        b.addEventListener("click", () => { state.pick = o.key; updateCount(); $("values").focus(); });
+        box.append(b);
+      }
+    } else {
+      $("values-count").textContent = a.error || a.what;
+    }
+    return a;
   }
 
   async function loadFile(file) {
     hideProblem();
     try {
-      const text = await file.text();
-      const csv = parseCsv(text);
-      state.csv = csv;
-      const guess = guessColumns(csv);
-      fillSelect($("csv-value-column"), csv.names, guess.value, false);
-      fillSelect($("csv-time-column"), csv.names, guess.time, true);
-      $("csv-columns").hidden = false;
-      useCsvColumns();
+      const text = (await file.text()).replace(/^\uFEFF/, "");
+      $("values").value = text;
+      state.pick = null;
+      const a = updateCount();
+      const rows = text.split(/\r\n?|\n/).filter((l) => R.strip(l) !== "").length;
+      $("csv-status").textContent = `Read ${file.name}: ${count(rows, "line", "lines")}` +
+        (a.values ? `, ${count(a.values.length, "value", "values")}.` : ".");
     } catch (err) {
       showProblem({ title: `Could not read ${file.name}`, detail: err.message });
-    }
-  }
-
-  function updateCount() {
-    try {
-      const v = parseValues($("values").value, $("decimal").value === ",");
-      const missing = v.filter((x) => x === null).length;
-      $("values-count").textContent = `${v.length} values` + (missing ? ` (${missing} missing)` : "");
-    } catch (err) {
-      $("values-count").textContent = err.message;
     }
   }
 
@@ -163,7 +140,10 @@
   }
 
   function buildRequest() {
-    const values = parseValues($("values").value, $("decimal").value === ",");
+    const read = updateCount();
+    if (read.error) throw new Error(read.error);
+    if (read.ask) throw new Error("These numbers can be read in more than one way: choose one under Values first.");
+    const values = read.values;
     if (!values.length) throw new Error("Paste some numbers or choose a CSV file first.");
     const body = { values };
     const period = intField("period", "Seasonal period");
@@ -182,7 +162,7 @@
     if (Object.keys(transform).length) body.transform = transform;
     const name = $("series-name").value.trim();
     if (name) body.name = name;
-    if (state.timestamps && state.timestamps.length === values.length) body.timestamps = state.timestamps;
+    if (read.timestamps) body.timestamps = read.timestamps;
     return body;
   }
 
@@ -301,7 +281,7 @@
 
     const facts = [`n = ${report.n}`, `lags 1 to ${report.max_lag}`, `band level ${report.confidence * 100}%`];
     if (report.period) facts.push(`period ${report.period}` + (report.seasonal && report.seasonal.period_source === "timestamps" ? " (from timestamps)" : ""));
-    if (report.model_df) facts.push(`${report.model_df} fitted parameters`);
+    if (report.model_df) facts.push(count(report.model_df, "fitted parameter", "fitted parameters"));
     if (report.n_missing) facts.push(`${report.n_missing} missing`);
     $("facts").textContent = facts.join(" · ");
 
@@ -368,7 +348,8 @@
     const svg = el("svg", { viewBox: `0 0 ${W} ${H}`, role: "img", "aria-labelledby": `${host.id}-t ${host.id}-d` });
     el("title", { id: `${host.id}-t` }, svg).textContent = `${label} for lags 1 to ${K}`;
     el("desc", { id: `${host.id}-d` }, svg).textContent =
-      `${nOut} of ${K} lags fall outside the shaded band` + (nOut ? `: lags ${block.outside.join(", ")}.` : ".");
+      `${nOut} of ${K} ${K === 1 ? "lag" : "lags"} ${nOut === 1 ? "falls" : "fall"} outside the shaded band` +
+      (nOut ? `: ${nOut === 1 ? "lag" : "lags"} ${block.outside.join(", ")}.` : ".");
 
     for (const y of [-ymax, -ymax / 2, 0, ymax / 2, ymax]) {
       el("line", { x1: left, x2: W - right, y1: ys(y), y2: ys(y), class: "grid" }, svg);
@@ -415,19 +396,13 @@
 
   function init() {
     $("series-form").addEventListener("submit", submit);
-    $("values").addEventListener("input", () => {
-      if (state.timestamps) { // typed-over values no longer line up with the file's timestamps
-        state.timestamps = null;
-        $("csv-status").textContent += " The values were edited, so the timestamps are no longer sent.";
-      }
-      updateCount();
-    });
-    $("decimal").addEventListener("change", updateCount);
+    $("values").addEventListener("input", updateCount);
+    $("decimal").addEventListener("change", () => { state.pick = null; updateCount(); });
     $("csv-file").addEventListener("change", (e) => {
       if (e.target.files && e.target.files[0]) loadFile(e.target.files[0]);
     });
-    $("csv-value-column").addEventListener("change", useCsvColumns);
-    $("csv-time-column").addEventListener("change", useCsvColumns);
+    $("csv-value-column").addEventListener("change", updateCount);
+    $("csv-time-column").addEventListener("change", updateCount);
     const zone = $("drop-zone");
     zone.addEventListener("dragover", (e) => { e.preventDefault(); zone.classList.add("over"); });
     zone.addEventListener("dragleave", () => zone.classList.remove("over"));
