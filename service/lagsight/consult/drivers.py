@@ -28,7 +28,7 @@ def reading(name: str, moves: bool, key_lags: list[int], values: dict[int, float
             largest: dict, lags: int) -> list[str]:
     if moves:
         spikes = ", ".join(f"{k} (r = {fmt(values[k])})" for k in key_lags)
-        return [f"{name} still moves with the series: the prewhitened cross-correlation stands out at lag(s) {spikes}, "
+        return [f"{name} still moves with the series: the prewhitened cross-correlation stands out at lag{'s' if len(key_lags) > 1 else ''} {spikes}, "
                 f"{_WAY[direction(key_lags)]}. Haugh's joint test {fmt_p(haugh_p)}; largest spike "
                 f"{fmt_p(largest['p_value'])} over {lags} lags."]
     return [f"{name} shows no link with the series beyond chance: Haugh's joint test {fmt_p(haugh_p)}; the largest "
@@ -43,7 +43,7 @@ def advice(name: str, moves: bool, key_lags: list[int]) -> list[dict]:
     out = []
     leading = sorted(k for k in key_lags if k > 0)
     if leading:
-        out.append({"action": f"Add {name} as a regressor at lag(s) {lag_list(leading)} (its value that many steps "
+        out.append({"action": f"Add {name} as a regressor at lag{'s' if len(leading) > 1 else ''} {lag_list(leading)} (its value that many steps "
                               "earlier), then check the new residuals with model_df raised by the coefficients added.",
                     "reason": "The driver's earlier values still move with the series after prewhitening."})
     if 0 in key_lags:
@@ -52,7 +52,7 @@ def advice(name: str, moves: bool, key_lags: list[int]) -> list[dict]:
                     "reason": "The driver and the series move together at the same time."})
     following = sorted((k for k in key_lags if k < 0), reverse=True)
     if following:
-        out.append({"action": f"Do not expect {name} to help forecast the series at lag(s) "
+        out.append({"action": f"Do not expect {name} to help forecast the series at lag{'s' if len(following) > 1 else ''} "
                               f"{lag_list([-k for k in following])} after the series: it follows the series there.",
                     "reason": "Negative lags pair the series with later driver values: the link runs from the series "
                               "to the driver (feedback)."})

@@ -6,7 +6,7 @@ decision rule the reports carry.
 """
 from __future__ import annotations
 
-from lagsight.consult.words import fmt, fmt_p
+from lagsight.consult.words import fmt, fmt_p, plural
 
 #: Notice kinds of lagsight.engine.arima -> what they mean for the caller.
 NOTICE_WORDS = {
@@ -87,7 +87,7 @@ def comparison(before: dict, after: dict, label: str) -> dict:
 
 def cautions(searched: bool, arma_terms: int) -> list[str]:
     """What to keep in mind when reading the residuals' diagnosis."""
-    out = [f"The residual tests lose {arma_terms} degree(s) of freedom for the fitted AR and MA terms (model_df); "
+    out = [f"The residual tests lose {plural(arma_terms, 'degree')} of freedom for the fitted AR and MA terms (model_df); "
            "the chi-square p-values are large-sample approximations.",
            "A test that does not reject is not proof that the residuals are white noise, only that no structure "
            "was found at the lags checked."]

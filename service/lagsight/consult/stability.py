@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import math
 
-from lagsight.consult.words import fmt, fmt_p, pct
+from lagsight.consult.words import fmt, fmt_p, pct, plural
 
 KINDS = {"lag1_autocorrelation": "structure", "log_variance": "variance"}
 
@@ -38,7 +38,7 @@ def reading(windows: list[dict], window: int, step: int, changes: dict) -> list[
         out.append(f"None of the {span} is judged not white noise.")
     failed = len(windows) - len(judged)
     if failed:
-        out.append(f"{failed} window(s) could not be diagnosed (see their error).")
+        out.append(f"{plural(failed, 'window')} could not be diagnosed (see {'its' if failed == 1 else 'their'} error).")
     if changes["found"] is None:
         out.append(f"No change reading: {changes['note']}")
     elif not changes["found"]:

@@ -20,7 +20,7 @@ The components are
   single outlier can hide or fake a correlation, it cannot move ranks much).
 
 The smallest component p-value is referred to its own null distribution: REPLICATES i.i.d. normal series of
-about the same length (see below), seeded, with the classical statistics
+about the same length (as the next paragraph says), seeded, with the classical statistics
 (tau = 1). That is the min-p adjustment of Westfall and Young (1993): it accounts for the strong correlation among
 the components (no Bonferroni waste) and for the small-sample bias of the chi-square and normal approximations
 (the Ljung-Box test at lag K is liberal at n = 20-40). The adjusted p-value is the exact Monte Carlo one,
@@ -106,13 +106,13 @@ class Evidence:
 def simulated_length(n: int, max_lag: int) -> int:
     """The length the null is simulated at.
 
-    n itself up to EXACT_MAX_N; beyond, the largest grid length (50, 60, 70, 85, 100, 120, 150, 200, 250, 300,
+    n itself up to EXACT_MAX_N (at least max_lag + 1); beyond, the largest grid length (50, 60, 70, 85, 100, 120, 150, 200, 250, 300,
     400, then steps of a quarter) that is at most n and at most max(400, 4 K), and above K. A shorter length's
     null is the more liberal one, so the verdict errs on the safe side; the grid keeps the number of tables
     small when a batch has many lengths.
     """
     if n <= EXACT_MAX_N:
-        return n
+        return max(n, max_lag + 1)  # with missing values the observed count can be at or below max_lag
     ceiling = min(n, max(400, 4 * max_lag))
     fitting = [g for g in _grid_upto(ceiling) if g > max_lag]
     return fitting[-1] if fitting else min(n, max_lag + 1)

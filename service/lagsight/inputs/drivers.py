@@ -13,7 +13,7 @@ from marshmallow import RAISE, Schema, ValidationError, fields, validate, valida
 from lagsight import options
 from lagsight.inputs.schema import NumberArray, SeriesFields, StampList, StrictFloat, StrictInteger, stamps_match_values
 from lagsight.inputs.series import PreparedSeries, prepare
-from lagsight.problems import FieldError, Problem, invalid
+from lagsight.problems import FieldError, Problem, counted, invalid
 
 
 class DriverFields(Schema):
@@ -67,7 +67,7 @@ def line_up(series: PreparedSeries, driver: PreparedSeries, index: int) -> tuple
         pairs = [(i, where[label]) for i, label in enumerate(series.labels) if label in where]
         if len(pairs) < options.DRIVER_MIN_POINTS:
             raise invalid(f"/drivers/{index}/timestamps",
-                          f"The driver shares {len(pairs)} time(s) with the series; at least "
+                          f"The driver shares {counted(len(pairs), 'time', 'times')} with the series; at least "
                           f"{options.DRIVER_MIN_POINTS} are needed (the same spacing and stamp format on both).")
         mine, theirs = (np.array(p) for p in zip(*pairs))
         return series.values[mine], driver.values[theirs], [series.labels[i] for i in mine]

@@ -140,7 +140,7 @@ def methods():
         "across_series": _prose(across.__doc__.split("References\n----------")[0]),
         "references": _prose(DECISION_SOURCES),
         "stability": {"route": "/v1/stability", "min_window": options.STABILITY_MIN_WINDOW,
-                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": CHANGE_METHOD},
+                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": _prose(CHANGE_METHOD)},
         "driver_check": {"route": "/v1/driver-check", "max_drivers": options.DRIVER_MAX,
                          "min_points": options.DRIVER_MIN_POINTS, "method": _prose(driver_doc.split("References")[0])},
     })
