@@ -168,6 +168,7 @@ def test_the_view_calls_the_functions_the_api_calls():
 
 def test_importing_the_api_needs_neither_flask_nor_dask():
     code = ("import sys, lagsight; r = lagsight.diagnose([3.1, 2.7, 3.4, 2.9, 3.3, 2.8]); "
+            "import lagsight.distributed; "
             "print(sorted(m for m in ('flask', 'werkzeug', 'dask', 'distributed') if m in sys.modules))")
     run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert run.returncode == 0, run.stderr[-2000:]
@@ -320,3 +321,4 @@ def test_the_shared_item_preparation_matches_the_batch_view(app):
             assert plan == wplan and np.array_equal(s.values, w.values, equal_nan=True)
             assert (s.n_input, s.period, s.frequency, s.labels, s.warnings) == \
                    (w.n_input, w.period, w.frequency, w.labels, w.warnings)
+

@@ -11,7 +11,8 @@ In Python, without a server, the same answers come from :mod:`lagsight.api`::
     >>> lagsight.diagnose([3.1, 2.7, 3.4, 2.9, 3.3, 2.8, 3.0, 3.5, 2.6, 3.2])["verdict"]["white_noise"]
     True
 
-``lagsight.diagnose_many(frame)`` does a long pandas DataFrame of many series.
+``lagsight.diagnose_many(frame)`` does a long pandas DataFrame of many series, and
+``lagsight.distributed.diagnose_dask(ddf)`` a dask DataFrame (the optional extra ``lagsight[dask]``).
 Errors are raised as :class:`lagsight.LagsightError`, carrying the service's problem details.
 
 The app comes from the factory::
@@ -30,9 +31,10 @@ The package follows the one-way flow of a request, one folder per stage::
     outputs/  report shape, brief results, charts, images, CSV and JSON bytes
     serving/  the ``lagsight`` command, gunicorn settings, WSGI entry point
 
-Beside them: ``app`` (the factory), ``api`` and ``tables`` (the Python API), ``handling`` (a request's
-content checked, prepared and planned, for the views and the API alike), ``pipeline`` (runs inputs -> engine ->
-consult -> outputs), ``options`` and ``config`` (defaults, limits, settings) and ``problems`` (the error type).
+Beside them: ``app`` (the factory), ``api`` and ``tables`` (the Python API), ``distributed`` (the Dask
+path), ``handling`` (a request's content checked, prepared and planned, for the views and the API alike),
+``pipeline`` (runs inputs -> engine -> consult -> outputs), ``options`` and ``config`` (defaults, limits,
+settings) and ``problems`` (the error type).
 pyproject.toml's import-linter contracts keep the imports running one way.
 """
 from lagsight.version import __version__
