@@ -80,7 +80,7 @@ def test_a_driver_entering_at_lag_3_is_read_as_leading(client):
     d = _post(client, {"values": y.tolist(), "drivers": [{"name": "price", "values": x.tolist()}]})["drivers"][0]
     assert d["moves_with_series"] is True and 3 in d["key_lags"] and d["direction"] == "driver_leads"
     assert d["largest"]["lag"] == 3 and d["largest"]["value"] > d["simultaneous_upper"]
-    assert "lag(s) 3" in d["advice"][0]["action"] and "still moves" in d["reading"][0]
+    assert "lag 3" in d["advice"][0]["action"] and "still moves" in d["reading"][0]
 
 
 def test_a_driver_that_follows_the_series_is_read_as_feedback(client):

@@ -4,46 +4,28 @@ Bodies: application/json (the request schema) or text/csv (csv_input.py, with th
 options as query parameters). GET takes the series from the query string
 (``values=1.2,3.4,,5``; an empty item is missing) for short series and image links.
 The response format is ``format`` if given, else the best match of ``Accept``.
+The body's content is loaded, prepared and planned by :mod:`lagsight.handling`, as ``lagsight.diagnose`` does.
 """
 from __future__ import annotations
 
 from flask import Blueprint, Response, current_app, request
-from marshmallow import Schema, ValidationError
 from werkzeug.datastructures import ImmutableMultiDict
 
 from lagsight import options
+from lagsight.handling import SINGLE_LOAD, load, ready
 from lagsight.inputs import csv_input, numbers
-from lagsight.inputs.schema import (
-    DIRECT_CHECKS,
-    DIRECT_FIELDS,
-    DiagnosticsRequest,
-    DirectLoad,
-)
-from lagsight.inputs.series import prepare
 from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
-from lagsight.pipeline import plan_for, run
-from lagsight.problems import Problem, counted, flatten_messages
+from lagsight.pipeline import run
+from lagsight.problems import Problem
 from lagsight.web import budget, metrics, query
 from lagsight.web.payload import media_type, read_body, read_json_object
 from lagsight.web.responses import json_response
 
 bp = Blueprint("diagnostics", __name__)
-_SCHEMA = DiagnosticsRequest()
-_LOAD = DirectLoad(_SCHEMA, DIRECT_FIELDS, DIRECT_CHECKS)
 CSV_TYPES = ("text/csv", "application/csv")
 _ANALYSIS = (*query.ANALYSIS_PARAMS, *query.TRANSFORM_PARAMS)
 _NO_ARGS = ImmutableMultiDict()
-
-
-def load(schema: Schema | DirectLoad, body: dict) -> dict:
-    """Validate a parsed body; a failure becomes a 422 with a pointer per bad field."""
-    try:
-        return schema.load(body)
-    except ValidationError as err:
-        errors = flatten_messages(err.messages)
-        raise Problem("invalid-content", f"{counted(len(errors), 'field is', 'fields are')} invalid; see errors.",
-                      errors) from None
 
 
 def _negotiate(requested: str | None) -> str:
@@ -122,10 +104,9 @@ def diagnose():
     raw = body.pop("_raw", {})
     cfg = current_app.config
     try:
-        data = load(_LOAD, body)
+        data = load(SINGLE_LOAD, body)
         body = None  # the parsed JSON (a Python float per value) is not needed past validation: free it now
-        series = prepare(data, cfg["MAX_POINTS"])
-        plan = plan_for(series, data, cfg)
+        series, plan = ready(data, cfg)  # the same steps as lagsight.diagnose (lagsight.handling)
     except Problem as problem:
         raise _with_lines(problem, raw) from None
     budget.check(budget.engine_work(budget.Estimate(), [(series, plan)], "full"), "")

@@ -1,0 +1,230 @@
+"""Lagsight in Python: what the HTTP answers hold, without a server.
+
+>>> import lagsight
+>>> report = lagsight.diagnose([3.1, 2.7, 3.4, 2.9, 3.3, 2.8, 3.0, 3.5, 2.6, 3.2], max_lag=4)
+>>> report["verdict"]["white_noise"] in (True, False)
+True
+
+- :func:`diagnose`: one series -> the report of ``POST /v1/diagnostics`` (JSON answer) as a dict.
+- :func:`diagnose_many`: a long table of many series -> one row of results per series (a pandas
+  DataFrame, :data:`lagsight.tables.TABLE`); with ``reports=True`` also the answer of ``POST /v1/diagnostics/batch``.
+- :class:`LagsightError`: raised where the service answers with an error; it carries the same problem
+  details (status, type, title, detail, errors with JSON pointers into the equivalent request body).
+
+Options are the request's fields, by the same names, with the same defaults and checks (:mod:`lagsight.options`).
+The checks and the analysis are the service's own functions (:mod:`lagsight.handling`, :mod:`lagsight.pipeline`).
+What only protects a shared server does not apply in process: the request body size, the number of series and of
+values per batch request, the cost budget and the request deadline. The limits that concern a series (its points,
+lags, Monte Carlo replicates and simulated values) are the service's defaults (:data:`LIMITS`); ``limits={...}``
+changes them as a deployment's settings do.
+
+As in the service: a verdict of white noise is not proof of white noise, only that the sample gives no strong
+evidence of autocorrelation at the lags checked; bands and asymptotic p-values are approximate for short series;
+among many series some are flagged by chance alone, which the false-discovery q-values take into account.
+"""
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import pandas as pd
+
+from lagsight import handling, options, tables
+from lagsight.consult import across
+from lagsight.pipeline import gc_paused, run, run_blocks
+from lagsight.problems import KINDS, TYPE_PREFIX, Problem
+
+#: The limits that concern a series or a batch's analysis, as the service's defaults (settings names).
+LIMITS = {key.upper(): options.DEFAULT_LIMITS[key] for key in ("max_points", "max_lag", "max_replicates",
+                                                              "max_simulated_values")}
+#: Series prepared and analysed at a time: at most one default batch request's worth.
+CHUNK = options.DEFAULT_LIMITS["max_series"]
+
+
+class LagsightError(Problem):
+    """The error the service would answer, as an exception: RFC 9457 problem details.
+
+    ``status`` (the HTTP status), ``kind`` (the slug of ``type``), ``type``, ``title``, ``detail`` and
+    ``errors`` (each with a JSON ``pointer`` into the equivalent request body and its ``detail``);
+    ``as_dict()`` gives the problem+json body (``instance`` None: there is no request).
+    """
+
+    @classmethod
+    def of(cls, problem: Problem) -> LagsightError:
+        return cls(problem.kind, problem.detail, list(problem.errors), dict(problem.headers))
+
+    @property
+    def type(self) -> str:
+        return TYPE_PREFIX + self.kind
+
+    @property
+    def title(self) -> str:
+        return KINDS[self.kind][1]
+
+    def __reduce__(self):  # an exception pickles its args: keep every field (Dask sends errors between processes)
+        return type(self), (self.kind, self.detail, self.errors, self.headers)
+
+    def __str__(self) -> str:
+        fields = "".join(f"\n  {e.pointer or '/'}: {e.detail}" for e in self.errors)
+        return f"{self.status} {self.title}: {self.detail}{fields}"
+
+
+def limits_with(limits: Mapping | None) -> dict:
+    """:data:`LIMITS` with the given ones (settings names) in their place."""
+    out = dict(LIMITS)
+    for key, value in (limits or {}).items():
+        if key.upper() not in LIMITS:
+            raise TypeError(f"unknown limit {key!r}; the limits are {', '.join(LIMITS)}")
+        out[key.upper()] = value
+    return out
+
+
+def _failed(problem: Problem):
+    return LagsightError.of(problem)
+
+
+def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
+    """Diagnose one series: the report that ``POST /v1/diagnostics`` answers in JSON, as a dict.
+
+    Parameters
+    ----------
+    values : list, tuple, numpy.ndarray or pandas.Series
+        The series in time order; NaN, None or pandas.NA mark a missing value (see the ``missing`` option).
+        A pandas Series with a DatetimeIndex (or PeriodIndex) gives its stamps as ``timestamps``
+        (ISO 8601 text, see :func:`iso_labels`), and its name as ``name`` when it is text and no name is given.
+    limits : mapping, optional
+        Settings names (MAX_POINTS, MAX_LAG, MAX_REPLICATES, MAX_SIMULATED_VALUES) over :data:`LIMITS`.
+    **options_
+        The request's fields: ``timestamps``, ``period``, ``name``, ``missing``, ``transform``, ``max_lag``,
+        ``confidence``, ``model_df``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
+        (GET /v1/methods and openapi/openapi.yaml describe them).
+
+    Raises
+    ------
+    LagsightError
+        Where the service answers with an error (a 422 with a pointer per bad field, ...).
+    """
+    body = {"values": tables.value_list(values), **options_}
+    if isinstance(values, pd.Series):
+        index = values.index.to_timestamp() if isinstance(values.index, pd.PeriodIndex) else values.index
+        if isinstance(index, pd.DatetimeIndex):
+            if "timestamps" in options_:
+                raise TypeError("timestamps come from the Series' DatetimeIndex; do not give them twice")
+            body["timestamps"] = tables.iso_labels(index).tolist()
+        if "name" not in options_ and isinstance(values.name, str):
+            body["name"] = values.name
+    cfg = limits_with(limits)
+    try:
+        data = handling.load(handling.SINGLE_LOAD, body)
+        del body
+        series, plan = handling.ready(data, cfg)
+        return run([(series, plan)])[0]
+    except Problem as problem:
+        raise _failed(problem) from None
+
+
+def batch_options(count: int, options_: dict, limits: dict) -> dict:
+    """The shared options of a batch of ``count`` series, checked as the batch route checks them."""
+    if "series" in options_:
+        raise TypeError("the series come from the frame; 'series' is not an option here")
+    shared = handling.batch_options({"series": [None] * min(count, 1), **options_}, limits)
+    shared.pop("series")
+    return shared
+
+
+def analyse_long(long: tables.LongFrame, shared: dict, limits: dict, reports: bool = False):
+    """Every series of ``long`` through the batch route's steps, ``CHUNK`` series at a time.
+
+    Returns the table rows (request order), the answer's results (request order; None unless ``reports``),
+    the batch's summary (counts and the false-discovery reading of :mod:`lagsight.consult.across`) and, with
+    ``detail`` "brief", the cautions and pointer that a brief answer carries once (else an empty dict).
+    """
+    total = len(long)
+    rows: list = [None] * total
+    results: list | None = [None] * total if reports else None
+    tally = across.Tally(total, 1.0 - shared["confidence"])
+    notes = {"count": 0, "alpha_sum": 0, "unfitted": False}
+    detail = shared["detail"]
+    for first in range(0, total, CHUNK):
+        with gc_paused():
+            prepared, where, errors = handling.prepare_items(long.items(first, min(first + CHUNK, total)), shared,
+                                                             limits, start=first)
+            handling.check_simulation(prepared, limits)
+            if detail == "brief":
+                for _, plan in prepared:
+                    notes["count"] += 1
+                    notes["alpha_sum"] += 1.0 - plan.spec.confidence
+                    notes["unfitted"] = notes["unfitted"] or plan.spec.model_df == 0
+            for block in run_blocks(prepared, detail):
+                for j, report in block:
+                    i, item_id = where[j]
+                    result = {"id": item_id, **report}
+                    rows[i] = tables.result_row(result)
+                    verdict = result["verdict"]
+                    tally.add({"id": item_id, "verdict": {"white_noise": verdict["white_noise"],
+                                                          "tail_p_value": verdict["tail_p_value"]}},
+                              i, 1.0 - prepared[j][1].spec.confidence)
+                    if reports:
+                        results[i] = result
+            for i, result in errors:
+                rows[i] = tables.result_row(result)
+                tally.add(result)
+                if reports:
+                    results[i] = result
+    extras = handling.brief_notes(notes["count"], notes["alpha_sum"], notes["unfitted"]) if detail == "brief" else {}
+    return rows, results, tally.across(), extras
+
+
+def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time", value: str = "value", *,
+                  reports: bool = False, limits: Mapping | None = None, **options_):
+    """Diagnose every series of a long table: one row of results per series.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        One row per observation: the series' id (text or integer, as a batch item's ``id``), its time and its
+        value (NaN or NA where missing). Series come in the order of each id's first row.
+    id, value : str
+        The columns holding each row's series id and value.
+    time : str or None
+        The column that orders each series' rows: a date-time column also gives the series' ``timestamps``
+        (ISO 8601 text, so that its spacing, gaps and seasonal period are read as the service reads them); a
+        number column only orders; a text column is sent as ``timestamps`` as given (rows in frame order).
+        None: the frame's row order, no timestamps.
+    reports : bool
+        False (the default): the table alone. True: ``(table, answer)``, where ``answer`` is the dict that
+        ``POST /v1/diagnostics/batch`` answers in JSON for the same series and options (``results`` with each
+        series' full or brief report, ``summary`` with ``false_discovery``), keeping every report in memory.
+    limits : mapping, optional
+        As for :func:`diagnose`.
+    **options_
+        The batch request's shared options: ``detail`` ("full", the default, or "brief": faster, without the
+        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``band``,
+        ``tests``, ``p_values``, ``replicates``, ``seed``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The columns of :data:`lagsight.tables.TABLE`. A series that cannot be analysed has its ``error`` and nothing else; the
+        ``q_value`` column is the batch's ``summary.false_discovery.q_values``: Benjamini-Hochberg adjusted
+        ``tail_p_value`` across every series analysed (about ``1 - confidence`` of pure-noise series are called
+        not white noise one by one; a q-value at most that rate stands out after the adjustment).
+
+    Raises
+    ------
+    LagsightError
+        When the batch as a whole is refused (an invalid shared option); a bad series is a row with an error.
+    """
+    cfg = limits_with(limits)
+    long = tables.LongFrame(frame, id, time, value)
+    try:
+        shared = batch_options(len(long), options_, cfg)
+        rows, results, summary, notes = analyse_long(long, shared, cfg, reports)
+    except Problem as problem:
+        raise _failed(problem) from None
+    out = tables.table(rows, summary["false_discovery"]["q_values"], long.id_dtype)
+    if not reports:
+        return out
+    answer = {"results": results, "summary": summary}
+    if shared["detail"] == "brief":
+        answer = {"detail": shared["detail"], **answer, **notes}
+    return out, answer
