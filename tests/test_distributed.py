@@ -14,11 +14,15 @@ import lagsight
 import lagsight.distributed as on_dask
 from lagsight.api import LagsightError
 
+#: Without a dashboard the scheduler still serves HTTP, on port 8787 unless told otherwise: another cluster on the
+#: machine holding that port would make it warn (an error here). Any free port will do.
+FREE_HTTP_PORT = {"dashboard_address": "127.0.0.1:0"}
+
 
 @pytest.fixture(scope="module")
 def client():
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster, \
-            Client(cluster) as connected:
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+                      scheduler_kwargs=FREE_HTTP_PORT) as cluster, Client(cluster) as connected:
         yield connected
 
 

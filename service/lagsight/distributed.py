@@ -11,10 +11,11 @@ How it runs (see docs/DASK.md for a real cluster):
    checked and prepared as the batch route does, then the engine a block of equal plans at a time), giving the
    columns of :data:`lagsight.tables.TABLE` without the q-value.
 3. The false-discovery q-values need every series' ``tail_p_value``: one task gathers that column from every
-   partition (8 bytes per series; 100 million series make about 0.8 GB in that one task), ranks it and
-   computes the Benjamini-Hochberg q-values (:func:`lagsight.consult.across.q_values`), sorted by p-value; each
-   partition then reads its series' q-values from that list. Both steps are one task graph: each partition is
-   computed once.
+   partition (8 bytes per series), ranks it and computes the Benjamini-Hochberg q-values
+   (:func:`lagsight.consult.across.q_values`), sorted by p-value; each partition then reads its series'
+   q-values from that list. That task's peak is about 100 bytes per series (measured on 4 million: 88 beyond
+   the 8 of the gathered column), so 100 million series need about 10 GB on one worker. Both steps are one task graph: each
+   partition is computed once.
 
 The table equals :func:`lagsight.diagnose_many` on the same rows and options (tests/test_distributed.py checks
 it on a local cluster); its rows come in the shuffle's order, not in the order of each id's first row.
@@ -42,11 +43,16 @@ def _partition(frame: pd.DataFrame, id: str, time: str, value: str, shared: dict
     return tables.table(rows, [None] * len(rows), id_dtype)
 
 
-def _q_lookup(parts: list[pd.DataFrame]) -> tuple[np.ndarray, np.ndarray]:
+def _analysed_p(part: pd.DataFrame) -> np.ndarray:
+    """The tail p-values of a partition's analysed series (the only column the q-values need)."""
+    return part["tail_p_value"].to_numpy()[part["error"].isna().to_numpy()]
+
+
+def _q_lookup(parts: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
     """Every analysed series' tail p-value, sorted, and its q-value across all of them."""
-    p = np.concatenate([part["tail_p_value"].to_numpy()[part["error"].isna().to_numpy()] for part in parts])
+    p = np.concatenate(parts)
     order = np.argsort(p, kind="stable")
-    q = np.asarray(across.q_values(p.tolist()), dtype=np.float64)
+    q = np.asarray(across.q_values(p), dtype=np.float64)
     return p[order], q[order]
 
 
@@ -119,5 +125,5 @@ def diagnose_dask(ddf, id: str = "id", time: str = "time", value: str = "value",
     # The same task objects feed both steps, so that each partition is analysed once (two dask DataFrame
     # expressions over `rows` would be optimised apart, and their partitions computed twice).
     parts = rows.to_delayed()
-    lookup = dask.delayed(_q_lookup)(parts)
+    lookup = dask.delayed(_q_lookup)([dask.delayed(_analysed_p)(part) for part in parts])
     return dd.from_delayed([dask.delayed(_with_q)(part, lookup) for part in parts], meta=meta, verify_meta=False)
