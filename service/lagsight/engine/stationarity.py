@@ -101,6 +101,17 @@ def adf_rows(x: np.ndarray) -> list[tuple[float, float, int]]:
     return out
 
 
+def thin_svd(a: np.ndarray):
+    """The thin SVD of a stack of tall matrices (m, rows, k), by a QR first and the SVD of the small R.
+
+    The same factors as ``np.linalg.svd(a, full_matrices=False)`` to rounding, at a fraction of the cost when
+    rows >> k (LAPACK's SVD of a tall matrix does far more work than its QR).
+    """
+    q, r = np.linalg.qr(a)
+    ur, sv, vt = np.linalg.svd(r)
+    return np.matmul(q, ur), sv, vt
+
+
 def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     m, n = x.shape
     k = lags + 2
@@ -113,7 +124,7 @@ def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     design[:, :, -1] = 1.0
     y = dx[:, lags:]
     # statsmodels' OLS (method "pinv"): pinv from the SVD, singular values below 1e-15 x the largest dropped
-    u, sv, vt = np.linalg.svd(design, full_matrices=False)
+    u, sv, vt = thin_svd(design)
     top = np.maximum.reduce(sv, axis=1, keepdims=True)
     with np.errstate(divide="ignore"):
         inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)

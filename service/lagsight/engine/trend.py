@@ -40,6 +40,8 @@ import numpy as np
 from scipy.special import ndtr
 from statsmodels.tsa.stattools import adfuller
 
+from lagsight.engine.stationarity import thin_svd
+
 from .autocorrelation import acf, autocovariance, center
 from .stationarity import ADF_MAX_POINTS, CHUNK_VALUES, _schwert_lags
 
@@ -68,7 +70,7 @@ def ols_rows(design: np.ndarray, y: np.ndarray):
     ``stationarity._adf_block``).
     """
     k = design.shape[2]
-    u, sv, vt = np.linalg.svd(design, full_matrices=False)
+    u, sv, vt = thin_svd(design)
     top = np.maximum.reduce(sv, axis=1, keepdims=True)
     with np.errstate(divide="ignore"):
         inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)
