@@ -6,6 +6,9 @@ import statistics
 
 NOTES_START = "<!-- notes: hand-written, kept when the report is regenerated -->"
 NOTES_END = "<!-- /notes -->"
+#: The section that `python -m benchmarks.dask_bench` writes; kept as it is when the rest is regenerated.
+DASK_START = "<!-- dask-bench: written by python -m benchmarks.dask_bench, kept by make bench -->"
+DASK_END = "<!-- /dask-bench -->"
 
 
 def _ms(seconds: float | None) -> str:
@@ -22,6 +25,12 @@ def _notes(previous: str) -> str:
     if NOTES_START in previous and NOTES_END in previous:
         return previous[previous.index(NOTES_START): previous.index(NOTES_END) + len(NOTES_END)]
     return f"{NOTES_START}\n(no notes yet)\n{NOTES_END}"
+
+
+def kept_dask_section(previous: str) -> list[str]:
+    if DASK_START in previous and DASK_END in previous:
+        return [previous[previous.index(DASK_START): previous.index(DASK_END) + len(DASK_END)], ""]
+    return []
 
 
 def default_loop_seconds(batch: dict) -> float:
@@ -303,6 +312,7 @@ def render(r: dict, previous: str = "") -> str:
             " Kolmogorov-Smirnov table is shipped with the package, not computed per length).",
             "",
         ]
+    out += kept_dask_section(previous)
     out += [
         "## Analysis",
         "",

@@ -56,3 +56,19 @@ def test_cost_model_script_prints_estimate_and_measurement(capsys):
     rows = [line.split() for line in capsys.readouterr().out.splitlines()[1:] if line.strip()]
     assert len(rows) == len(cost_model.QUICK)
     assert all(float(row[-3]) > 0 and float(row[-2]) > 0 for row in rows)  # estimate and measured time
+
+
+@pytest.mark.slow
+def test_dask_benchmark_writes_its_section_and_make_bench_keeps_it(tmp_path):
+    from benchmarks import dask_bench
+
+    out = tmp_path / "BENCHMARKS.md"
+    out.write_text(f"# old\n\n## Analysis\n\n{report.NOTES_START}\nkept analysis\n{report.NOTES_END}\n")
+    result = dask_bench.main(["--quick", "--out", str(out)])
+    assert result["equal"] and all(t > 0 for runs in result["runs"].values() for t in runs)
+    text = out.read_text()
+    assert text.index(report.DASK_START) < text.index("## Analysis") and "series/s" in text
+    dask_bench.write(dask_bench.section(result), out)  # a second run replaces the section
+    assert out.read_text().count(report.DASK_START) == 1
+    kept = report.kept_dask_section(out.read_text())  # what make bench carries into the regenerated report
+    assert kept[0].startswith(report.DASK_START) and kept[0].endswith(report.DASK_END) and "series/s" in kept[0]

@@ -322,3 +322,13 @@ def test_the_shared_item_preparation_matches_the_batch_view(app):
             assert (s.n_input, s.period, s.frequency, s.labels, s.warnings) == \
                    (w.n_input, w.period, w.frequency, w.labels, w.warnings)
 
+
+def test_the_readme_python_block_runs(capsys):
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text()
+    block = text.split("<!-- readme-python:", 1)[1].split("```python\n", 1)[1].split("```", 1)[0]
+    exec(compile(block, "README.md", "exec"), {})
+    out = capsys.readouterr().out
+    assert "white noise" in out.lower() and "harbour" in out
+    assert "422 /values The series is constant" in out

@@ -78,10 +78,6 @@ def limits_with(limits: Mapping | None) -> dict:
     return out
 
 
-def _failed(problem: Problem):
-    return LagsightError.of(problem)
-
-
 def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
     """Diagnose one series: the report that ``POST /v1/diagnostics`` answers in JSON, as a dict.
 
@@ -89,8 +85,8 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
     ----------
     values : list, tuple, numpy.ndarray or pandas.Series
         The series in time order; NaN, None or pandas.NA mark a missing value (see the ``missing`` option).
-        A pandas Series with a DatetimeIndex (or PeriodIndex) gives its stamps as ``timestamps``
-        (ISO 8601 text, see :func:`iso_labels`), and its name as ``name`` when it is text and no name is given.
+        A pandas Series with a DatetimeIndex (or PeriodIndex) gives its stamps as ``timestamps`` (ISO 8601 text,
+        see :func:`lagsight.tables.iso_labels`), and its name as ``name`` when it is text and no name is given.
     limits : mapping, optional
         Settings names (MAX_POINTS, MAX_LAG, MAX_REPLICATES, MAX_SIMULATED_VALUES) over :data:`LIMITS`.
     **options_
@@ -119,7 +115,7 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
         series, plan = handling.ready(data, cfg)
         return run([(series, plan)])[0]
     except Problem as problem:
-        raise _failed(problem) from None
+        raise LagsightError.of(problem) from None
 
 
 def batch_options(count: int, options_: dict, limits: dict) -> dict:
@@ -204,10 +200,10 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
     Returns
     -------
     pandas.DataFrame
-        The columns of :data:`lagsight.tables.TABLE`. A series that cannot be analysed has its ``error`` and nothing else; the
-        ``q_value`` column is the batch's ``summary.false_discovery.q_values``: Benjamini-Hochberg adjusted
-        ``tail_p_value`` across every series analysed (about ``1 - confidence`` of pure-noise series are called
-        not white noise one by one; a q-value at most that rate stands out after the adjustment).
+        The columns of :data:`lagsight.tables.TABLE`. A series that cannot be analysed has its ``error`` and
+        nothing else; the ``q_value`` column is the batch's ``summary.false_discovery.q_values``: Benjamini-Hochberg
+        adjusted ``tail_p_value`` across every series analysed (about ``1 - confidence`` of pure-noise series are
+        called not white noise one by one; a q-value at most that rate stands out after the adjustment).
 
     Raises
     ------
@@ -220,7 +216,7 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
         shared = batch_options(len(long), options_, cfg)
         rows, results, summary, notes = analyse_long(long, shared, cfg, reports)
     except Problem as problem:
-        raise _failed(problem) from None
+        raise LagsightError.of(problem) from None
     out = tables.table(rows, summary["false_discovery"]["q_values"], long.id_dtype)
     if not reports:
         return out

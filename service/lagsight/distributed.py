@@ -14,8 +14,8 @@ How it runs (see docs/DASK.md for a real cluster):
    partition (8 bytes per series), ranks it and computes the Benjamini-Hochberg q-values
    (:func:`lagsight.consult.across.q_values`), sorted by p-value; each partition then reads its series'
    q-values from that list. That task's peak is about 100 bytes per series (measured on 4 million: 88 beyond
-   the 8 of the gathered column), so 100 million series need about 10 GB on one worker. Both steps are one task graph: each
-   partition is computed once.
+   the 8 of the gathered column), so 100 million series need about 10 GB on one worker. Both steps are one task
+   graph: each partition is computed once.
 
 The table equals :func:`lagsight.diagnose_many` on the same rows and options (tests/test_distributed.py checks
 it on a local cluster); its rows come in the shuffle's order, not in the order of each id's first row.
