@@ -25,7 +25,7 @@ URL = "/v1/diagnostics"
 WHITE_FIRST = {"nothing_to_model", "model_variance"}
 PRIMARY = {"outliers", "over_differenced", "trend", "unit_root", "seasonal", "autocorrelation"}
 #: "1 values", "1 autocorrelations": a count of one with a plural noun.
-ONE_PLURAL = re.compile(r"(?<![\d.])1 (?!of\b|or\b|to\b|and\b|is\b)([a-z]+s)\b")
+ONE_PLURAL = re.compile(r"(?<![\d.,])(?<!lag )(?<!lags )(?<!index )(?<!and )1 (?!of\b|or\b|to\b|and\b|is\b)([a-z]+s)\b")
 
 
 @pytest.fixture(scope="module")
