@@ -248,8 +248,10 @@ def test_gunicorn_master_freezes_the_preloaded_app_before_forking(tmp_path):
 
 def test_gunicorn_workers_keep_freed_array_memory_for_reuse(tmp_path):
     """With the gunicorn settings loaded, engine blocks after the first reuse the pages freed by the
-    ones before (almost no new page faults); with LAGSIGHT_HEAP_KEEP_MB=0 the C library's defaults
-    hand freed arrays back to the kernel and fault them in again. Checked in fresh interpreters."""
+    ones before (almost no new page faults). With LAGSIGHT_HEAP_KEEP_MB=0 the C library's defaults apply:
+    whether they fault the arrays in again depends on the dynamic mmap threshold that earlier frees have
+    raised, which the engine's own temporaries now often do, so that count is only shown. Checked in fresh
+    interpreters."""
     import os
     import platform
     import subprocess
@@ -272,4 +274,4 @@ def test_gunicorn_workers_keep_freed_array_memory_for_reuse(tmp_path):
         out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
         assert out.returncode == 0, out.stderr
         counts[keep] = int(out.stdout.split()[-1])
-    assert counts["64"] * 10 < counts["0"], counts
+    assert counts["64"] < 100 and counts["64"] <= counts["0"] + 20, counts
