@@ -11,7 +11,7 @@ from scipy.special import bdtrc
 
 from lagsight import options
 from lagsight.consult.decision import Decision
-from lagsight.consult.words import and_, fmt, fmt_p, plural
+from lagsight.consult.words import and_, fmt, fmt_p, plural, tests_by_name
 
 
 def cutoff(block: dict, alpha: float) -> int | None:
@@ -115,7 +115,7 @@ def _seasonal(report: dict, d: Decision) -> dict:
 
 def advice(report: dict, d: Decision) -> list[dict]:
     """The advice list: one item per named structure in order of importance, then the secondary items."""
-    tests = _group(report)
+    tests = tests_by_name(report)
     out = []
     kinds = d.structure
     explained = {"trend", "unit_root", "over_differenced"} & set(kinds)
@@ -179,10 +179,3 @@ def advice(report: dict, d: Decision) -> list[dict]:
         out.append(_item("give_period", "If the data have a natural cycle (7 for daily, 12 for monthly), send it as "
                                         "period.", "Without a period no seasonal lag is checked specifically."))
     return out
-
-
-def _group(report: dict) -> dict[str, list[dict]]:
-    grouped: dict[str, list[dict]] = {}
-    for t in report["tests"]:
-        grouped.setdefault(t["name"], []).append(t)
-    return grouped
