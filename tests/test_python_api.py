@@ -327,7 +327,7 @@ def test_the_readme_python_block_runs(capsys):
     from pathlib import Path
 
     text = (Path(__file__).resolve().parents[1] / "README.md").read_text()
-    block = text.split("<!-- readme-python:", 1)[1].split("```python\n", 1)[1].split("```", 1)[0]
+    block = text.split("<!-- example: readme-python", 1)[1].split("```python\n", 1)[1].split("```", 1)[0]
     exec(compile(block, "README.md", "exec"), {})
     out = capsys.readouterr().out
     assert "white noise" in out.lower() and "harbour" in out
