@@ -54,6 +54,12 @@ test-core: $(TEST_STAMP)
 screenshots: $(TEST_STAMP) system-tools
 	LAGSIGHT_SCREENSHOTS=docs $(BIN)/python -m pytest tests/test_page_browser.py -q
 
+# Run every example in README.md, docs/, client_examples/README.md and demo_payloads/README.md against a fresh
+# server and rewrite their shown outputs (tests/test_doc_examples.py fails when one differs).
+.PHONY: docs-examples
+docs-examples: $(TEST_STAMP) system-tools
+	$(BIN)/python -m tests.doc_examples
+
 # Speed and memory measurements (a few minutes; gunicorn on 127.0.0.1, wrk when installed): writes BENCHMARKS.md.
 bench: $(TEST_STAMP)
 	command -v wrk >/dev/null || (apt-get install -y wrk >/dev/null 2>&1 || true)

@@ -38,8 +38,8 @@ SHELL_LANGS = {"sh", "bash", "shell", "console"}
 #: A block that reads like something to run or send: it must carry an example marker.
 REQUEST_LANGS = SHELL_LANGS | {"python", "py", "js", "javascript", "powershell", "ps1", "http", "nginx", "html",
                                "java", "vb", "vba"}
-REQUEST_TEXT = re.compile(r"\bcurl\b|/v1/|(localhost|127\.0\.0\.1):\d+|\blagsight\b|^\s*(python3?|node|java|pwsh|make)\s",
-                          re.M | re.I)
+REQUEST_TEXT = re.compile(r"\bcurl\b|/v1/|(localhost|127\.0\.0\.1):\d+|\blagsight\b"
+                          r"|^\s*(python3?|node|java|pwsh|make)\s", re.MULTILINE | re.IGNORECASE)
 DOCUMENTED_BASE = re.compile(r"\b(?:localhost|127\.0\.0\.1):8000\b")
 MARKER = re.compile(r"^\s*<!--\s*(example|output):\s*(.*?)\s*-->\s*$")
 FENCE = re.compile(r"^(\s*)```([\w+-]*)\s*$")
@@ -69,9 +69,9 @@ class Block:
         return self.lang in REQUEST_LANGS or bool(REQUEST_TEXT.search(self.text))
 
 
-def blocks(doc: str) -> list[Block]:
-    """Every fenced block of a document with the marker (if any) on the line before it."""
-    lines = (ROOT / doc).read_text().splitlines()
+def blocks(doc: str, text: str | None = None) -> list[Block]:
+    """Every fenced block of a document (or of text given for it) with the marker, if any, on the line before it."""
+    lines = ((ROOT / doc).read_text() if text is None else text).splitlines()
     found, i = [], 0
     while i < len(lines):
         m = FENCE.match(lines[i])
@@ -86,7 +86,7 @@ def blocks(doc: str) -> list[Block]:
             body, _, reason = marker.group(2).partition("; not run:")  # a reason may hold ";" itself
             name, *opts = [part.strip() for part in body.split(";")]
             block.kind, block.name = marker.group(1), name
-            block.options = dict((key.strip(), value.strip()) for key, _, value in (o.partition(":") for o in opts))
+            block.options = {key.strip(): value.strip() for key, _, value in (o.partition(":") for o in opts)}
             if reason:
                 block.options["not run"] = reason.strip()
         found.append(block)
@@ -140,7 +140,7 @@ def run(block: Block, base: str) -> list[tuple[str, str]]:
             raise ValueError(f"{block.where}: no way to run a {block.lang or 'plain'} block; mark it not run")
         out = []
         for shown, argv, stdin in steps:
-            done = subprocess.run(argv, input=stdin, capture_output=True, text=True, env=env, cwd=ROOT,
+            done = subprocess.run(argv, check=False, input=stdin, capture_output=True, text=True, env=env, cwd=ROOT,
                                   timeout=RUN_TIMEOUT)
             if done.returncode != 0:
                 raise RuntimeError(f"{block.where} ({block.name}): `{shown}` exited {done.returncode}:\n"
@@ -204,7 +204,8 @@ def _one_line(value) -> str:
     if value == MORE:
         return MORE
     if isinstance(value, dict):
-        return "{" + ", ".join(MORE if k == MORE else f"{json.dumps(k)}: {_one_line(v)}" for k, v in value.items()) + "}"
+        items = (MORE if k == MORE else f"{json.dumps(k)}: {_one_line(v)}" for k, v in value.items())
+        return "{" + ", ".join(items) + "}"
     if isinstance(value, list):
         return "[" + ", ".join(_one_line(v) for v in value) + "]"
     return json.dumps(value, ensure_ascii=False)
