@@ -7,7 +7,7 @@ each block two statistics are computed: the lag-1 sample autocorrelation r_1 (th
 log of the sample variance (the level of the swings). For one statistic a_1..a_J the CUSUM statistic
 is T = max_k |S_k|, S_k = sum_{j<=k} (a_j - mean(a)), k = 1..J-1; its argmax k* says after which block
 the mean of the statistic shifts. Its p-value is a permutation p-value [1]_: T is recomputed for
-``permutations`` random orderings of the blocks and p = (1 + #{T_perm >= T}) / (1 + permutations).
+``permutations`` random orderings of the blocks and p = (1 + #{T_perm >= T}) / (1 + ``permutations``).
 Without a change the block statistics are (nearly) exchangeable, whatever the structure inside the
 blocks, so the test keeps its level for white noise and for a stable autocorrelated series alike;
 blocks of a strongly autocorrelated series are slightly dependent, which the measured rates below
@@ -22,7 +22,7 @@ use a fixed seed, so the same request gets the same answer.
 A change is located at a block boundary, so its position is known to within about one block (w
 values); a change shorter than a block, or within a block or two of either end, is hard to see.
 
-Error rates (seeded simulation of :func:`find_changes` at alpha = 0.05, n = 600, w = 40, 500 series
+Error rates (seeded simulation of this procedure (:func:`find_changes`) at alpha = 0.05, n = 600, w = 40, 500 series
 each, seed 1): a change is reported in 4.4% of white-noise series (structure 2.0%, variance 2.4%) and
 in 6.2% of AR(1) series with phi = 0.6 throughout (structure 2.8%, variance 4.2%: the log variances of
 neighbouring blocks of a persistent series are slightly dependent). White noise turning into AR(1)

@@ -2,7 +2,7 @@
 
 Prewhitening (the Box-Jenkins procedure for identifying a transfer function [1]_): an AR(p) model
 with a constant is fitted to the driver x by conditional least squares (statsmodels' ``AutoReg``),
-p chosen by AIC from 0 to ``max_order`` (``ar_select_order``, every order compared on the same
+p chosen by AIC from 0 to ``max_order`` (statsmodels' ``ar_select_order``, every order compared on the same
 sample). Its residuals alpha_t are white; the same filter applied to the centred series gives
 beta_t = (y_t - mean y) - sum_j phi_j (y_{t-j} - mean y). The sample cross-correlation
 

@@ -35,8 +35,8 @@ The Ljung-Box sum at h of the autocorrelations of the ranks of |x - mean|: clust
 make it hold for heavy-tailed values, where the squared-value test (McLeod-Li) is unreliable; its p-value is
 referred to the same simulated null.
 
-With missing or filled values (a mask), the autocorrelations are the amplitude-modulated ones of
-:mod:`.masked` with v_k = 1 / n_k, and the null is simulated at the observed length.
+With missing or filled values (a mask), the autocorrelations are the amplitude-modulated ones
+(:mod:`.masked`) with v_k = 1 / n_k, and the null is simulated at the observed length.
 
 References
 ----------

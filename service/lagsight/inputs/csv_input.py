@@ -6,8 +6,8 @@ Dialects read (query parameters, each optional)
   By default the first line decides: a tab if it has one, else a semicolon, else a comma.
 - ``decimal``: ``.`` or ``,`` (also ``point``, ``comma``). By default the mark under which
   every value cell is a number; 422 when both marks read every cell but give different
-  numbers (``1,234``). Thousands separators are read as ``numbers.py`` says (the one rule
-  for numbers written as text, shared with the query string and the page).
+  numbers (``1,234``). Thousands separators are read by the one rule for numbers written
+  as text (``numbers.py``), shared with the query string and the page.
 - ``header``: ``true`` or ``false``. By default the first line is a header when none of
   its cells is a number or an ISO 8601 date.
 - ``column``: the value column, by header name or 0-based index. By default the only

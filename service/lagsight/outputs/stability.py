@@ -11,7 +11,6 @@ import numpy as np
 from lagsight.consult import stability as reading
 from lagsight.engine.bands import normal_quantile
 from lagsight.engine.changepoints import MIN_BLOCKS, STATISTICS, Change
-from lagsight.engine.changepoints import __doc__ as CHANGE_METHOD
 
 
 def _finite(x) -> float | None:
@@ -92,6 +91,3 @@ def answer(name, n: int, width: int, step: int, confidence: float, windows: list
             "changes": changes, "reading": reading.reading(windows, width, step, changes),
             "chart": chart(windows, width, confidence, labels, changes),
             "cautions": reading.cautions(len(windows), confidence)}
-
-
-METHOD = " ".join(CHANGE_METHOD.split("References")[0].split())

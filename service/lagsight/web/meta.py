@@ -9,7 +9,7 @@ from lagsight import options
 from lagsight.consult import across, advice
 from lagsight.consult.decision import __doc__ as DECISION_RULE
 from lagsight.consult.words import MEANINGS
-from lagsight.engine import stl, whiteness
+from lagsight.engine import changepoints, stl, whiteness
 from lagsight.engine.crosscorrelation import __doc__ as driver_doc
 from lagsight.engine.masked import __doc__ as masked_doc
 from lagsight.engine.portmanteau import PORTMANTEAU_TESTS
@@ -22,7 +22,6 @@ from lagsight.outputs.brief import FIELDS as BRIEF_FIELDS
 from lagsight.outputs.charts import MAX_TIME_POINTS
 from lagsight.outputs.charts import __doc__ as charts_doc
 from lagsight.outputs.csv_table import COLUMNS as CSV_COLUMNS
-from lagsight.outputs.stability import METHOD as CHANGE_METHOD
 from lagsight.version import __version__
 from lagsight.web import budget, query
 from lagsight.web.responses import json_response
@@ -32,23 +31,61 @@ bp = Blueprint("meta", __name__)
 
 def _number(name: str, constants: dict) -> str | None:
     value = constants.get(name, getattr(options, name, None))
-    return f"{value:,g}" if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+    if isinstance(value, str):
+        return value
+    if isinstance(value, int) and not isinstance(value, bool):
+        return f"{value:,}"
+    return f"{value:,g}" if isinstance(value, float) else None
 
 
-def _prose(text: str, **constants) -> str:
-    """A docstring section as one line of plain words: no cross-reference markup, no citation marks, and a
+def _sources(doc: str) -> dict[str, str]:
+    """A docstring's numbered references as short citations: "[2]" -> "Haugh 1976"."""
+    found = {}
+    for number, authors, year in re.findall(r"^\.\. \[(\d+)\] (.+?)\s*\((\d{4})\)", doc, re.M):
+        found[number] = re.sub(r",?(?: [A-Z]\.)+", "", authors).strip(" ,") + f" {year}"
+    return found
+
+
+def _citations(text: str, doc: str) -> str:
+    """Citation marks ([1]_, [2]_) as the works they point to: "(Parzen 1963; Dunsmuir and Robinson 1981)",
+    without the brackets inside parentheses or after "from"; marks with no reference list are dropped."""
+    sources = _sources(doc)
+
+    def cite(m: re.Match) -> str:
+        works = "; ".join(sources[n] for n in re.findall(r"\[(\d+)\]_", m.group(0)) if n in sources)
+        before = text[:m.start()]
+        if not works:
+            return m.group(2) or ""
+        if re.search(r"(?:\(|,|\bfrom)$", before):
+            return m.group(1) + works + (m.group(2) or "")
+        if m.group(2):  # a parenthesis right after: one pair of them
+            return f"{m.group(1)}({works}; "
+        return f"{m.group(1)}({works})"
+
+    return re.sub(r"(\s*)\[\d+\]_(?:,\s*\[\d+\]_)*( \()?", cite, text)
+
+
+def _prose(text: str, doc: str = "", **constants) -> str:
+    """A docstring section as one line of plain words: no cross-reference markup, citation marks as the works
+    cited (from ``doc``'s references), no pointers into the source, Python operators as formulas, and a
     constant named in the source (``options.MIN_OBSERVED_SHARE``, or one of ``constants``) given as its value."""
     def value(m: re.Match) -> str:
-        number = _number(m.group(1) or m.group(2), constants)
+        number = _number(m.group(1) or m.group(2) or m.group(4), constants)
         if number is None:
             return m.group(0)
         return number + (m.group(3) if m.group(3) and m.group(3) != f" ({number})" else "")
 
-    text = re.sub(r"(?:``(?:options\.)?([A-Z][A-Z0-9_]+)``|options\.([A-Z][A-Z0-9_]+))( \([^)]*\))?", value, text)
-    text = re.sub(r"\s*\(see\s+:[a-z]+:`[^`]+`\)", "", text)  # a pointer into the source, not a word
+    names = "|".join(sorted((c for c in constants if c.isupper()), key=len, reverse=True)) or "(?!)"  # bare: capitals
+    text = re.sub(rf"(?:``(?:options\.)?([A-Za-z][A-Za-z0-9_]+)``|options\.([A-Z][A-Z0-9_]+))( \([^)]*\))?"
+                  rf"|\b({names})\b(?!\()", value, text)
+    text = re.sub(r"\s*\((?:see\s+)?:[a-z]+:`[^`]+`\)", "", text)  # a pointer into the source, not a word
+    text = re.sub(r"\s*\(see (?:``[\w.]+``|[\w/]+\.py)\)|,?\s*see (?:``[\w.]+``|[\w/]+\.py)", "", text)
+    text = re.sub(r"(?m)^(\S[^\n]*)\n-{3,}\n", r"\1: ", text)  # a section heading, underlined
+    text = re.sub(r"\s*\(``(?:options|lagsight)\.[\w.]+``\)|\s*\(``[\w/]+\.py``\)", "", text)
     text = re.sub(r":[a-z]+:`~?\.?([^`]+)`", r"\1", text)
-    text = re.sub(r"\s*\[\d+\]_(?:,\s*\[\d+\]_)*", "", text)
-    text = re.sub(r"\s*\(``(?:options|lagsight)\.[\w.]+``\)", "", text)  # a pointer into the source, not a word
+    text = _citations(text, doc)
+    text = re.sub(r"\b(\w+) // (\w+)", r"floor(\1 / \2)", text)  # Python's operators, written as formulas
+    text = re.sub(r"(\w)\*\*(\w)", r"\1^\2", text)
     return " ".join(text.replace("``", "").split())
 
 
@@ -95,9 +132,9 @@ def methods():
                            "maximum": cfg["MAX_REPLICATES"]},
             "seed": {"default": None, "minimum": 0},
             "missing": {"default": options.DEFAULT_MISSING, "enum": list(options.MISSING_METHODS),
-                        "pairwise": _prose(masked_doc.split("Notes\n-----")[1].split("References")[0])},
+                        "pairwise": _prose(masked_doc.split("Notes\n-----")[1].split("References")[0], masked_doc)},
             "transform": {"order": list(options.TRANSFORM_ORDER),
-                          "rules": _prose(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1])},
+                          "rules": _prose(transforms_doc.split("Missing values")[0].split("\n\n", 1)[1], transforms_doc)},
         },
         "small_sample_threshold": {"n": options.SMALL_SAMPLE_N, "why": (
             "Below this length the chi-square p-values drift from their nominal level (simulated here: the 5% "
@@ -135,14 +172,20 @@ def methods():
                        "brief_fields": ["id", *BRIEF_FIELDS]},
         },
         "decision_rule": _prose(DECISION_RULE.split("-" * 74)[1]),
-        "evidence": _prose(whiteness.__doc__.split("References\n----------")[0]),
+        "evidence": _prose(whiteness.__doc__.split("References\n----------")[0], whiteness.__doc__,
+                           REPLICATES=whiteness.REPLICATES, EXACT_MAX_N=whiteness.EXACT_MAX_N,
+                           MAX_SIMULATED=whiteness.MAX_SIMULATED),
         "advice_codes": {"codes": list(advice.CODES), "rule": _prose(advice.__doc__)},
-        "across_series": _prose(across.__doc__.split("References\n----------")[0]),
+        "across_series": _prose(across.__doc__.split("References\n----------")[0], across.__doc__),
         "references": _prose(DECISION_SOURCES),
         "stability": {"route": "/v1/stability", "min_window": options.STABILITY_MIN_WINDOW,
-                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": _prose(CHANGE_METHOD)},
+                      "max_windows": options.STABILITY_MAX_WINDOWS, "change_points": _prose(
+                          changepoints.__doc__.split("References")[0], changepoints.__doc__,
+                          permutations=changepoints.PERMUTATIONS, min_blocks=changepoints.MIN_BLOCKS,
+                          max_changes=changepoints.MAX_CHANGES)},
         "driver_check": {"route": "/v1/driver-check", "max_drivers": options.DRIVER_MAX,
-                         "min_points": options.DRIVER_MIN_POINTS, "method": _prose(driver_doc.split("References")[0])},
+                         "min_points": options.DRIVER_MIN_POINTS, "method": _prose(driver_doc.split("References")[0], driver_doc,
+                                                           max_order=f"min({options.DRIVER_MAX_AR_ORDER}, n // 10)")},
     })
 
 
