@@ -10,8 +10,8 @@ Each fenced block that a reader would run carries a marker, an HTML comment on t
 Output options, separated by ";": ``show: PATHS`` keeps only those parts of a JSON answer (``verdict.summary``,
 ``advice[].code`` for one key of every item, ``tests[:2]`` for the first two items), with ``...`` where parts
 were left out; ``round: D`` rounds its numbers to D decimals; ``head: N`` and ``tail: M`` keep the first N and
-last M lines of each command's output. A block of several commands shows a transcript (``$ command`` then its
-output).
+last M lines of each command's output. Without options a JSON answer is shown whole, laid out as the excerpts
+are. A block of several commands shows a transcript (``$ command`` then its output).
 
     python -m tests.doc_examples           start a server, run every example, rewrite the output blocks
     python -m tests.doc_examples --check   the same, but only report the blocks that differ (exit 1)
@@ -246,6 +246,11 @@ def render(results: list[tuple[str, str]], options: dict[str, str]) -> str:
         (_, stdout), = results
         shown = _project(json.loads(stdout), _selection(options["show"]))
         return _dump(_rounded(shown, int(options["round"])) if "round" in options else shown)
+    if len(results) == 1 and head is None and tail is None:
+        try:  # a JSON answer shown whole, laid out as the excerpts are
+            return _dump(json.loads(results[0][1]))
+        except ValueError:
+            pass
     if len(results) == 1:
         return "\n".join(_cut(results[0][1], head, tail))
     return "\n".join(line for cmd, stdout in results for line in [f"$ {cmd}", *_cut(stdout, head, tail)])
