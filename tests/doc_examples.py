@@ -287,7 +287,10 @@ def run_all(base: str) -> dict[str, str]:
     for block in examples():
         if not_run(block) is None:
             results = run(block, base)
-            fresh[block.name] = render(results, outputs[block.name].options) if block.name in outputs else ""
+            try:
+                fresh[block.name] = render(results, outputs[block.name].options) if block.name in outputs else ""
+            except (KeyError, ValueError) as error:  # a path the answer no longer has, an answer that is not JSON
+                raise RuntimeError(f"{outputs[block.name].where} ({block.name}): {error}") from error
     return fresh
 
 
@@ -301,18 +304,24 @@ def differences(fresh: dict[str, str]) -> list[str]:
     return out
 
 
+def rewritten(doc: str, text: str, fresh: dict[str, str]) -> str:
+    """A document's text with each output block named in fresh holding its new text (indented as the block is)."""
+    lines = text.splitlines()
+    for block in reversed([b for b in blocks(doc, text) if b.kind == "output" and b.name in fresh]):
+        lines[block.open_line + 1:block.close_line] = [block.indent + line if line else line
+                                                       for line in fresh[block.name].splitlines()]
+    return "\n".join(lines) + "\n"
+
+
 def rewrite(fresh: dict[str, str]) -> list[str]:
-    """Write each output block's new text into its document; returns the names of the blocks changed."""
+    """Write each output block's new text into its document; returns the documents changed."""
     changed = []
     for doc in DOCS:
-        lines, before = (ROOT / doc).read_text().splitlines(), len(changed)
-        for block in reversed([b for b in blocks(doc) if b.kind == "output" and b.name in fresh]):
-            if block.text != fresh[block.name]:
-                body = [block.indent + line if line else line for line in fresh[block.name].splitlines()]
-                lines[block.open_line + 1:block.close_line] = body
-                changed.append(block.name)
-        if len(changed) > before:
-            (ROOT / doc).write_text("\n".join(lines) + "\n")
+        text = (ROOT / doc).read_text()
+        new = rewritten(doc, text, fresh)
+        if new != text:
+            (ROOT / doc).write_text(new)
+            changed.append(doc)
     return changed
 
 
@@ -328,7 +337,7 @@ def main(argv: list[str]) -> int:
         print("\n\n".join(diffs) or f"{len(fresh)} examples run; every shown output is what the service answered")
         return 1 if diffs else 0
     changed = rewrite(fresh)
-    print(f"{len(fresh)} examples run; output blocks rewritten: {', '.join(changed) or 'none'}")
+    print(f"{len(fresh)} examples run; documents rewritten: {', '.join(changed) or 'none'}")
     return 0
 
 

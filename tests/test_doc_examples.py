@@ -95,6 +95,18 @@ def test_a_changed_answer_is_a_difference_and_a_volatile_value_is_not():
     assert ex.normalised(text) == ex.normalised('{"version": "1.3.0", "request_id": "' + "f" * 32 + '"}')
 
 
+def test_rewriting_changes_only_the_output_blocks_and_keeps_their_indent():
+    doc = "docs/DATA_IN_OUT.md"
+    text = (ex.ROOT / doc).read_text()
+    assert ex.rewritten(doc, text, {}) == text
+    new = ex.rewritten(doc, text, {"csv-table": "lag,acf\n1,0.5", "csv-body": "{}"})
+    assert "\n  <!-- output: csv-table; head: 3 -->\n  ```text\n  lag,acf\n  1,0.5\n  ```\n" in new
+    outputs = {b.name: b.text for b in ex.blocks(doc, new) if b.kind == "output"}
+    assert outputs == {"csv-table": "lag,acf\n1,0.5", "csv-body": "{}"}
+    assert [b.text for b in ex.blocks(doc, new) if b.kind != "output"] == [
+        b.text for b in ex.blocks(doc, text) if b.kind != "output"]
+
+
 @pytest.fixture(scope="module")
 def answered(live_server) -> dict[str, str]:
     """Every example that runs, run once against the live server: name -> its output block's text."""
