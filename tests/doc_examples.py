@@ -5,7 +5,8 @@ Each fenced block that a reader would run carries a marker, an HTML comment on t
 
     <!-- example: NAME -->                     run the block (shell commands one by one, or a Python snippet)
     <!-- example: NAME; not run: REASON -->    a block that cannot run here, and why
-    <!-- output: NAME; OPTIONS -->             the next block is NAME's output, written by this tool
+    <!-- output: NAME; OPTIONS -->             the next block is NAME's output, written by this tool (which adds
+                                               one after an example that has none)
 
 Output options, separated by ";": ``show: PATHS`` keeps only those parts of a JSON answer (``verdict.summary``,
 ``advice[].code`` for one key of every item, ``tests[:2]`` for the first two items), with ``...`` where parts
@@ -281,16 +282,17 @@ def output_blocks() -> dict[str, Block]:
 
 
 def run_all(base: str) -> dict[str, str]:
-    """Every example that runs, run against base: name -> the text its output block should hold ("" if none)."""
+    """Every example that runs, run against base: name -> the text its output block should hold."""
     outputs = output_blocks()
     fresh = {}
     for block in examples():
         if not_run(block) is None:
             results = run(block, base)
+            where = outputs[block.name] if block.name in outputs else block
             try:
-                fresh[block.name] = render(results, outputs[block.name].options) if block.name in outputs else ""
+                fresh[block.name] = render(results, where.options if where.kind == "output" else {})
             except (KeyError, ValueError) as error:  # a path the answer no longer has, an answer that is not JSON
-                raise RuntimeError(f"{outputs[block.name].where} ({block.name}): {error}") from error
+                raise RuntimeError(f"{where.where} ({block.name}): {error}") from error
     return fresh
 
 
@@ -305,11 +307,19 @@ def differences(fresh: dict[str, str]) -> list[str]:
 
 
 def rewritten(doc: str, text: str, fresh: dict[str, str]) -> str:
-    """A document's text with each output block named in fresh holding its new text (indented as the block is)."""
-    lines = text.splitlines()
-    for block in reversed([b for b in blocks(doc, text) if b.kind == "output" and b.name in fresh]):
-        lines[block.open_line + 1:block.close_line] = [block.indent + line if line else line
-                                                       for line in fresh[block.name].splitlines()]
+    """A document's text with each output block named in fresh holding its new text (indented as the block is);
+    an example that runs and has no output block yet gets one after it."""
+    lines, found = text.splitlines(), blocks(doc, text)
+    shown = {b.name for b in found if b.kind == "output"}
+    for block in reversed([b for b in found if b.name in fresh and (b.kind == "output" or b.name not in shown)]):
+        body = [block.indent + line if line else line for line in fresh[block.name].splitlines()]
+        if block.kind == "output":
+            lines[block.open_line + 1:block.close_line] = body
+        else:
+            lang = "json" if fresh[block.name].startswith("{") else "text"
+            lines[block.close_line + 1:block.close_line + 1] = [
+                "", f"{block.indent}<!-- output: {block.name} -->", f"{block.indent}```{lang}", *body,
+                f"{block.indent}```"]
     return "\n".join(lines) + "\n"
 
 

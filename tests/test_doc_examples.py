@@ -54,7 +54,7 @@ def test_names_are_unique_and_each_output_follows_its_example():
         example = by_name.get(name)
         assert example and example.doc == out.doc and example.close_line < out.open_line, out.where
         assert ex.not_run(example) is None, f"{out.where}: an output for an example that is not run"
-    assert set(RUNNING) == set(outputs), "every example that runs shows its output"
+    assert set(RUNNING) == set(outputs), "every example that runs shows its output: run `make docs-examples`"
 
 
 def test_the_examples_not_run_are_few_and_say_why():
@@ -105,6 +105,14 @@ def test_rewriting_changes_only_the_output_blocks_and_keeps_their_indent():
     assert outputs == {"csv-table": "lag,acf\n1,0.5", "csv-body": "{}"}
     assert [b.text for b in ex.blocks(doc, new) if b.kind != "output"] == [
         b.text for b in ex.blocks(doc, text) if b.kind != "output"]
+
+
+def test_a_new_example_gets_its_output_block():
+    text = "Try:\n\n<!-- example: health -->\n```sh\ncurl -s localhost:8000/healthz\n```\n\nMore.\n"
+    new = ex.rewritten("new.md", text, {"health": '{"status": "ok"}'})
+    assert new == ("Try:\n\n<!-- example: health -->\n```sh\ncurl -s localhost:8000/healthz\n```\n\n"
+                   '<!-- output: health -->\n```json\n{"status": "ok"}\n```\n\nMore.\n')
+    assert ex.rewritten("new.md", new, {"health": '{"status": "ok"}'}) == new
 
 
 @pytest.fixture(scope="module")
