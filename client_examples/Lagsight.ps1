@@ -89,6 +89,6 @@ else {
         }
     }
     $s = $answer.summary
-    Write-Output "summary: $($s.white_noise) white noise, $($s.not_white_noise) not white noise, $($s.undetermined) undetermined, $($s.errors) errors"
+    Write-Output "summary: $($s.white_noise) white noise, $($s.not_white_noise) not white noise, $($s.undetermined) undetermined, $($s.errors) $(if ($s.errors -eq 1) { 'error' } else { 'errors' })"
 }
 exit 0

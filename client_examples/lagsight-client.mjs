@@ -64,7 +64,7 @@ function printBatch(answer) {
     : `${r.id}: ${word(r.verdict.white_noise)}; ACF outside: ${lags(r.acf.outside)}`));
   const s = answer.summary;
   lines.push(`summary: ${s.white_noise} white noise, ${s.not_white_noise} not white noise, ` +
-    `${s.undetermined} undetermined, ${s.errors} errors`);
+    `${s.undetermined} undetermined, ${s.errors} ${s.errors === 1 ? "error" : "errors"}`);
   console.log(lines.join("\n"));
 }
 

@@ -76,7 +76,7 @@ elif [ "$1" = model-check ]; then
 elif [ "$1" = stability ]; then
   jq -r '
     (.name // "(unnamed)"),
-    (.counts | "windows: \(.windows) (\(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) errors)"),
+    (.counts | "windows: \(.windows) (\(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) error\(if .errors == 1 then "" else "s" end))"),
     (if .changes.found == null then "changes: not computed"
      elif (.changes.found | length) == 0 then "changes: none found"
      else (.changes.found[] | "change: \(.kind) at \(.time // "index \(.index)"), p = \(.p_value)") end)' "$answer"
@@ -89,5 +89,5 @@ else
   jq -r "$filters"'
     (.results[] | if .error then "\(.id): error \(.error.status): \(.error.detail)"
                   else "\(.id): \(.verdict.white_noise | word); ACF outside: \(.acf.outside | lags)" end),
-    (.summary | "summary: \(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) errors")' "$answer"
+    (.summary | "summary: \(.white_noise) white noise, \(.not_white_noise) not white noise, \(.undetermined) undetermined, \(.errors) error\(if .errors == 1 then "" else "s" end)")' "$answer"
 fi

@@ -110,7 +110,7 @@ def print_batch(answer: dict) -> None:
                   f"ACF outside: {lag_list(result['acf']['outside'])}")
     s = answer["summary"]
     print(f"summary: {s['white_noise']} white noise, {s['not_white_noise']} not white noise, "
-          f"{s['undetermined']} undetermined, {s['errors']} errors")
+          f"{s['undetermined']} undetermined, {s['errors']} {'error' if s['errors'] == 1 else 'errors'}")
 
 
 def print_model_check(answer: dict) -> None:
@@ -126,7 +126,7 @@ def print_stability(answer: dict) -> None:
     n = answer["counts"]
     print(answer.get("name") or "(unnamed)")
     print(f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white noise, "
-          f"{n['undetermined']} undetermined, {n['errors']} errors)")
+          f"{n['undetermined']} undetermined, {n['errors']} {'error' if n['errors'] == 1 else 'errors'})")
     found = answer["changes"]["found"]
     if found is None:
         print("changes: not computed")

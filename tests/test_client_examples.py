@@ -29,7 +29,14 @@ DEMO = ROOT / "demo_payloads"
 RUN_TIMEOUT = 120  # seconds a client run may take before the test gives up on it
 
 
+def count_word(count: int, word: str) -> str:
+    """A count's noun in the number the clients print: one error, two errors."""
+    return word if count == 1 else word + "s"
+
+
+
 @pytest.fixture(scope="module")
+
 def java_classes(tmp_path_factory) -> Path:
     """The Java client compiled with javac (warnings as errors)."""
     javac = shutil.which("javac")
@@ -91,7 +98,7 @@ def expected_batch(answer: dict) -> list[str]:
              for r in answer["results"]]
     s = answer["summary"]
     return lines + [f"summary: {s['white_noise']} white noise, {s['not_white_noise']} not white noise, "
-                    f"{s['undetermined']} undetermined, {s['errors']} errors"]
+                    f"{s['undetermined']} undetermined, {s['errors']} {count_word(s['errors'], 'error')}"]
 
 
 @pytest.mark.parametrize("payload", ["bakery_daily_residuals", "call_centre_hourly_wait_residuals"])
@@ -139,7 +146,7 @@ def test_stability_prints_the_window_counts_and_the_changes(client, live_server)
     changes = [f"change: {c['kind']} at {c['time']}, p = {c['p_value']}" for c in answer["changes"]["found"]]
     assert changes and done.stdout.splitlines() == [
         answer["name"], f"windows: {n['windows']} ({n['white_noise']} white noise, {n['not_white_noise']} not white "
-                        f"noise, {n['undetermined']} undetermined, {n['errors']} errors)", *changes]
+                        f"noise, {n['undetermined']} undetermined, {n['errors']} {count_word(n['errors'], 'error')})", *changes]
 
 
 @pytest.mark.parametrize("client", ["curl", "python"], indirect=True)

@@ -123,7 +123,8 @@ public final class LagsightClient {
         out.append("summary: ").append(Json.number(s.get("white_noise"))).append(" white noise, ")
                 .append(Json.number(s.get("not_white_noise"))).append(" not white noise, ")
                 .append(Json.number(s.get("undetermined"))).append(" undetermined, ")
-                .append(Json.number(s.get("errors"))).append(" errors");
+                .append(Json.number(s.get("errors")))
+                .append(Json.number(s.get("errors")).equals("1") ? " error" : " errors");
         System.out.println(out);
     }
 
