@@ -33,6 +33,7 @@ def _worker_pid(tmp_path) -> int:
 
 
 @pytest.mark.slow
+@pytest.mark.skipif(not Path("/proc/self/statm").exists(), reason="resident memory is read from /proc")
 def test_a_worker_is_back_near_its_idle_size_after_a_big_batch_or_recycled(tmp_path):
     """With the default settings (no LAGSIGHT_* memory variable set), one worker answers a batch of 2,000 series of
     250 values (the full JSON answer, about 70 MiB), which takes it far above its idle size. Within a few seconds it
@@ -63,11 +64,12 @@ def test_a_worker_is_back_near_its_idle_size_after_a_big_batch_or_recycled(tmp_p
             replacement = _worker_pid(tmp_path)
             assert replacement != pid and rss is None
             rss = _rss_mib(replacement)
-        else:
-            assert "released" in lines[-1]
+        else:  # pages handed back, or already back by the time the worker looked
+            assert "released" in lines[-1] or "settled" in lines[-1]
         assert rss <= 1.2 * idle, (idle, rss, lines)
 
 
+@pytest.mark.skipif(not Path("/proc/self/statm").exists(), reason="resident memory is read from /proc")
 def test_memory_held_by_live_objects_recycles_the_worker_and_freed_memory_does_not():
     """MemoryReturn against this process's real resident memory: 40% more held by a live array is over the bound
     and asks for a recycle; once the array is freed the process is within the bound and nothing is asked."""
