@@ -75,3 +75,14 @@ def test_broken_json_after_a_mark_gets_a_plain_400(client, body, says):
     assert problem["type"] == "urn:lagsight:problem:malformed-json" and says in problem["detail"]
     for internal in ("utf-8-sig", "decode", "Traceback", "Error", "b'", "\\x"):
         assert internal not in problem["detail"], problem["detail"]
+
+
+@pytest.mark.parametrize("seed", [9223372036854775807, 9223372036854775806, 9007199254740993])
+def test_an_integer_in_the_query_is_read_exactly(client, seed):
+    """Integers in the query string are read digit by digit: read through a float, 2**63 - 1 became 2**63 and was
+    refused as above the maximum (found by schemathesis at the schema's bound), and 2**53 + 1 became 2**53."""
+    r = client.get(f"{URL}?values=1.5,-0.2,0.7,-1.1,0.4,0.9,-0.3,0.2&p_values=monte_carlo&replicates=99&seed={seed}")
+    assert r.status_code == 200, r.get_data()[:300]
+    assert r.get_json()["p_values"]["seed"] == seed
+    above = client.get(f"{URL}?values=1.5,-0.2,0.7,-1.1,0.4,0.9,-0.3,0.2&seed=9223372036854775808")
+    assert _problem(above, 422)["errors"][0]["pointer"] == "/seed"

@@ -164,5 +164,21 @@ def render(report: dict, chart: str, fmt: str) -> bytes:
     return buf.getvalue()
 
 
+def warm() -> None:
+    """Import matplotlib and draw one small PNG and SVG, so its modules, fonts and caches are loaded now.
+
+    gunicorn's master calls this before it forks (serving/gunicorn_conf.py): every worker then shares them
+    instead of each loading about 30 MiB on its first image, which would also count against the worker's
+    idle size when it gives memory back (serving/heap.py).
+    """
+    matplotlib, Figure, _, _ = _mpl()
+    with matplotlib.rc_context(_RC):
+        fig = Figure(figsize=(1, 1), dpi=DPI)
+        fig.subplots().plot([0, 1], [0, 1])
+        fig.text(0.5, 0.5, "0", fontsize=9)
+        for fmt in ("png", "svg"):
+            fig.savefig(io.BytesIO(), format=fmt, dpi=DPI)
+
+
 #: The style settings and helpers, for other images drawn the same way (outputs/stability_image.py).
 RC, matplotlib_parts, tidy = _RC, _mpl, _tidy

@@ -96,9 +96,26 @@ def post_worker_init(worker):
 
     worker.handle_exit = stop_listening_then_drain
     signal.signal(signal.SIGTERM, stop_listening_then_drain)
+    # Memory back after large requests (lagsight.serving.heap.MemoryReturn): idle size noted now; a worker still
+    # over it by more than 20% after freeing stops like on SIGTERM (finishing any request in hand) and the
+    # master forks a fresh one.
+    worker.memory_return = heap.MemoryReturn(
+        recycle=lambda: os.kill(os.getpid(), signal.SIGTERM),
+        report=lambda figures: worker.log.info(
+            "worker memory after a large request: %(outcome)s (idle %(idle_mib)s MiB, before %(before_mib)s, "
+            "after %(after_mib)s, bound %(bound_mib)s)", figures))
+    worker.memory_return.start()
+
+
+def post_request(worker, req, environ, resp):
+    """Give memory back after a request that left the worker well above its idle size (or recycle it)."""
+    worker.memory_return.after_request()
 
 
 pre_request = server_errors.before_request  # a stopped worker's answer must not reuse the previous request's id
+
+
+_warmed = False
 
 
 def pre_fork(server, worker):
@@ -110,6 +127,12 @@ def pre_fork(server, worker):
     request queued behind it. It also keeps the collector from writing to pages the workers share
     with the master. Requests' own objects are collected as usual.
     """
+    global _warmed
+    if not _warmed:  # once, before the first fork: the image renderer's modules shared by every worker
+        from lagsight.outputs import render
+
+        render.warm()
+        _warmed = True
     gc.freeze()
 
 

@@ -38,6 +38,11 @@ def _convert(text: str, kind: str):
         return None
     if kind == "boolean":
         return {"true": True, "false": False}.get(text.strip().lower(), text)
+    if kind == "integer":
+        try:  # exactly, digit by digit: through a float, a seed near 2**63 would change or pass the maximum
+            return int(text)
+        except ValueError:
+            pass
     try:
         number = float(text)
     except ValueError:
