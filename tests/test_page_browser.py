@@ -81,9 +81,9 @@ def test_pasted_white_noise_series_shows_verdict_and_both_charts(page, live_serv
     assert "n = 56" in page.inner_text("#facts") and "period 7" in page.inner_text("#facts")
     for chart in ("#acf-chart", "#pacf-chart"):
         assert page.locator(f"{chart} svg polygon.band").count() == 1  # the band is one shaded region
-        assert page.locator(f"{chart} svg rect.spike").count() == 17  # one spike per lag 1..max_lag
+        assert page.locator(f"{chart} svg rect.bar").count() == 17  # one bar per lag 1..max_lag
         assert page.locator(f"{chart} svg .mark").count() == 2  # seasonal lags 7 and 14
-    assert page.locator("#acf-chart rect.spike.outside").count() == 0
+    assert page.locator("#acf-chart rect.bar:not(.inside)").count() == 0
     assert page.locator("#cautions li").count() >= 2
     assert page.locator("#tests-table tbody tr").count() >= 4
     page.screenshot(path=str(shots / "page-white-noise.png"), full_page=True)
@@ -93,7 +93,7 @@ def test_seasonal_residuals_show_spikes_outside_the_band_and_advice(page, live_s
     page.goto(live_server + "/")
     _check(page, _demo("ice_cream_kiosk_daily_residuals"))
     assert page.inner_text("#verdict").startswith("Not white noise")
-    outside = page.locator("#acf-chart rect.spike.outside")
+    outside = page.locator("#acf-chart rect.bar:not(.inside)")
     lags = {int(outside.nth(i).get_attribute("data-lag")) for i in range(outside.count())}
     assert {7, 14} <= lags
     assert "seasonal" in page.inner_text("#advice").lower()
@@ -371,5 +371,5 @@ def test_page_can_be_framed_by_an_allowed_portal_and_sends_the_token(browser, tm
             frame.locator("#token").fill("portal-secret-1")
             frame.locator("#submit").click()
             frame.locator("#result:not([hidden])").wait_for(timeout=10000)
-            assert frame.locator("#acf-chart svg rect.spike").count() >= 1
+            assert frame.locator("#acf-chart svg rect.bar").count() >= 1
     context.close()
