@@ -213,7 +213,7 @@
       const k = a.counts;
       const found = a.changes.found;
       facts(out, [
-        ["windows", `${k.windows} of ${a.window} values, a new one every ${a.step}`],
+        ["windows", `${k.windows} windows of ${a.window} values, a new one every ${a.step}`],
         ["judged white noise", `${k.white_noise} of ${k.windows}`],
         ["changes", found === null ? `not read: ${a.changes.note}` : found.length ? found.map((c) =>
           `${c.kind} near ${c.time || "index " + c.index} (p = ${fmtP(c.p_value)})`).join("; ") : "none found"],
