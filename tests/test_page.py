@@ -88,8 +88,8 @@ def _colours() -> dict[str, str]:
 
 
 def test_the_style_sheet_is_generated_from_the_style_module(client):
-    """GET /style.css carries every setting of outputs/style.py (the images' definition), value for value."""
-    r = client.get("/style.css")
+    """GET /static/style.css carries every setting of outputs/style.py (the images' definition), value for value."""
+    r = client.get("/static/style.css")
     assert r.status_code == 200 and r.mimetype == "text/css"
     served = dict(re.findall(r"(--ls-[a-z-]+):\s*([^;]+);", r.get_data(as_text=True)))
     assert served == style.variables()
@@ -98,7 +98,16 @@ def test_the_style_sheet_is_generated_from_the_style_module(client):
     assert served["--ls-bar-width"] == f"{style.BAR_WIDTH:g}"
     assert served["--ls-label-band"] == f'"{style.LABELS["band"]}"'
     html = (STATIC / "index.html").read_text()
-    assert html.index('href="style.css"') < html.index('href="static/page.css"')  # page.css reads its variables
+    assert html.index('href="static/style.css"') < html.index('href="static/page.css"')  # page.css reads its variables
+
+
+def test_the_style_sheet_needs_no_token_like_the_page_itself():
+    app = create_app({"TESTING": True, "AUTH_TOKENS": ("page-style-token-1",)})
+    client = app.test_client()
+    assert client.post("/v1/diagnostics", json={"values": [1, 3, 2, 5, 4, 6]}).status_code == 401
+    for path in ("/", "/static/style.css", "/static/charts.js"):
+        with client.get(path) as r:  # a file response streams: close it
+            assert r.status_code == 200, path
 
 
 def test_the_page_draws_only_with_the_shared_style():

@@ -374,6 +374,8 @@ def test_page_can_be_framed_by_an_allowed_portal_and_sends_the_token(browser, tm
             frame.locator("#submit").click()
             frame.locator("#result:not([hidden])").wait_for(timeout=10000)
             assert frame.locator("#acf-chart svg rect.bar").count() >= 1
+            band = frame.locator("#acf-chart polygon.band").evaluate("(e) => getComputedStyle(e).fill")
+            assert band == _rgb(style.BAND_FILL)  # the shared style sheet loaded without the token
     context.close()
 
 

@@ -1,6 +1,6 @@
 """Lagsight's visual language: the one style definition of the page's charts and the rendered images.
 
-The page reads it as CSS custom properties (:func:`css`, served at ``GET /style.css``); the SVG/PNG
+The page reads it as CSS custom properties (:func:`css`, served at ``GET /static/style.css``); the SVG/PNG
 images (render.py, stability_image.py) and the Vega-Lite specifications read the names below.
 
 The look, by element:

@@ -6,7 +6,7 @@ an iframe by the origins listed in the ``FRAME_ANCESTORS`` setting
 (``LAGSIGHT_FRAME_ANCESTORS``), sent as the CSP ``frame-ancestors`` directive.
 
 The chart colours, shapes and legend words come from :mod:`lagsight.outputs.style`, the same
-definition the SVG/PNG images are drawn with: ``GET /style.css`` serves them as CSS custom
+definition the SVG/PNG images are drawn with: ``GET /static/style.css`` serves them as CSS custom
 properties, which page.css and the page's drawing code read.
 """
 from __future__ import annotations
@@ -46,7 +46,7 @@ def index():
     })
 
 
-@bp.get("/style.css")
+@bp.get("/static/style.css")
 def style_sheet():
     """Serve the chart style shared with the images, as CSS custom properties."""
     return Response(style.css(), mimetype="text/css", headers={"Cache-Control": "no-cache"})
