@@ -99,7 +99,8 @@ def test_band_is_a_shaded_region_and_bars_take_the_zone_colours(client):
     for bar in (p for p in ax.patches if isinstance(p, Rectangle)):
         lag = round(bar.get_x() + bar.get_width() / 2)
         if lag in marginal:  # hollow, outlined in the far colour
-            assert to_hex(bar.get_facecolor()) == style.BACKGROUND and to_hex(bar.get_edgecolor()) == style.PALETTE["far"]
+            assert to_hex(bar.get_facecolor()) == style.BACKGROUND
+            assert to_hex(bar.get_edgecolor()) == style.PALETTE["far"]
         else:
             assert to_hex(bar.get_facecolor()) == style.PALETTE["far" if lag in far else "inside"]
     diamonds = [line for line in ax.lines if line.get_marker() == "D"]

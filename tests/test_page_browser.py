@@ -409,7 +409,8 @@ def _boxes_overlap(boxes: list[dict], gap: float = 0.0) -> list:
 
 TICK_BOXES = """(sel) => [...document.querySelectorAll(sel)].map((t) => {
     const r = t.getBoundingClientRect(); const s = t.ownerSVGElement.getBoundingClientRect();
-    return {text: t.textContent, left: r.left, right: r.right, inside: r.left >= s.left - 0.5 && r.right <= s.right + 0.5};
+    return {text: t.textContent, left: r.left, right: r.right,
+            inside: r.left >= s.left - 0.5 && r.right <= s.right + 0.5};
 })"""
 
 
@@ -462,7 +463,8 @@ def test_charts_draw_in_the_shared_style_with_a_band_region_bars_and_seasonal_di
 
 
 @pytest.mark.parametrize("width", [1200, 375])
-@pytest.mark.parametrize("length,freq", [(12, "D"), (2400, "h"), (1500, "D")], ids=["12-days", "2400-hours", "1500-days"])
+@pytest.mark.parametrize("length,freq", [(12, "D"), (2400, "h"), (1500, "D")],
+                         ids=["12-days", "2400-hours", "1500-days"])
 def test_date_labels_never_overlap(browser, live_server, width, length, freq):
     import pandas as pd
 

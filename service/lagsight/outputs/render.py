@@ -52,7 +52,8 @@ def _floats(values: list) -> np.ndarray:
 def legend_handles(zones, seasonal: bool, confidence: float) -> list:
     """The correlogram legend: the band, each zone drawn, and the seasonal mark when there is one."""
     _, _, Line2D, Patch = _mpl()
-    handles = [Patch(facecolor=style.BAND_FILL, edgecolor="none", label=f"{confidence * 100:g}% {style.LABELS['band']}")]
+    band = f"{confidence * 100:g}% {style.LABELS['band']}"
+    handles = [Patch(facecolor=style.BAND_FILL, edgecolor="none", label=band)]
     for zone in ("inside", "marginal", "far"):
         if zone in zones:
             hollow = zone == "marginal"

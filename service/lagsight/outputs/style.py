@@ -89,4 +89,5 @@ def variables() -> dict[str, str]:
 def css() -> str:
     """The style sheet the page loads before its own: one ``:root`` rule of custom properties."""
     lines = [f"  {name}: {value};" for name, value in variables().items()]
-    return "/* Lagsight's chart style, generated from lagsight/outputs/style.py. */\n:root {\n" + "\n".join(lines) + "\n}\n"
+    head = "/* Lagsight's chart style, generated from lagsight/outputs/style.py. */\n"
+    return head + ":root {\n" + "\n".join(lines) + "\n}\n"

@@ -39,8 +39,8 @@ def correlogram(block: dict, title: str, axis_title: str) -> dict:
     x = {"field": "lag", "type": "quantitative", "title": "lag", "axis": {"tickMinStep": 1, "format": "d"}}
     bar_x = {"field": "from", "type": "quantitative", "title": "lag", "axis": {"tickMinStep": 1, "format": "d"}}
     y = {"field": "value", "type": "quantitative", "title": axis_title}
-    tooltip = [{"field": "lag"}, {"field": "value", "format": ".3f"}, {"field": "upper", "title": "band", "format": ".3f"},
-               {"field": "zone"}]
+    tooltip = [{"field": "lag"}, {"field": "value", "format": ".3f"},
+               {"field": "upper", "title": "band", "format": ".3f"}, {"field": "zone"}]
     spec = _base(title, rows)
     spec["layer"] = [
         {"mark": {"type": "area", "color": style.BAND_FILL, "opacity": 1, "interpolate": "step-after"},
