@@ -124,6 +124,9 @@ def test_filled_values_are_ringed_on_the_time_plot(client):
     assert to_hex(rings[0].get_markerfacecolor()) == style.BACKGROUND
     assert to_hex(rings[0].get_markeredgecolor()) == style.FILLED
     assert [t.get_text() for t in ax.get_legend().get_texts()] == [style.LABELS["line"], style.LABELS["filled"]]
+    spec = client.post(URL, json=body, query_string={"vega_lite": "true"}).get_json()["charts"]["time_plot"]["vega_lite"]
+    assert [i for i, row in enumerate(spec["data"]["values"]) if row["filled"]] == gaps
+    assert spec["layer"][1]["mark"]["stroke"] == style.FILLED  # the Vega-Lite specification rings them too
     untouched = client.post(URL, json=_body(90, "D")).get_json()
     assert untouched["charts"]["time_plot"]["filled"] == []
 

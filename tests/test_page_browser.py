@@ -291,6 +291,9 @@ def test_the_value_column_is_chosen_by_the_whole_table_and_both_columns_can_be_c
     page.wait_for_selector("#result:not([hidden])")
     facts = page.inner_text("#facts")  # 56 observed of 80 hourly readings
     assert "n = 56" in facts and "24 missing" in facts and "period 24 (from timestamps)" in facts
+    ticks = page.locator("#time-chart line.miss")  # analysed pairwise: missing values ticked, none ringed
+    assert ticks.count() == 24 and page.locator("#time-chart circle.ring").count() == 0
+    assert page.locator("#time-legend li").evaluate_all("(l) => l.map((e) => e.dataset.key)") == ["line", "missing"]
     page.screenshot(path=str(shots / "page-table-columns.png"), full_page=True)
 
 

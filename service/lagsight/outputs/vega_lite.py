@@ -63,12 +63,20 @@ def correlogram(block: dict, title: str, axis_title: str) -> dict:
 
 
 def time_plot(block: dict, title: str) -> dict:
-    rows = [{"x": x, "value": v} for x, v in zip(block["x"], block["values"])]
+    """The series as a line; values filled in by interpolation ringed."""
+    filled = set(block.get("filled") or [])
+    rows = [{"x": x, "value": v, "filled": i in filled} for i, (x, v) in enumerate(zip(block["x"], block["values"]))]
     spec = _base(title, rows)
     x_type = "temporal" if block["x_kind"] == "time" else "quantitative"
-    spec["mark"] = {"type": "line", "color": style.LINE, "strokeWidth": 1.4, "point": False}
-    spec["encoding"] = {"x": {"field": "x", "type": x_type, "title": "time" if x_type == "temporal" else "position"},
-                        "y": {"field": "value", "type": "quantitative", "title": "value", "scale": {"zero": False}}}
+    encoding = {"x": {"field": "x", "type": x_type, "title": "time" if x_type == "temporal" else "position"},
+                "y": {"field": "value", "type": "quantitative", "title": "value", "scale": {"zero": False}}}
+    spec["encoding"] = encoding
+    spec["layer"] = [
+        {"mark": {"type": "line", "color": style.LINE, "strokeWidth": 1.4, "point": False}},
+        {"transform": [{"filter": "datum.filled"}],
+         "mark": {"type": "point", "shape": "circle", "filled": True, "fill": style.BACKGROUND,
+                  "stroke": style.FILLED, "strokeWidth": 1.4, "size": 40}},
+    ]
     return spec
 
 
