@@ -540,6 +540,7 @@ def test_copy_as_curl_copies_the_exact_request(browser, live_server):
     expect(page.locator("#download-status")).to_have_text("Copied the request as a curl command.")
     command = page.evaluate("navigator.clipboard.readText()")
     assert command == page.input_value("#curl-text") and command.startswith("curl ")
+    assert f"--data-binary '{sent}'" in command.replace("'\\''", "'")  # the body sent, byte for byte
     run = subprocess.run(["bash", "-c", command], capture_output=True, text=True, timeout=30)
     assert run.returncode == 0, run.stderr
     with page.expect_request(lambda r: r.method == "POST") as again:

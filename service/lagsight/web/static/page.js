@@ -289,7 +289,6 @@
     if (report.n_missing) facts.push(`${report.n_missing} missing`);
     $("facts").textContent = facts.join(" · ");
 
-
     listInto("sentences", (report.interpretation || []).slice(1), (li, s) => { li.textContent = s; });
     listInto("advice", report.advice || [], (li, a) => {
       li.textContent = a.action;
@@ -389,7 +388,7 @@
       cancelAnimationFrame(pending);
       pending = requestAnimationFrame(drawCharts);
     });
-    window.LagsightAnswer.init(state, { authHeaders, showProblem, hideProblem, count });
+    window.LagsightAnswer.init(state, { authHeaders, showProblem, hideProblem });
     const zone = $("drop-zone");
     zone.addEventListener("dragover", (e) => { e.preventDefault(); zone.classList.add("over"); });
     zone.addEventListener("dragleave", () => zone.classList.remove("over"));
