@@ -14,8 +14,10 @@ import numpy as np
 from lagsight.outputs import style
 from lagsight.outputs.render import DPI, RC, date_axis, matplotlib_parts, tidy
 
-#: Colours of the change lines by kind.
+#: Colours of the change lines by kind, and their widths: a structure line is wider and drawn first, so a
+#: variance change at the same place shows inside it.
 CHANGE_COLOURS = {"structure": style.CHANGE, "variance": style.SEASONAL}
+CHANGE_WIDTHS = {"structure": 3.4, "variance": 1.4}
 
 
 def _numbers(values: list) -> np.ndarray:
@@ -55,9 +57,10 @@ def figure(answer: dict):
     bottom.set_ylabel("variance")
     bottom.set_xlabel("last value of the window" + ("" if timed else " (index)"))
     drawn = set()
-    for at, kind in changes:
+    for at, kind in sorted(changes, key=lambda c: c[1] != "structure"):
         for ax in (top, bottom):
-            ax.axvline(at, color=CHANGE_COLOURS.get(kind, style.CHANGE), linewidth=1.4, zorder=1,
+            ax.axvline(at, color=CHANGE_COLOURS.get(kind, style.CHANGE), linewidth=CHANGE_WIDTHS.get(kind, 1.4),
+                       zorder=1 if kind == "structure" else 1.1,
                        label=f"{kind} change" if ax is top and kind not in drawn else None)
         drawn.add(kind)
     top.legend(loc="upper left", fontsize=7.5, frameon=False, ncol=3)
