@@ -3,8 +3,9 @@
 Every chart is a small table a plotting library can draw as is:
 
 - ``time_plot``: the analysed series (after transforms), x as time labels or positions,
-  null where an observation is missing; long series are thinned to at most
-  ``MAX_TIME_POINTS`` by keeping each bucket's lowest and highest point, so peaks survive.
+  null where an observation is missing, and ``filled``: the positions in ``values`` of values
+  filled in by interpolation; long series are thinned to at most ``MAX_TIME_POINTS`` by keeping
+  each bucket's lowest and highest point, so peaks survive.
 - ``correlogram`` and ``pacf``: per lag the value, the band, a ``zone`` and whether the lag
   is seasonal. Zones: ``inside`` the band; ``marginal`` outside it but within
   ``options.FAR_OUTSIDE_SE`` (3) standard errors of the band's centre; ``far`` beyond that
@@ -38,7 +39,7 @@ def _thin(y: np.ndarray, limit: int) -> np.ndarray:
     return np.asarray(keep, dtype=np.int64)
 
 
-def time_plot(values: np.ndarray, labels: list[str] | None) -> dict:
+def time_plot(values: np.ndarray, labels: list[str] | None, filled: np.ndarray | None = None) -> dict:
     if values.size <= MAX_TIME_POINTS:
         keep, y = None, values
         x = list(labels) if labels is not None else list(range(values.size))
@@ -47,12 +48,18 @@ def time_plot(values: np.ndarray, labels: list[str] | None) -> dict:
         y = values[keep]
         x = [labels[i] for i in keep.tolist()] if labels is not None else keep.tolist()
     missing = np.isnan(y)
+    if filled is not None and filled.size == values.size:
+        kept = filled if keep is None else filled[keep]
+        filled_at = np.flatnonzero(kept).tolist()
+    else:
+        filled_at = []
     return {
         "x": x,
         "x_kind": "time" if labels is not None else "index",
         "values": [None if m else v for v, m in zip(y.tolist(), missing.tolist())] if missing.any() else y.tolist(),
         "points": int(values.size),
         "thinned": keep is not None,
+        "filled": filled_at,
         "vega_lite": None,
     }
 
@@ -97,7 +104,8 @@ def block_zones(block: dict) -> list:
             for lag, v in zip(block["lags"], block["values"])]
 
 
-def chart_data(values: np.ndarray, labels: list[str] | None, report: dict, seasonal: list[bool] | None = None) -> dict:
+def chart_data(values: np.ndarray, labels: list[str] | None, report: dict, seasonal: list[bool] | None = None,
+               filled: np.ndarray | None = None) -> dict:
     """The ``charts`` block for one report (its numeric keys must be filled).
 
     ``seasonal`` is :func:`seasonal_flags` for the report's max_lag and period, when the caller
@@ -105,7 +113,7 @@ def chart_data(values: np.ndarray, labels: list[str] | None, report: dict, seaso
     """
     seasonal = seasonal_flags(report["max_lag"], report["period"]) if seasonal is None else list(seasonal)
     return {
-        "time_plot": time_plot(values, labels),
+        "time_plot": time_plot(values, labels, filled),
         "correlogram": correlogram(report["acf"], block_zones(report["acf"]), seasonal),
         "pacf": correlogram(report["pacf"], block_zones(report["pacf"]), seasonal),
         "periodogram": periodogram(report.get("periodogram"), bool(report["missing"]["remaining"])),

@@ -265,5 +265,5 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "missing": _missing(s, analysis, row),
             "transform": s.transform,
         })
-        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1], seasonal_flags)
+        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1], seasonal_flags, s.filled)
     return reports

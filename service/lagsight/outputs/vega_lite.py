@@ -2,7 +2,8 @@
 
 Each specification carries its data inline, so a portal can embed it with any Vega-Lite
 renderer and no second call. The look follows :mod:`lagsight.outputs.style`: the band is a shaded
-region, spikes are coloured by zone, seasonal lags carry a marker under the axis.
+region, bars are coloured by zone (a bar just outside the band hollow with an outline), seasonal lags
+carry a diamond under the axis.
 """
 from __future__ import annotations
 
@@ -27,28 +28,34 @@ def _base(title: str, data: list[dict]) -> dict:
 
 
 def correlogram(block: dict, title: str, axis_title: str) -> dict:
-    """Spikes from zero coloured by zone, over the band as a shaded area; seasonal lags marked."""
+    """Bars from zero coloured by zone, over the band as a shaded area; seasonal lags marked."""
+    half = style.BAR_WIDTH / 2
     rows = [
-        {"lag": lag, "value": v, "lower": lo, "upper": hi, "zone": z, "seasonal": s}
+        {"lag": lag, "from": lag - half, "to": lag + half, "value": v, "lower": lo, "upper": hi, "zone": z,
+         "seasonal": s}
         for lag, v, lo, hi, z, s in zip(block["lags"], block["values"], block["lower"], block["upper"],
                                         block["zone"], block["seasonal"])
     ]
-    x = {"field": "lag", "type": "quantitative", "title": "lag", "axis": {"tickMinStep": 1}}
+    x = {"field": "lag", "type": "quantitative", "title": "lag", "axis": {"tickMinStep": 1, "format": "d"}}
+    bar_x = {"field": "from", "type": "quantitative", "title": "lag", "axis": {"tickMinStep": 1, "format": "d"}}
+    y = {"field": "value", "type": "quantitative", "title": axis_title}
+    tooltip = [{"field": "lag"}, {"field": "value", "format": ".3f"},
+               {"field": "upper", "title": "band", "format": ".3f"}, {"field": "zone"}]
     spec = _base(title, rows)
     spec["layer"] = [
-        {"mark": {"type": "area", "color": style.BAND_FILL, "opacity": 0.9, "interpolate": "step-after"},
+        {"mark": {"type": "area", "color": style.BAND_FILL, "opacity": 1, "interpolate": "step-after"},
          "encoding": {"x": x, "y": {"field": "lower", "type": "quantitative"}, "y2": {"field": "upper"}}},
         {"mark": {"type": "rule", "color": style.TEXT, "strokeWidth": 0.8}, "encoding": {"y": {"datum": 0}}},
-        {"mark": {"type": "rule", "strokeWidth": 2.5},
-         "encoding": {"x": x, "y": {"field": "value", "type": "quantitative"}, "y2": {"datum": 0},
-                      "color": {"field": "zone", "type": "nominal", "scale": _ZONE_SCALE, "title": "spike"}}},
-        {"mark": {"type": "circle", "size": 36},
-         "encoding": {"x": x, "y": {"field": "value", "type": "quantitative", "title": axis_title},
-                      "color": {"field": "zone", "type": "nominal", "scale": _ZONE_SCALE, "title": "spike"},
-                      "tooltip": [{"field": "lag"}, {"field": "value", "format": ".3f"},
-                                  {"field": "upper", "title": "band", "format": ".3f"}, {"field": "zone"}]}},
+        {"transform": [{"filter": "datum.zone !== 'marginal'"}], "mark": {"type": "rect"},
+         "encoding": {"x": bar_x, "x2": {"field": "to"}, "y": y, "y2": {"datum": 0},
+                      "color": {"field": "zone", "type": "nominal", "scale": _ZONE_SCALE, "title": "bar"},
+                      "tooltip": tooltip}},
+        {"transform": [{"filter": "datum.zone === 'marginal'"}],
+         "mark": {"type": "rect", "fill": style.BACKGROUND, "stroke": style.ZONE_COLOURS["marginal"],
+                  "strokeWidth": style.OUTLINE_WIDTH},
+         "encoding": {"x": bar_x, "x2": {"field": "to"}, "y": y, "y2": {"datum": 0}, "tooltip": tooltip}},
         {"transform": [{"filter": "datum.seasonal"}],
-         "mark": {"type": "point", "shape": "triangle-up", "filled": True, "color": style.SEASONAL, "size": 60,
+         "mark": {"type": "point", "shape": "diamond", "filled": True, "color": style.SEASONAL, "size": 50,
                   "yOffset": 8},
          "encoding": {"x": x, "y": {"value": HEIGHT}}},
     ]
@@ -56,12 +63,20 @@ def correlogram(block: dict, title: str, axis_title: str) -> dict:
 
 
 def time_plot(block: dict, title: str) -> dict:
-    rows = [{"x": x, "value": v} for x, v in zip(block["x"], block["values"])]
+    """The series as a line; values filled in by interpolation ringed."""
+    filled = set(block.get("filled") or [])
+    rows = [{"x": x, "value": v, "filled": i in filled} for i, (x, v) in enumerate(zip(block["x"], block["values"]))]
     spec = _base(title, rows)
     x_type = "temporal" if block["x_kind"] == "time" else "quantitative"
-    spec["mark"] = {"type": "line", "color": style.LINE, "strokeWidth": 1.4, "point": False}
-    spec["encoding"] = {"x": {"field": "x", "type": x_type, "title": "time" if x_type == "temporal" else "position"},
-                        "y": {"field": "value", "type": "quantitative", "title": "value", "scale": {"zero": False}}}
+    encoding = {"x": {"field": "x", "type": x_type, "title": "time" if x_type == "temporal" else "position"},
+                "y": {"field": "value", "type": "quantitative", "title": "value", "scale": {"zero": False}}}
+    spec["encoding"] = encoding
+    spec["layer"] = [
+        {"mark": {"type": "line", "color": style.LINE, "strokeWidth": 1.4, "point": False}},
+        {"transform": [{"filter": "datum.filled"}],
+         "mark": {"type": "point", "shape": "circle", "filled": True, "fill": style.BACKGROUND,
+                  "stroke": style.FILLED, "strokeWidth": 1.4, "size": 40}},
+    ]
     return spec
 
 

@@ -4,12 +4,18 @@ The page and its assets are files in ``lagsight/web/static`` (plain HTML, CSS an
 JavaScript; nothing is loaded from another origin). The page may be embedded in
 an iframe by the origins listed in the ``FRAME_ANCESTORS`` setting
 (``LAGSIGHT_FRAME_ANCESTORS``), sent as the CSP ``frame-ancestors`` directive.
+
+The chart colours, shapes and legend words come from :mod:`lagsight.outputs.style`, the same
+definition the SVG/PNG images are drawn with: ``GET /static/style.css`` serves them as CSS custom
+properties, which page.css and the page's drawing code read.
 """
 from __future__ import annotations
 
 from pathlib import Path
 
 from flask import Blueprint, Response, current_app
+
+from lagsight.outputs import style
 
 STATIC = Path(__file__).resolve().parent / "static"
 
@@ -38,3 +44,9 @@ def index():
         "Content-Security-Policy": content_security_policy(current_app.config["FRAME_ANCESTORS"]),
         "Cache-Control": "no-cache",
     })
+
+
+@bp.get("/static/style.css")
+def style_sheet():
+    """Serve the chart style shared with the images, as CSS custom properties."""
+    return Response(style.css(), mimetype="text/css", headers={"Cache-Control": "no-cache"})

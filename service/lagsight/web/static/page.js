@@ -1,14 +1,14 @@
-/* Lagsight page: read a pasted series or a CSV file, call POST v1/diagnostics, draw the result.
- * Plain JavaScript and inline SVG; no libraries, no network other than this service (same origin). */
+/* Lagsight page: read a pasted series or a CSV file, call POST v1/diagnostics, show the result.
+ * Plain JavaScript and inline SVG (charts.js); downloads and the follow-up routes in answer.js.
+ * No libraries, no network other than this service (same origin). */
 "use strict";
 
 (function () {
   const API = "v1/diagnostics"; // relative, so the page also works behind a path prefix
   const TIMEOUT_MS = 60000;
-  const SVG = "http://www.w3.org/2000/svg";
-
   const $ = (id) => document.getElementById(id);
-  const state = { pick: null, tableSignature: null };
+  const state = { pick: null, tableSignature: null, report: null, body: null, raw: null };
+  const C = window.LagsightCharts;
 
   // ------------------------------------------------------------------ reading the input
 
@@ -181,6 +181,7 @@
     } catch (err) {
       showProblem({ title: "Check the input", detail: err.message });
       $("result").hidden = true; // an old result must not be read as the answer to this input
+      $("follow").hidden = true;
       return;
     }
     const controller = new AbortController();
@@ -195,11 +196,14 @@
         signal: controller.signal,
       });
       const type = r.headers.get("Content-Type") || "";
-      const payload = type.includes("json") ? await r.json() : { title: `HTTP ${r.status}`, detail: await r.text() };
+      const text = await r.text();
+      const payload = type.includes("json") ? JSON.parse(text) : { title: `HTTP ${r.status}`, detail: text };
       if (!r.ok) {
         showProblem(payload);
         $("result").hidden = true;
+        $("follow").hidden = true;
       } else {
+        Object.assign(state, { report: payload, body, raw: text });
         render(payload);
       }
     } catch (err) {
@@ -285,10 +289,6 @@
     if (report.n_missing) facts.push(`${report.n_missing} missing`);
     $("facts").textContent = facts.join(" · ");
 
-    const seasonal = new Set(((report.seasonal && report.seasonal.lags) || []).map((e) => e.lag));
-    drawCorrelogram($("acf-chart"), report.acf, seasonal, "Autocorrelation");
-    drawCorrelogram($("pacf-chart"), report.pacf, seasonal, "Partial autocorrelation");
-
     listInto("sentences", (report.interpretation || []).slice(1), (li, s) => { li.textContent = s; });
     listInto("advice", report.advice || [], (li, a) => {
       li.textContent = a.action;
@@ -324,72 +324,52 @@
 
     const section = $("result");
     section.hidden = false;
+    $("follow").hidden = false;
+    window.LagsightAnswer.reset(state);
+    drawCharts();
     section.focus();
   }
 
-  function el(name, attrs, parent) {
-    const node = document.createElementNS(SVG, name);
-    for (const [k, v] of Object.entries(attrs || {})) node.setAttribute(k, String(v));
-    if (parent) parent.append(node);
-    return node;
+  /** Positions filled in by interpolation and left missing, from the values sent and the answer's ``missing``. */
+  function seriesAsSent(body, report) {
+    const y = body.values.slice();
+    const present = y.map((v, i) => (v === null ? -1 : i)).filter((i) => i >= 0);
+    const first = present[0], last = present[present.length - 1];
+    const inside = y.map((v, i) => i).filter((i) => y[i] === null && i > first && i < last);
+    const interpolate = report.missing && report.missing.method === "interpolate";
+    const filled = interpolate ? inside : [];
+    for (const i of filled) { // a straight line between the neighbours, as the service fills them
+      let a = i - 1, b = i + 1;
+      while (body.values[a] === null) a--;
+      while (body.values[b] === null) b++;
+      y[i] = body.values[a] + ((body.values[b] - body.values[a]) * (i - a)) / (b - a);
+    }
+    const missing = y.map((v, i) => (v === null ? i : -1)).filter((i) => i >= 0);
+    return { y, filled, missing, stamps: body.timestamps || null };
   }
 
-  /** Draw one correlogram: the band as a shaded region, one spike per lag, seasonal lags marked. */
-  function drawCorrelogram(host, block, seasonal, label) {
-    const W = 560, H = 260, left = 44, right = 12, top = 12, bottom = 34;
-    const K = block.lags.length;
-    const vals = block.values.map((x) => (x === null ? 0 : x));
-    const reach = Math.max(...vals.map(Math.abs), ...block.upper.map((x) => Math.abs(x || 0)), 0.1);
-    const ymax = Math.min(1, Math.ceil(reach * 1.15 * 10) / 10);
-    const xs = (lag) => left + ((lag - 0.5) / K) * (W - left - right);
-    const ys = (y) => top + ((ymax - y) / (2 * ymax)) * (H - top - bottom);
-    const step = (W - left - right) / K;
-    const nOut = block.outside.length;
-    const svg = el("svg", { viewBox: `0 0 ${W} ${H}`, role: "img", "aria-labelledby": `${host.id}-t ${host.id}-d` });
-    el("title", { id: `${host.id}-t` }, svg).textContent = `${label} for lags 1 to ${K}`;
-    el("desc", { id: `${host.id}-d` }, svg).textContent =
-      `${nOut} of ${K} ${K === 1 ? "lag" : "lags"} ${nOut === 1 ? "falls" : "fall"} outside the shaded band` +
-      (nOut ? `: ${nOut === 1 ? "lag" : "lags"} ${block.outside.join(", ")}.` : ".");
-
-    for (const y of [-ymax, -ymax / 2, 0, ymax / 2, ymax]) {
-      el("line", { x1: left, x2: W - right, y1: ys(y), y2: ys(y), class: "grid" }, svg);
-      el("text", { x: left - 6, y: ys(y) + 4, "text-anchor": "end", class: "tick" }, svg).textContent = y.toFixed(2);
+  /** Draw the three charts at the width they have now (again on a resize). */
+  function drawCharts() {
+    const report = state.report;
+    if (!report || $("result").hidden) return;
+    const series = seriesAsSent(state.body, report);
+    const steps = (report.transform && report.transform.steps) || [];
+    const gaps = (report.missing && report.missing.from_gaps) || 0;
+    $("time-caption").textContent = "The series as sent" + (steps.length ? " (before the transforms)" : "") +
+      (gaps ? `; ${count(gaps, "time slot", "time slots")} missing between the timestamps ${gaps === 1 ? "is" : "are"} not drawn` : "");
+    C.timePlot($("time-chart"), series, "The series as sent");
+    C.legend($("time-legend"), ["line"].concat(series.filled.length ? ["filled"] : [],
+      series.missing.length ? ["missing"] : []));
+    const seasonal = new Set(((report.seasonal && report.seasonal.lags) || []).map((e) => e.lag));
+    C.correlogram($("acf-chart"), report.acf, seasonal, "Autocorrelation");
+    C.correlogram($("pacf-chart"), report.pacf, seasonal, "Partial autocorrelation");
+    const zones = new Set();
+    for (const block of [report.acf, report.pacf]) {
+      const far = new Set(block.far || block.outside), out = new Set(block.outside);
+      block.lags.forEach((lag) => zones.add(!out.has(lag) ? "inside" : far.has(lag) ? "far" : "marginal"));
     }
-    // the band: a stepped region from lower to upper, half a lag either side of each lag
-    const upper = [], lower = [];
-    block.lags.forEach((lag, i) => {
-      const a = xs(lag) - step / 2, b = xs(lag) + step / 2;
-      upper.push(`${a},${ys(block.upper[i])}`, `${b},${ys(block.upper[i])}`);
-      lower.unshift(`${b},${ys(block.lower[i])}`, `${a},${ys(block.lower[i])}`);
-    });
-    el("polygon", { points: upper.concat(lower).join(" "), class: "band" }, svg);
-    el("line", { x1: left, x2: W - right, y1: ys(0), y2: ys(0), class: "zero" }, svg);
-    el("line", { x1: left, x2: left, y1: top, y2: H - bottom, class: "axis" }, svg);
-
-    const out = new Set(block.outside);
-    const far = new Set(block.far || block.outside); // reports without the far/marginal split: all "far"
-    const barW = Math.max(1.5, Math.min(10, step * 0.55));
-    block.lags.forEach((lag, i) => {
-      const v = vals[i];
-      const y0 = ys(Math.max(v, 0)), y1 = ys(Math.min(v, 0));
-      const bar = el("rect", {
-        x: xs(lag) - barW / 2, y: y0, width: barW, height: Math.max(1, y1 - y0), rx: Math.min(2, barW / 3),
-        class: "spike " + (!out.has(lag) ? "inside" : far.has(lag) ? "outside" : "outside marginal"), "data-lag": lag,
-      }, svg);
-      el("title", {}, bar).textContent = `lag ${lag}: ${fmt(block.values[i])}` +
-        (!out.has(lag) ? "" : far.has(lag) ? " (far outside the band)" : " (just outside the band)");
-      if (seasonal.has(lag)) {
-        const cx = xs(lag), cy = H - bottom + 8;
-        el("polygon", { points: `${cx},${cy - 5} ${cx + 5},${cy} ${cx},${cy + 5} ${cx - 5},${cy}`, class: "mark" }, svg);
-      }
-    });
-    const every = Math.max(1, Math.ceil(K / 12));
-    for (let lag = 1; lag <= K; lag++) {
-      if (lag % every !== 0 && !(lag === 1 && every > 2)) continue;
-      el("text", { x: xs(lag), y: H - 8, "text-anchor": "middle", class: "tick" }, svg).textContent = String(lag);
-    }
-    el("text", { x: left - 6, y: H - 8, "text-anchor": "end", class: "tick" }, svg).textContent = "lag";
-    host.replaceChildren(svg);
+    C.legend($("chart-legend"), ["band", ...["inside", "marginal", "far"].filter((z) => zones.has(z))]
+      .concat(seasonal.size ? ["seasonal"] : []), `${+(report.confidence * 100).toFixed(1)}%`);
   }
 
   // ------------------------------------------------------------------ wiring
@@ -403,6 +383,12 @@
     });
     $("csv-value-column").addEventListener("change", updateCount);
     $("csv-time-column").addEventListener("change", updateCount);
+    let pending = 0;
+    window.addEventListener("resize", () => {
+      cancelAnimationFrame(pending);
+      pending = requestAnimationFrame(drawCharts);
+    });
+    window.LagsightAnswer.init(state, { authHeaders, showProblem, hideProblem });
     const zone = $("drop-zone");
     zone.addEventListener("dragover", (e) => { e.preventDefault(); zone.classList.add("over"); });
     zone.addEventListener("dragleave", () => zone.classList.remove("over"));
