@@ -52,6 +52,15 @@ def cautions(report: dict, decision: Decision) -> list[str]:
     elif report["p_values"]["method"] == "monte_carlo":
         out.append("Monte Carlo p-values simulate an i.i.d. series of the same length; they do not reflect the "
                    f"estimation of the model's {report['model_df']} parameters, so they err on the large side.")
+    if report.get("horizon", 1) > 1:
+        h = report["horizon"]
+        out.append(f"These values are read as {h}-step-ahead forecast errors: lags 1 to {h - 1} are not tested (such "
+                   f"errors are correlated there by construction, even from the best forecast), so structure at those "
+                   f"lags goes unseen; the band and tests from lag {h} on use Bartlett's variance with the "
+                   f"autocorrelations at lags 1 to {h - 1} as estimated, an approximation that is rough for short "
+                   "series." + (f" model_df = {report['model_df']} is subtracted from the degrees of freedom of the "
+                                f"sums from lag {h} on, as for one-step residuals; for h-step errors that is a "
+                                "convention, not a derived result." if report["model_df"] else ""))
     if report["n"] < options.SMALL_SAMPLE_N:
         out.append(f"The series is short (n = {report['n']}): the bands are large-sample approximations and only "
                    "rough here, and the tests have little power to detect weak structure.")

@@ -24,8 +24,10 @@ def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | N
     label = {"white_noise": "", "small_sample": " small-sample", "bartlett": " Bartlett",
              "simultaneous": " simultaneous"}[band["kind"]]
     conf = pct(report["confidence"])
-    line = (f"{ex['count']} of {K} autocorrelations (lags 1 to {K}) fall outside the {conf}{label} band{width}"
-            + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(report['acf']['outside'])})" if ex["count"] else "")
+    first = report.get("horizon", 1)
+    outside = sorted(ex["far"] + ex["marginal"])
+    line = (f"{ex['count']} of {ex['lags_tested']} autocorrelations (lags {first} to {K}) fall outside the {conf}{label} "
+            f"band{width}" + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(outside)})" if ex["count"] else "")
             + f"; about {fmt(ex['expected'], 2)} would be expected by chance if the series were white noise")
     if ex["count"]:
         line += f", and {ex['count']} or more happen by chance with probability {fmt(ex['chance_probability'], 2)}."

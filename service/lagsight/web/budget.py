@@ -132,7 +132,7 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
                 STL_SERIES_W2 * w2 + (STL_POINT + STL_POINT_W * trend) * plan.n))
         if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
             estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
-        layout = whiteness.Layout(lags, plan.spec.short_lag, plan.spec.seasonal_lags)
+        layout = plan.spec.layout  # keyed by the horizon too: each horizon has its own table
         key = (whiteness.simulated_length(plan.n, lags), layout)
         if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
             verdict_nulls.add(key)
