@@ -196,3 +196,10 @@ def test_batch_shares_and_overrides_the_horizon(client):
     assert bad["error"]["errors"][0]["pointer"] == "/series/2/horizon"
     single = client.post("/v1/diagnostics", json={"values": x, "horizon": 3}).get_json()
     assert {k: v for k, v in shared.items() if k != "id"} == single
+
+
+def test_a_horizon_of_two_reads_in_the_singular(client):
+    body = client.post("/v1/diagnostics", json={"values": _errors(2), "horizon": 2}).get_json()
+    assert "lag 1 is not tested" in body["verdict"]["summary"] or body["verdict"]["white_noise"] is False
+    assert any("lag 1 is not tested" in c for c in body["cautions"])
+    assert all("lags 1 to 1" not in line for line in [*body["interpretation"], *body["cautions"]])

@@ -161,7 +161,7 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
         Settings names (MAX_POINTS, MAX_LAG, MAX_REPLICATES, MAX_SIMULATED_VALUES) over :data:`LIMITS`.
     **options_
         The request's fields: ``timestamps``, ``period``, ``name``, ``missing``, ``transform``, ``max_lag``,
-        ``confidence``, ``model_df``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
+        ``confidence``, ``model_df``, ``horizon``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
         (GET /v1/methods and openapi/openapi.yaml describe them).
 
     Raises
@@ -256,7 +256,7 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
         As for :func:`diagnose`.
     **options_
         The batch request's shared options: ``detail`` ("full", the default, or "brief": faster, without the
-        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``band``,
+        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``horizon``, ``band``,
         ``tests``, ``p_values``, ``replicates``, ``seed``.
 
     Returns

@@ -11,7 +11,7 @@ from scipy.special import bdtrc
 
 from lagsight import options
 from lagsight.consult.decision import Decision
-from lagsight.consult.words import and_, fmt, fmt_p, plural, tests_by_name
+from lagsight.consult.words import and_, below, fmt, fmt_p, plural, tests_by_name
 
 
 def cutoff(block: dict, alpha: float) -> int | None:
@@ -155,7 +155,7 @@ def advice(report: dict, d: Decision) -> list[dict]:
                                                "(horizon 1) and add the AR or MA terms they call for, then check the "
                                                f"{d.horizon}-step errors again.",
                              f"The {d.horizon}-step forecast errors are still correlated at lag {d.strongest_lag} "
-                             f"(r = {fmt(d.strongest_r, 2)}), beyond the lags 1 to {d.horizon - 1} that such errors "
+                             f"(r = {fmt(d.strongest_r, 2)}), beyond the {below(d.horizon)} that such errors "
                              "share by construction."))
         elif kind == "autocorrelation" and not explained:
             out.append(_short_term(report, d))

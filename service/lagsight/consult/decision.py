@@ -48,7 +48,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lagsight import options
-from lagsight.consult.words import fmt, fmt_p, plural
+from lagsight.consult.words import below, fmt, fmt_p, plural
 from lagsight.engine.mechanism import Mechanism
 from lagsight.engine.whiteness import COMPONENTS, Evidence, raw_threshold, sidak
 
@@ -171,9 +171,11 @@ def summary(d: Decision) -> str:
                 "uncorrelated, yet not independent noise.")
     few = (f", but with only n = {d.n} values the checks have little power to find structure"
            if d.n < options.SMALL_SAMPLE_N else "")
-    untested = (f"; lags 1 to {d.horizon - 1} are not tested, as {d.horizon}-step forecast errors are correlated "
+    untested = (f"; {below(d.horizon)} {'is' if d.horizon == 2 else 'are'} not tested, as {d.horizon}-step forecast "
+                "errors are correlated "
                 "there by construction" if d.horizon > 1 else "")
-    return (f"Consistent with white noise: no autocorrelation stands out at lags {d.horizon} to {d.max_lag} "
+    lags = f"lag {d.max_lag}" if d.horizon == d.max_lag else f"lags {d.horizon} to {d.max_lag}"
+    return (f"Consistent with white noise: no autocorrelation stands out at {lags} "
             f"(adjusted {fmt_p(d.p_value)}){few}{untested}.")
 
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 from lagsight.consult.decision import Decision
 from lagsight.consult.words import (
     and_,
+    below,
     fmt,
     fmt_p,
     lag_list,
@@ -102,6 +103,9 @@ def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dic
     if not done:
         return out
     mc = " (Monte Carlo p-values)" if done[0]["method"] == "monte_carlo" else ""
+    first = report.get("horizon", 1)
+    if first > 1:
+        mc = f" from lag {first} on, with Bartlett's variance ({below(first)} not tested)"
     parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {plural(t['df'], 'degree')} of freedom, {fmt_p(t['p_value'])}"
              for t in done]
     rejecting = [str(t["lag"]) for t in done if t["reject"]]
