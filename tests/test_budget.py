@@ -232,7 +232,7 @@ def test_the_follow_up_routes_are_held_to_the_budget(route, body, part, pointer)
 
 
 def test_the_follow_up_estimates_follow_the_model():
-    """A model check: one fit at 1.2 microseconds a unit of engine.arima.cost plus two full reports; a driver check:
+    """A model check: one fit at 12 microseconds a unit of engine.arima.cost plus two full reports; a driver check:
     a fixed cost and a cost per paired value per driver; a stability request: each window as a series, plus its own
     cost."""
     from lagsight.engine.arima import Order, cost
@@ -249,7 +249,7 @@ def test_the_follow_up_estimates_follow_the_model():
     finally:
         budget.check = real
     model, drivers, windows = seen
-    assert model.parts["model fits"] == pytest.approx(budget.FIT_UNIT * cost(Order(1, 0, 1, 0, 0, 0, 0, "c"), 500))
+    assert model.parts["model fits"] == pytest.approx(budget.FIT_SMALL_UNIT * cost(Order(1, 0, 1, 0, 0, 0, 0, "c"), 500))
     assert drivers.total == pytest.approx(budget.DRIVER + budget.DRIVER_POINT * 150)
     per_window = (budget.SERIES + budget.FULL_SERIES + (budget.POINT + budget.FULL_POINT) * 100
                   + budget.SERIES_LAG2 * 20 * 20 + budget.WINDOW)

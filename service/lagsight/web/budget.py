@@ -22,8 +22,9 @@ requests):
 - Box-Cox lambda estimation: per series that asks for it, counted before the series are prepared.
 
 The routes that follow a diagnosis are estimated before any work too (:func:`check_model_check`,
-:func:`check_driver_check`, :func:`check_stability`): a model fit at its worst (statsmodels' iteration limit, about
-1.2 microseconds per unit of ``engine.arima.cost``; the suggested order's search at its whole work budget), the
+:func:`check_driver_check`, :func:`check_stability`): a model fit by its units of ``engine.arima.cost`` (about 12
+microseconds a unit for small models, at most the whole work budget's 18 s; the suggested order's search at its
+whole work budget), the
 prewhitening and cross-correlation of each driver (per driver and per paired value), and every window of a
 stability request as a series of the engine, plus the change reading per window.
 
@@ -86,9 +87,14 @@ MC_LAG = 1.2e-4  # a replicate, per lag
 NULL_VALUE = 3.5e-4  # a value simulated for the verdict's null table (4,000 x 400 values measured at about 0.56 s)
 BOX_COX = 0.45  # estimating one series' Box-Cox lambda
 BOX_COX_POINT = 2e-5  # ... per point
-FIT_UNIT = 1.2e-3  # a unit of engine.arima.cost: fits run to the iteration limit took 1.1-1.2 microseconds a unit
-DRIVER = 30.0  # a driver of /v1/driver-check: AR order search, prewhitening, cross-correlation, Haugh's test
-DRIVER_POINT = 0.065  # ... per paired value (measured on the 2-core machine, 200 to 20,000 values, December 2026)
+#: A unit of engine.arima.cost in one fit. Small models cost more per unit than the largest: ARIMA(2,0,1) on 1,000
+#: values took 2.5 s (216,000 units) and (3,0,3) on 2,000 values 11.4 s (1,152,000 units) on a busy 2-core machine,
+#: about 12 microseconds a unit, while fits of about 15,000,000 units took 16-18 s (1.1-1.2 microseconds a unit,
+#: options.MODEL_WORK_BUDGET). A fit is estimated at FIT_SMALL_UNIT a unit, at most FIT_UNIT x the work budget.
+FIT_SMALL_UNIT = 0.012
+FIT_UNIT = 1.2e-3
+DRIVER = 10.0  # a driver of /v1/driver-check: AR order search, prewhitening, cross-correlation, Haugh's test
+DRIVER_POINT = 0.5  # ... per paired value (measured on a busy machine: 13 ms at 200 values, 0.2 s at 1,000, 1.1 s at 2,000-4,000)
 WINDOW = 0.45  # a window of /v1/stability beyond the engine's series: its entry and the change reading
 
 #: What to change when a part dominates, said in the answer.
@@ -211,7 +217,7 @@ def check_model_check(data: dict, cfg) -> None:
         units = fit_cost(order, n)
         if units > options.MODEL_WORK_BUDGET:
             return  # the route refuses it with a 422 of its own (the model's work budget), naming the order
-        estimate.add("model fits", FIT_UNIT * units)
+        estimate.add("model fits", min(FIT_SMALL_UNIT * units, FIT_UNIT * options.MODEL_WORK_BUDGET))
         estimate.notes["model fits"] = f"one fit of {order.label()} to {n:,} values at its iteration limit"
     _series_work(estimate, 2, n, data["max_lag"] or options.default_max_lag(n, data["period"]), "series and points")
     check(estimate, "/order")
