@@ -133,7 +133,9 @@ def _seasonal_sentences(report: dict, tests: dict[str, list[dict]]) -> list[str]
                        else f"The seasonal lag {lags[0]} alone")
             verb = ("reject" if len(lags) > 1 else "rejects") if t["reject"] else \
                 ("do not reject" if len(lags) > 1 else "does not reject")
-            out.append(f"{subject} {verb} white noise (seasonal Ljung-Box {fmt_p(t['p_value'])}).")
+            aside = (", but the verdict, which allows for the number of lags and checks, does not count it"
+                     if t["reject"] and report["verdict"]["white_noise"] else "")
+            out.append(f"{subject} {verb} white noise (seasonal Ljung-Box {fmt_p(t['p_value'])}){aside}.")
     if s["strength"] and s["strength"]["value"] is not None:
         out.append(f"Seasonal strength from an STL decomposition is {fmt(s['strength']['value'], 2)} on a 0-to-1 "
                    "scale.")
