@@ -65,6 +65,25 @@ def ar1(phi: float) -> Callable:
     return generate
 
 
+def forecast_errors(phi: float, h: int) -> Callable:
+    def generate(rng, reps, n):
+        e = rng.standard_normal((reps, n + h - 1))
+        return lfilter(phi ** np.arange(h), [1.0], e, axis=1)[:, h - 1:]
+    generate.__doc__ = (f"Errors of the optimal {h}-step forecasts of an AR(1) with phi {phi}: "
+                        f"sum_(j<{h}) {phi}^j e_(t+{h}-j), an MA({h - 1}); sent with horizon {h}.")
+    return generate
+
+
+def wrong_forecast(phi: float, used: float, h: int) -> Callable:
+    def generate(rng, reps, n):
+        e = rng.standard_normal((reps, n + h + BURN_IN))
+        x = lfilter([1.0], [1.0, -phi], e, axis=1)[:, BURN_IN:]
+        return x[:, h:] - used ** h * x[:, :-h]
+    generate.__doc__ = (f"Errors of {h}-step forecasts of an AR(1) with phi {phi} made with phi {used} (a wrong "
+                        f"model): x_(t+{h}) - {used}^{h} x_t; sent with horizon {h}.")
+    return generate
+
+
 def ma1(theta: float) -> Callable:
     def generate(rng, reps, n):
         e = rng.standard_normal((reps, n + 1))
@@ -141,7 +160,7 @@ class Scenario:
     white_noise: bool  # the verdict expected
     structure: str | None  # the structure kind expected in verdict.structure (None: no structure at all)
     advice: str  # the code expected on the first advice item
-    family: str  # "iid" (the false-alarm targets), "white" (white noise, other targets) or "mechanism"
+    family: str  # "iid" (the false-alarm targets), "white" (white noise, other targets), "mechanism" or "horizon"
     ns: tuple[int, ...]
     options: dict = field(default_factory=dict)  # request options sent with every series
     timestamps: bool = False  # also run each n with daily timestamps
@@ -171,6 +190,12 @@ SCENARIOS: dict[str, Scenario] = {s.name: s for s in [
     Scenario("garch", garch11, True, "volatility_clustering", "model_variance", "white", MECHANISM_NS),
     Scenario("outlier", one_outlier, False, "outliers", "check_outliers", "mechanism", MECHANISM_NS),
     Scenario("gaps_40", gaps_40, True, None, NOTHING, "white", MECHANISM_NS, options={"missing": "interpolate"}),
+    Scenario("forecast_h3", forecast_errors(0.8, 3), True, None, NOTHING, "horizon", MECHANISM_NS,
+             options={"horizon": 3}),
+    Scenario("forecast_h6", forecast_errors(0.8, 6), True, None, NOTHING, "horizon", MECHANISM_NS,
+             options={"horizon": 6}),
+    Scenario("wrong_forecast_h3", wrong_forecast(0.8, 0.4, 3), False, "autocorrelation", "add_arma_terms", "horizon",
+             MECHANISM_NS, options={"horizon": 3}),
 ]}
 
 #: Scenarios whose verdict is compared with a single Ljung-Box test at lag 10 (power).

@@ -14,6 +14,7 @@ NAMED_MECHANISMS = ("trend", "random_walk", "over_differenced", "outlier", "seas
 GARCH_AUTOCORRELATION_MAX = 0.10
 POWER_SHORTFALL = 0.05
 AR_FOUND_MIN = 0.80
+HORIZON_FOUND_MIN = 0.80
 
 #: (target id, wording) in the order the report lists them.
 TARGETS = (
@@ -26,6 +27,10 @@ TARGETS = (
                             "structure kind named in at least 90%"),
     ("mechanism_advice", "the same: the expected code on the first advice item in at least 90%"),
     ("garch_autocorrelation", "GARCH(1,1) without autocorrelation at n 300: \"autocorrelation\" named at most 10%"),
+    ("horizon_false_alarm", "errors of optimal 3- and 6-step forecasts of an AR(1) with phi 0.8 (MA(2), MA(5)), sent "
+                            "with horizon 3 and 6: `white_noise` false in at most (1 - c) + 1 point"),
+    ("horizon_found", "errors of 3-step forecasts of an AR(1) with phi 0.8 made with phi 0.4 at n 300, horizon 3: "
+                      "`white_noise` false in at least 80%"),
     ("batch_noise", "batches of 300 pure-noise series (n 100): share with any series flagged after the batch's "
                     "false-discovery adjustment at most 1 - c"),
     ("batch_ar_found", "batches of 300 with 5% AR(1) phi 0.4 series (n 200): at least 80% of those series flagged "
@@ -68,6 +73,12 @@ def evaluate(results: dict) -> list[dict]:
                              MECHANISM_TARGET, r["expected_structure"], **identity(case)))
             rows.append(_row("mechanism_advice", f"{label(case)}: {case['expected']['advice']}", "min",
                              MECHANISM_TARGET, r["expected_advice"], **identity(case)))
+        if case["family"] == "horizon" and case["expected"]["white_noise"]:
+            rows.append(_row("horizon_false_alarm", label(case), "max", round((1 - c) + 0.01, 10),
+                             r["not_white_noise"], **identity(case)))
+        if case["family"] == "horizon" and not case["expected"]["white_noise"] and case["n"] == MECHANISM_N:
+            rows.append(_row("horizon_found", label(case), "min", HORIZON_FOUND_MIN, r["not_white_noise"],
+                             **identity(case)))
         if case["scenario"] == "garch" and case["n"] == MECHANISM_N:
             named = r["kinds"].get("autocorrelation") or {"rate": 0.0, "se": 0.0, "of": case["answered"]}
             rows.append(_row("garch_autocorrelation", label(case), "max", GARCH_AUTOCORRELATION_MAX, named,

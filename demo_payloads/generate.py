@@ -374,6 +374,26 @@ def district_heating_daily_demand_drivers():
     }
 
 
+def wind_farm_six_hour_forecast_errors():
+    rng = np.random.default_rng(6)
+    n, h, phi = 336, 6, 0.8
+    shocks = rng.normal(0.0, 2.5, n + h - 1)
+    errors = sum(phi ** j * shocks[h - 1 - j:h - 1 - j + n] for j in range(h))  # the best 6-hour forecast's error
+    payload = {"name": "wind farm, ridge site: output forecast 6 hours ahead, errors (MW)",
+               "values": rounded(errors, 2), "horizon": h}
+    return payload, {
+        "scenario": "A wind farm operator forecasts the ridge site's hourly output 6 hours ahead; these are two "
+                    "weeks of those forecasts' errors (actual minus forecast, MW), sent with horizon 6.",
+        "requires": ["horizon"],
+        "expect": {"n": 336, "horizon": 6, "white_noise": True, "acf_outside_includes": [1, 2],
+                   "cautions_mention": ["lags 1 to 5 are not tested"]},
+        "why": "The output follows an AR(1) (phi 0.8) and each forecast is the best one 6 hours ahead, so its error "
+               "is a weighted sum of the next 6 shocks: correlated at lags 1 to 5 by construction and at no lag "
+               "beyond. Read with horizon 6 the reading tests lags 6 and up and finds nothing; sent without it, the "
+               "same values would be called autocorrelated at lag 1.",
+    }
+
+
 SCENARIOS = [
     bakery_daily_residuals,
     water_utility_monthly_pump_energy,
@@ -388,6 +408,7 @@ SCENARIOS = [
     dairy_daily_milk_intake_model_check,
     bus_line_daily_boardings_stability,
     district_heating_daily_demand_drivers,
+    wind_farm_six_hour_forecast_errors,
 ]
 
 

@@ -45,6 +45,7 @@ def _json(obj) -> bytes:
 
 GOOD = [
     {"id": "plain", "values": _noise(120, 1)},
+    {"id": "own-horizon", "values": _noise(120, 39), "horizon": 3},
     {"id": 42, "values": _noise(120, 2), "name": "kiosk 42"},
     {"id": "period", "values": _noise(120, 3), "period": 12},
     {"id": "no-period", "values": _noise(120, 4), "period": None},
@@ -88,6 +89,8 @@ BAD = [
     {"id": "df-too-high", "values": _noise(20, 21), "model_df": 20},
     {"id": "df-negative", "values": _noise(20, 22), "model_df": -1},
     {"id": "conf-one", "values": _noise(20, 23), "confidence": 1},
+    {"id": "horizon-zero", "values": _noise(20, 37), "horizon": 0},
+    {"id": "horizon-over-lag", "values": _noise(20, 38), "horizon": 8, "max_lag": 5},
     {"id": "conf-string", "values": _noise(20, 24), "confidence": "0.9"},
     {"id": "name-long", "values": _noise(20, 25), "name": "n" * 201},
     {"id": "name-number", "values": _noise(20, 26), "name": 5},
@@ -123,6 +126,7 @@ def _interleaved(booleans: bool = True) -> list:
     {},
     {"period": 12},
     {"period": 12, "max_lag": 10, "model_df": 1, "confidence": 0.99},
+    {"horizon": 2},
     {"missing": "pairwise"},
     {"missing": "interpolate", "transform": {"difference": 1}},
     {"band": "bartlett", "tests": ["ljung_box", "runs"]},

@@ -207,3 +207,66 @@ def test_a_late_request_through_gunicorn_is_answered_logged_and_counted(tmp_path
                if line.startswith("{")]
     stopped = {e["request_id"] for e in entries if e["message"] == "request stopped at its deadline"}
     assert stopped == {"late-json", "late-ndjson"}
+
+
+# --------------------------------------------------- the routes that follow a diagnosis: same budget and deadline
+
+FOLLOW_UP = [  # (route, body, the part named, the pointer)
+    ("/v1/model-check", {"values": _noise(3000, 4), "order": [3, 0, 3]}, "model fits", "/order"),
+    ("/v1/model-check", {"values": _noise(300, 4), "order": "suggested"}, "model fits", "/order"),
+    ("/v1/driver-check", {"values": _noise(3000, 5), "drivers": [{"name": f"d{i}", "values": _noise(3000, 6 + i)}
+                                                                  for i in range(3)]}, "drivers", "/drivers"),
+    ("/v1/stability", {"values": _noise(20000, 7), "window": 40, "step": 20}, "windows", "/window"),
+]
+
+
+@pytest.mark.parametrize("route,body,part,pointer", FOLLOW_UP)
+def test_the_follow_up_routes_are_held_to_the_budget(route, body, part, pointer):
+    client = create_app({"TESTING": True, "MAX_COST": 100}).test_client()
+    fits = _counter(client, "lagsight_models_fitted_total")
+    problem = _problem(client.post(route, json=body), 413)
+    assert f"Most of it is {part}" in problem["detail"] and "budget of 100 (LAGSIGHT_MAX_COST" in problem["detail"]
+    assert "Nothing was analysed; to fit, " in problem["detail"]
+    assert [e["pointer"] for e in problem["errors"]] == [pointer]
+    assert _counter(client, "lagsight_models_fitted_total") == fits  # refused before any fit
+
+
+def test_the_follow_up_estimates_follow_the_model():
+    """A model check: one fit at 12 microseconds a unit of engine.arima.cost plus two full reports; a driver check:
+    a fixed cost and a cost per paired value per driver; a stability request: each window as a series, plus its own
+    cost."""
+    from lagsight.engine.arima import Order, cost
+
+    app = create_app({"TESTING": True, "MAX_COST": 10**9})
+    seen = []
+    real = budget.check
+    budget.check = lambda estimate, pointer: seen.append(estimate)
+    try:
+        client = app.test_client()
+        client.post("/v1/model-check", json={"values": _noise(500, 1), "order": [1, 0, 1]})
+        client.post("/v1/driver-check", json={"values": _noise(200, 1), "drivers": [{"name": "a", "values": _noise(150, 2)}]})
+        client.post("/v1/stability", json={"values": _noise(1000, 1), "window": 100})
+    finally:
+        budget.check = real
+    model, drivers, windows = seen
+    assert model.parts["model fits"] == pytest.approx(budget.FIT_SMALL_UNIT * cost(Order(1, 0, 1, 0, 0, 0, 0, "c"), 500))
+    assert drivers.total == pytest.approx(budget.DRIVER + budget.DRIVER_POINT * 150)
+    per_window = (budget.SERIES + budget.FULL_SERIES + (budget.POINT + budget.FULL_POINT) * 100
+                  + budget.SERIES_LAG2 * 20 * 20 + budget.WINDOW)
+    assert windows.parts["windows"] == pytest.approx(budget.PASS + budget.PASS_LAG * 20 + 19 * per_window)
+
+
+@pytest.mark.parametrize("route,body,unit", [
+    ("/v1/model-check", {"values": _noise(300, 3), "order": [1, 0, 0]}, "2 of 2 series"),
+    ("/v1/driver-check", {"values": _noise(300, 3), "drivers": [{"name": "a", "values": _noise(300, 4)}]},
+     "1 of 1 drivers"),
+    ("/v1/stability", {"values": _noise(600, 3), "window": 60}, "19 of 19 windows"),
+])
+def test_a_follow_up_request_past_its_deadline_is_a_503_counted(route, body, unit, log_lines):
+    client = _late_app(1e-6).test_client()  # reading the body alone takes longer
+    stopped = _counter(client, "lagsight_requests_stopped_total", '{by="deadline"}')
+    problem = _problem(client.post(route, json=body, headers={"X-Request-ID": "late-follow-up"}), 503)
+    assert f"{unit}" in problem["detail"] and "LAGSIGHT_REQUEST_DEADLINE" in problem["detail"]
+    assert _counter(client, "lagsight_requests_stopped_total", '{by="deadline"}') == stopped + 1
+    assert any(e["message"] == "request stopped at its deadline" and e["request_id"] == "late-follow-up"
+               for e in log_lines())

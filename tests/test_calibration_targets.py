@@ -76,6 +76,15 @@ def test_garch_is_not_called_autocorrelation(rows):
 
 
 @pytest.mark.slow
+@pytest.mark.parametrize("target", ["horizon_false_alarm", "horizon_found"])
+def test_forecast_errors_are_judged_beyond_their_horizon(rows, target):
+    """Optimal 3- and 6-step forecast errors of an AR(1) (phi 0.8) sent with their horizon: white_noise false at
+    most (1 - c) + 1 point (n 100, 300); a wrong model's 3-step errors at n 300: flagged in at least 80%."""
+    misses = _judge(rows, target)
+    assert not misses, "\n".join(misses)
+
+
+@pytest.mark.slow
 @pytest.mark.parametrize("target", ["batch_noise", "batch_ar_found"])
 def test_batch_false_discovery(rows, target):
     misses = _judge(rows, target)

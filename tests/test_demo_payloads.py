@@ -17,7 +17,7 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_payloads"
 
 #: Features a payload may declare in its sidecar's "requires".
-FEATURES = {"batch", "missing", "csv", "mcleod_li", "model_check", "stability", "driver_check"}
+FEATURES = {"batch", "missing", "csv", "mcleod_li", "model_check", "stability", "driver_check", "horizon"}
 
 #: Features a payload may need that are not in the service yet -> why the test is expected to fail.
 #: Remove an entry when the feature lands; the strict xfail turns into a failure until you do.
@@ -60,6 +60,8 @@ def check_report(report: dict, expect: dict) -> None:
         assert report["n_missing"] >= expect["n_missing_at_least"]
     if "period" in expect:
         assert report["period"] == expect["period"]
+    if "horizon" in expect:
+        assert report["horizon"] == expect["horizon"]
     if "period_source" in expect:
         assert report["seasonal"]["period_source"] == expect["period_source"]
     if "white_noise" in expect:

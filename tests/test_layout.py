@@ -15,7 +15,7 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "service" / "lagsight"
 STAGES = ("web", "inputs", "engine", "consult", "outputs", "serving")
-SHARED = {"__init__.py", "app.py", "api.py", "handling.py", "tables.py", "distributed.py", "pipeline.py", "options.py",
+SHARED = {"__init__.py", "app.py", "api.py", "handling.py", "follow_up.py", "tables.py", "distributed.py", "pipeline.py", "options.py",
           "config.py", "problems.py", "version.py"}
 BIN = Path(sys.executable).parent
 

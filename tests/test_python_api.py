@@ -332,3 +332,71 @@ def test_the_readme_python_block_runs(capsys):
     out = capsys.readouterr().out
     assert "white noise" in out.lower() and "harbour" in out
     assert "422 /values The series is constant" in out
+
+
+# ------------------------------------------------------------------- the routes that follow a diagnosis
+
+FOLLOW_UP_CASES = [
+    ("model_check", "/v1/model-check", {"order": [1, 0, 0]}, {}),
+    ("model_check", "/v1/model-check", {"order": "suggested"}, {"period": 12, "confidence": 0.9}),
+    ("model_check", "/v1/model-check", {"order": [0, 1, 1]}, {"seasonal_order": [0, 1, 1, 12], "name": "depot 4"}),
+    ("driver_check", "/v1/driver-check", {"drivers": [{"name": "price", "values": _noise(150, 8).tolist()}]}, {}),
+    ("driver_check", "/v1/driver-check", {"drivers": [{"name": "price", "values": _ar1(150, 0.5, 9).tolist()},
+                                                      {"name": "staff", "values": _noise(150, 10).tolist()}]},
+     {"max_lag": 8, "confidence": 0.9}),
+    ("stability", "/v1/stability", {"window": 50}, {}),
+    ("stability", "/v1/stability", {"window": 40}, {"step": 10, "max_lag": 12, "model_df": 1}),
+]
+
+
+@pytest.mark.parametrize("name,route,required,opts", FOLLOW_UP_CASES)
+def test_the_follow_up_functions_answer_what_their_routes_answer(client, name, route, required, opts):
+    values = _ar1(150, 0.5, 7).tolist()
+    r = client.post(route, json={"values": values, **required, **opts})
+    assert r.status_code == 200, r.get_json()
+    assert getattr(lagsight, name)(values, **required, **opts) == r.get_json()
+
+
+FOLLOW_UP_ERRORS = [  # mismatched lengths, a window larger than the series, a model that does not converge
+    ("driver_check", "/v1/driver-check", {"values": _noise(60, 1).tolist(), "drivers": [
+        {"name": "a", "values": _noise(60, 2).tolist(), "timestamps": ["2024-01-01"]}]}),
+    ("stability", "/v1/stability", {"values": _noise(60, 1).tolist(), "window": 80}),
+    ("model_check", "/v1/model-check", {"values": _noise(12, 1).tolist(), "order": [2, 0, 2],
+                                        "trend": "constant_linear"}),
+    ("model_check", "/v1/model-check", {"values": _noise(60, 1).tolist(), "order": [1, 0, 0], "model_df": 1}),
+]
+
+
+@pytest.mark.parametrize("name,route,body", FOLLOW_UP_ERRORS)
+def test_follow_up_errors_carry_the_problem_details_the_route_answers(client, name, route, body):
+    r = client.post(route, json=body)
+    assert r.status_code == 422
+    values = body.pop("values")
+    with pytest.raises(LagsightError) as caught:
+        getattr(lagsight, name)(values, **body)
+    answered = r.get_json()
+    assert caught.value.as_dict() == {k: v for k, v in answered.items() if k != "instance"} | {"instance": None}
+
+
+def test_a_driver_series_with_a_datetime_index_sends_its_stamps(client):
+    days = pd.date_range("2025-03-01", periods=150, freq="D")
+    y = pd.Series(_ar1(150, 0.4, 3), index=days, name="bakery")
+    price = pd.Series(_noise(120, 4), index=days[30:])
+    got = lagsight.driver_check(y, drivers={"price": price})
+    stamps = [d.strftime("%Y-%m-%d") for d in days]
+    http = client.post("/v1/driver-check", json={"values": y.tolist(), "timestamps": stamps, "name": "bakery",
+                                                 "drivers": [{"name": "price", "values": price.tolist(),
+                                                              "timestamps": stamps[30:]}]}).get_json()
+    assert got == http and got["drivers"][0]["n"] == 120
+
+
+def test_the_follow_up_views_call_the_functions_the_api_calls():
+    import inspect
+
+    import lagsight.web.drivers as drivers
+    import lagsight.web.model_check as model_check
+    import lagsight.web.stability as stability
+
+    for view, function in ((model_check.model_check, "model_check"), (drivers.driver_check, "driver_check"),
+                           (stability.stability, "stability")):
+        assert f"follow_up.{function}(" in inspect.getsource(view)

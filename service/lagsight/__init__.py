@@ -11,7 +11,8 @@ In Python, without a server, the same answers come from :mod:`lagsight.api`::
     >>> lagsight.diagnose([3.1, 2.7, 3.4, 2.9, 3.3, 2.8, 3.0, 3.5, 2.6, 3.2])["verdict"]["white_noise"]
     True
 
-``lagsight.diagnose_many(frame)`` does a long pandas DataFrame of many series, and
+``lagsight.diagnose_many(frame)`` does a long pandas DataFrame of many series; ``lagsight.model_check``,
+``lagsight.driver_check`` and ``lagsight.stability`` answer as the routes that follow a diagnosis; and
 ``lagsight.distributed.diagnose_dask(ddf)`` a dask DataFrame (the optional extra ``lagsight[dask]``).
 Errors are raised as :class:`lagsight.LagsightError`, carrying the service's problem details.
 
@@ -48,7 +49,7 @@ def create_app(config=None):
 
 
 #: Names of the Python API, imported from lagsight.api on first use (``import lagsight`` stays light).
-_API = ("diagnose", "diagnose_many", "LagsightError")
+_API = ("diagnose", "diagnose_many", "model_check", "driver_check", "stability", "LagsightError")
 
 
 def __getattr__(name: str):
@@ -59,4 +60,5 @@ def __getattr__(name: str):
     raise AttributeError(f"module 'lagsight' has no attribute {name!r}")
 
 
-__all__ = ["create_app", "diagnose", "diagnose_many", "LagsightError", "__version__"]
+__all__ = ["create_app", "diagnose", "diagnose_many", "model_check", "driver_check", "stability", "LagsightError",
+           "__version__"]

@@ -8,6 +8,8 @@ True
 - :func:`diagnose`: one series -> the report of ``POST /v1/diagnostics`` (JSON answer) as a dict.
 - :func:`diagnose_many`: a long table of many series -> one row of results per series (a pandas
   DataFrame, :data:`lagsight.tables.TABLE`); with ``reports=True`` also the answer of ``POST /v1/diagnostics/batch``.
+- :func:`model_check`, :func:`driver_check`, :func:`stability`: the answers of ``POST /v1/model-check``,
+  ``/v1/driver-check`` and ``/v1/stability`` (JSON) as dicts, from the same functions (:mod:`lagsight.follow_up`).
 - :class:`LagsightError`: raised where the service answers with an error; it carries the same problem
   details (status, type, title, detail, errors with JSON pointers into the equivalent request body).
 
@@ -28,7 +30,7 @@ from collections.abc import Mapping
 
 import pandas as pd
 
-from lagsight import handling, options, tables
+from lagsight import follow_up, handling, options, tables
 from lagsight.consult import across
 from lagsight.pipeline import gc_paused, run, run_blocks
 from lagsight.problems import KINDS, TYPE_PREFIX, Problem
@@ -36,6 +38,9 @@ from lagsight.problems import KINDS, TYPE_PREFIX, Problem
 #: The limits that concern a series or a batch's analysis, as the service's defaults (settings names).
 LIMITS = {key.upper(): options.DEFAULT_LIMITS[key] for key in ("max_points", "max_lag", "max_replicates",
                                                               "max_simulated_values")}
+#: The limits of the routes that follow a diagnosis: :data:`LIMITS` and the batch limits that bound a stability
+#: request's windows (and a driver check's values), as the service's defaults.
+ROUTE_LIMITS = {**LIMITS, **{key.upper(): options.DEFAULT_LIMITS[key] for key in ("max_series", "max_batch_points")}}
 #: Series prepared and analysed at a time: at most one default batch request's worth.
 CHUNK = options.DEFAULT_LIMITS["max_series"]
 
@@ -68,14 +73,79 @@ class LagsightError(Problem):
         return f"{self.status} {self.title}: {self.detail}{fields}"
 
 
-def limits_with(limits: Mapping | None) -> dict:
-    """:data:`LIMITS` with the given ones (settings names) in their place."""
-    out = dict(LIMITS)
+def limits_with(limits: Mapping | None, known: Mapping = LIMITS) -> dict:
+    """``known`` (:data:`LIMITS`) with the given ones (settings names) in their place."""
+    out = dict(known)
     for key, value in (limits or {}).items():
-        if key.upper() not in LIMITS:
-            raise TypeError(f"unknown limit {key!r}; the limits are {', '.join(LIMITS)}")
+        if key.upper() not in known:
+            raise TypeError(f"unknown limit {key!r}; the limits are {', '.join(known)}")
         out[key.upper()] = value
     return out
+
+
+def series_body(values, options_: Mapping) -> dict:
+    """The request body of one series: ``values`` as a list, with a pandas Series' stamps and name."""
+    body = {"values": tables.value_list(values), **options_}
+    if isinstance(values, pd.Series):
+        index = values.index.to_timestamp() if isinstance(values.index, pd.PeriodIndex) else values.index
+        if isinstance(index, pd.DatetimeIndex):
+            if "timestamps" in options_:
+                raise TypeError("timestamps come from the Series' DatetimeIndex; do not give them twice")
+            body["timestamps"] = tables.iso_labels(index).tolist()
+        if "name" not in options_ and isinstance(values.name, str):
+            body["name"] = values.name
+    return body
+
+
+def _follow_up(run_route, schema, body: dict, limits: Mapping | None) -> dict:
+    cfg = limits_with(limits, ROUTE_LIMITS)
+    try:
+        return run_route(handling.load(schema, body), cfg)
+    except Problem as problem:
+        raise LagsightError.of(problem) from None
+
+
+def model_check(values, /, *, order, limits: Mapping | None = None, **options_) -> dict:
+    """Fit a seasonal ARIMA model and diagnose its residuals: the answer of ``POST /v1/model-check`` as a dict.
+
+    ``values`` as for :func:`diagnose`; ``order`` is [p, d, q] or "suggested"; the other fields of the request
+    (``seasonal_order``, ``trend``, ``timestamps``, ``period``, ``missing``, ``transform``, ``max_lag``,
+    ``confidence``, ...) as keyword arguments. ``limits`` as for :func:`diagnose`, plus MAX_SERIES and
+    MAX_BATCH_POINTS (:data:`ROUTE_LIMITS`). Raises :class:`LagsightError` where the route answers an error (a 422
+    for a model that does not converge, a series too short for the order, ...).
+    """
+    return _follow_up(follow_up.model_check, follow_up.MODEL_CHECK, {**series_body(values, options_), "order": order},
+                      limits)
+
+
+def driver_check(values, /, *, drivers, limits: Mapping | None = None, **options_) -> dict:
+    """Does a candidate driver still move with the series: the answer of ``POST /v1/driver-check`` as a dict.
+
+    ``drivers`` is a list of ``{"name", "values", "timestamps"?}`` (values as a list, array or pandas Series; a
+    Series with a DatetimeIndex gives its stamps), or a mapping of name to values. Other fields and ``limits`` as
+    for :func:`model_check`; raises :class:`LagsightError` where the route answers an error (a driver that shares
+    too few values with the series, ...).
+    """
+    if isinstance(drivers, Mapping):
+        drivers = [{"name": name, "values": v} for name, v in drivers.items()]
+    sent = []
+    for driver in drivers:
+        if isinstance(driver, Mapping) and "values" in driver:
+            sent.append(series_body(driver["values"], {k: v for k, v in driver.items() if k != "values"}))
+        else:
+            sent.append(driver)  # left to the route's checks (it answers where a driver is not an object)
+    return _follow_up(follow_up.driver_check, follow_up.DRIVER_CHECK,
+                      {**series_body(values, options_), "drivers": sent}, limits)
+
+
+def stability(values, /, *, window: int, limits: Mapping | None = None, **options_) -> dict:
+    """Diagnose the series window by window and read when it changed: the JSON answer of ``POST /v1/stability``.
+
+    ``window`` (and ``step``, ...) as in the request; other fields and ``limits`` as for :func:`model_check`.
+    Raises :class:`LagsightError` where the route answers an error (a window larger than the series, ...).
+    """
+    return _follow_up(follow_up.stability, follow_up.STABILITY, {**series_body(values, options_), "window": window},
+                      limits)
 
 
 def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
@@ -91,7 +161,7 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
         Settings names (MAX_POINTS, MAX_LAG, MAX_REPLICATES, MAX_SIMULATED_VALUES) over :data:`LIMITS`.
     **options_
         The request's fields: ``timestamps``, ``period``, ``name``, ``missing``, ``transform``, ``max_lag``,
-        ``confidence``, ``model_df``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
+        ``confidence``, ``model_df``, ``horizon``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
         (GET /v1/methods and openapi/openapi.yaml describe them).
 
     Raises
@@ -99,15 +169,7 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
     LagsightError
         Where the service answers with an error (a 422 with a pointer per bad field, ...).
     """
-    body = {"values": tables.value_list(values), **options_}
-    if isinstance(values, pd.Series):
-        index = values.index.to_timestamp() if isinstance(values.index, pd.PeriodIndex) else values.index
-        if isinstance(index, pd.DatetimeIndex):
-            if "timestamps" in options_:
-                raise TypeError("timestamps come from the Series' DatetimeIndex; do not give them twice")
-            body["timestamps"] = tables.iso_labels(index).tolist()
-        if "name" not in options_ and isinstance(values.name, str):
-            body["name"] = values.name
+    body = series_body(values, options_)
     cfg = limits_with(limits)
     try:
         data = handling.load(handling.SINGLE_LOAD, body)
@@ -194,7 +256,7 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
         As for :func:`diagnose`.
     **options_
         The batch request's shared options: ``detail`` ("full", the default, or "brief": faster, without the
-        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``band``,
+        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``horizon``, ``band``,
         ``tests``, ``p_values``, ``replicates``, ``seed``.
 
     Returns

@@ -12,6 +12,9 @@ from lagsight.engine.bands import BAND_KINDS as _BAND_KINDS
 
 DEFAULT_CONFIDENCE = 0.95
 DEFAULT_MODEL_DF = 0
+#: The values are h-step-ahead forecast errors (option ``horizon``): lags 1..h - 1 are not tested.
+DEFAULT_HORIZON = 1
+MIN_HORIZON = 1
 MIN_POINTS = 3  # the smallest series with a defined lag-1 autocorrelation (NIST NumAcc1 has 3)
 MIN_PERIOD = 2
 MAX_ID_LENGTH = 200  # characters of a batch series id
@@ -54,19 +57,19 @@ def short_lag(n: int, max_lag: int, period: int | None) -> int:
     return max(1, min(10 if period is None else 2 * period, n // 5, max_lag))
 
 
-def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int) -> list[int]:
+def portmanteau_lags(n: int, max_lag: int, period: int | None, model_df: int, horizon: int = 1) -> list[int]:
     """Lags at which the portmanteau tests are reported.
 
-    - the short lag min(10, n // 5), or min(2 m, n // 5) with a period m (see
-      :func:`short_lag`), raised to model_df + 1 so it has degrees of freedom and
-      kept within max_lag;
-    - the seasonal lags m and 2 m when a period is known and they are within max_lag;
+    - the short lag min(10, n // 5), or min(2 m, n // 5) with a period m, raised to model_df + 1 so it has
+      degrees of freedom and kept within max_lag (see :func:`short_lag`); with a horizon h the sums start at
+      lag h, so the short lag is moved up by h - 1 and raised to model_df + h;
+    - the seasonal lags m and 2 m when a period is known and they are within horizon..max_lag;
     - max_lag itself.
     """
-    short = min(max(short_lag(n, max_lag, period), model_df + 1), max_lag)
+    short = min(max(short_lag(n, max_lag, period) + horizon - 1, model_df + horizon), max_lag)
     lags = {short, max_lag}
     if period is not None:
-        lags.update(h for h in (period, 2 * period) if h <= max_lag)
+        lags.update(h for h in (period, 2 * period) if horizon <= h <= max_lag)
     return sorted(lags)
 
 

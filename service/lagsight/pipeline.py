@@ -60,11 +60,18 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
                               limits["MAX_LAG"])
     if mask is not None:
         max_lag = limit_to_paired_lags(series, mask, max_lag, opts.get("max_lag") is not None)
+    horizon = opts.get("horizon", options.DEFAULT_HORIZON)
+    if horizon > max_lag:
+        raise invalid("/horizon", f"horizon must be at most max_lag ({max_lag}) so that a lag is left to test "
+                                  f"(lags horizon to max_lag are tested), got {horizon}; raise max_lag or lower horizon.")
     chosen = opts.get("tests")
     tests = tuple(t for t in options.TEST_NAMES if t in chosen) if chosen else _DEFAULT_TESTS
     monte_carlo = opts.get("p_values", options.DEFAULT_P_VALUES) == "monte_carlo"
     replicates = opts.get("replicates", options.DEFAULT_REPLICATES) if monte_carlo else 0
     seed = opts.get("seed")
+    if monte_carlo and horizon > 1:
+        raise invalid("/p_values", "Monte Carlo p-values simulate an i.i.d. null; with a horizon above 1 the null is a "
+                                   "moving average of unknown coefficients: use asymptotic p-values.")
     if monte_carlo and mask is not None:
         raise invalid("/p_values", "Monte Carlo p-values need a complete series; with missing values use "
                                    "missing \"interpolate\", or asymptotic p-values.")
@@ -83,7 +90,7 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
         max_lag=max_lag,
         confidence=opts["confidence"],
         model_df=opts["model_df"],
-        test_lags=tuple(options.portmanteau_lags(n, max_lag, series.period, opts["model_df"])),
+        test_lags=tuple(options.portmanteau_lags(n, max_lag, series.period, opts["model_df"], horizon)),
         short_lag=options.short_lag(n, max_lag, series.period),
         period=series.period,
         band=opts.get("band", options.DEFAULT_BAND),
@@ -92,6 +99,7 @@ def plan_for(series: PreparedSeries, opts: dict, limits) -> Plan:
         replicates=replicates,
         seed=seed,
         report_extras=opts.get("detail", options.DEFAULT_DETAIL) == "full",
+        horizon=horizon,
     )
     return Plan(n, spec, series.length, mask is not None, series.filled is not None)
 

@@ -11,7 +11,7 @@ from scipy.special import bdtrc
 
 from lagsight import options
 from lagsight.consult.decision import Decision
-from lagsight.consult.words import and_, fmt, fmt_p, plural, tests_by_name
+from lagsight.consult.words import and_, below, fmt, fmt_p, plural, tests_by_name
 
 
 def cutoff(block: dict, alpha: float) -> int | None:
@@ -150,6 +150,13 @@ def advice(report: dict, d: Decision) -> list[dict]:
                              f"The autocorrelation decays slowly (r1 = {fmt(d.r1, 2)}) and {d.unit_root_test()}."))
         elif kind == "seasonal":
             out.append(_seasonal(report, d))
+        elif kind == "autocorrelation" and not explained and d.horizon > 1:
+            out.append(_item("add_arma_terms", f"The forecasting model misses dependence: check its one-step residuals "
+                                               "(horizon 1) and add the AR or MA terms they call for, then check the "
+                                               f"{d.horizon}-step errors again.",
+                             f"The {d.horizon}-step forecast errors are still correlated at lag {d.strongest_lag} "
+                             f"(r = {fmt(d.strongest_r, 2)}), beyond the {below(d.horizon)} that such errors "
+                             "share by construction."))
         elif kind == "autocorrelation" and not explained:
             out.append(_short_term(report, d))
         elif kind == "volatility_clustering":
@@ -161,7 +168,8 @@ def advice(report: dict, d: Decision) -> list[dict]:
     if d.white_noise and not out:
         out.append(_item("nothing_to_model", "Nothing further to model in the autocorrelation; keep checking as new "
                                              "data arrive.",
-                         f"No lag up to {d.max_lag} stands out once the number of checks is allowed for "
+                         f"No lag {'up to' if d.horizon == 1 else f'from {d.horizon} to'} {d.max_lag} stands out once "
+                         "the number of checks is allowed for "
                          f"(adjusted {fmt_p(d.p_value)})."))
     if any(t["reject"] for t in tests.get("jarque_bera", [])):
         out.append(_item("robust_intervals", "Do not rely on normal-theory prediction intervals; use bootstrap or "

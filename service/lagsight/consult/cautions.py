@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from lagsight import options
 from lagsight.consult.decision import Decision
-from lagsight.consult.words import and_, fmt, pct, plural
+from lagsight.consult.words import and_, below, fmt, pct, plural
 
 
 def short_series_warning(n: int) -> dict:
@@ -52,6 +52,16 @@ def cautions(report: dict, decision: Decision) -> list[str]:
     elif report["p_values"]["method"] == "monte_carlo":
         out.append("Monte Carlo p-values simulate an i.i.d. series of the same length; they do not reflect the "
                    f"estimation of the model's {report['model_df']} parameters, so they err on the large side.")
+    if report.get("horizon", 1) > 1:
+        h = report["horizon"]
+        out.append(f"These values are read as {h}-step-ahead forecast errors: {below(h)} {'is' if h == 2 else 'are'} "
+                   "not tested (such errors are correlated there by construction, even from the best forecast), so "
+                   f"structure there goes unseen; the band and tests from lag {h} on use Bartlett's variance with the "
+                   f"autocorrelations at {below(h)} as estimated, an approximation that is rough for short series. "
+                   "The runs, turning-point and cumulative-periodogram checks look at every lag, so they often reject "
+                   "such errors; they do not enter the verdict." + (f" model_df = {report['model_df']} is subtracted from the degrees of freedom of the "
+                                f"sums from lag {h} on, as for one-step residuals; for h-step errors that is a "
+                                "convention, not a derived result." if report["model_df"] else ""))
     if report["n"] < options.SMALL_SAMPLE_N:
         out.append(f"The series is short (n = {report['n']}): the bands are large-sample approximations and only "
                    "rough here, and the tests have little power to detect weak structure.")

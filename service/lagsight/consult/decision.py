@@ -6,6 +6,9 @@ Decision rule (documented in /v1/methods, the README and the OpenAPI file)
 Let alpha = 1 - confidence. Two channels of evidence share alpha
 (weighted Bonferroni), so an i.i.d. series gets any named structure with probability at most alpha:
 
+With ``horizon`` h > 1 (h-step forecast errors) every component below starts at lag h instead of lag 1 (lag h
+alone, the sums over lags h.., the spikes over h..), with Bartlett's variance for lags >= h (``engine/horizon.py``).
+
 1. autocorrelation, at level 0.9 alpha: the smallest p-value among the lag-1 autocorrelation, the Ljung-Box-type
    sums at the short lag h and at max_lag K, the largest spike over lags 1..h (Sidak-corrected), the largest
    seasonal spike (Sidak-corrected) and the rank autocorrelations, referred to its simulated null distribution (min-p adjustment, Westfall and Young
@@ -45,7 +48,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lagsight import options
-from lagsight.consult.words import fmt, fmt_p, plural
+from lagsight.consult.words import below, fmt, fmt_p, plural
 from lagsight.engine.mechanism import Mechanism
 from lagsight.engine.whiteness import COMPONENTS, Evidence, raw_threshold, sidak
 
@@ -59,7 +62,8 @@ RANK_GAP_SE = 3.0
 #: Structure kinds in the order of their importance for the advice.
 KINDS = ("outliers", "over_differenced", "trend", "unit_root", "seasonal", "autocorrelation",
          "volatility_clustering", "non_random_order", "uneven_spectrum")
-_COMPONENT_LAG = {"lag_one": lambda lay, z: 1, "ljung_box_short": lambda lay, z: lay.short,
+#: The lag each component points to ("lag_one" is the first tested lag: lag horizon).
+_COMPONENT_LAG = {"lag_one": lambda lay, z: lay.horizon, "ljung_box_short": lambda lay, z: lay.short,
                   "ljung_box_long": lambda lay, z: lay.max_lag,
                   "spike": lambda lay, z: int(np.argmax(np.abs(z[:lay.short]))) + 1,
                   "seasonal_spike": lambda lay, z: lay.seasonal[int(np.argmax(np.abs(z[np.asarray(lay.seasonal) - 1])))]
@@ -92,6 +96,7 @@ class Decision:
     filled: int = 0
     tied_share: float = 0.0
     checks: dict = field(default_factory=dict)  # ADF p-values and the slope's t where computed
+    horizon: int = 1  # h-step forecast errors: lags 1..horizon - 1 are not tested
 
     @property
     def mechanism(self) -> str | None:
@@ -166,8 +171,12 @@ def summary(d: Decision) -> str:
                 "uncorrelated, yet not independent noise.")
     few = (f", but with only n = {d.n} values the checks have little power to find structure"
            if d.n < options.SMALL_SAMPLE_N else "")
-    return (f"Consistent with white noise: no autocorrelation stands out at lags 1 to {d.max_lag} "
-            f"(adjusted {fmt_p(d.p_value)}){few}.")
+    untested = (f"; {below(d.horizon)} {'is' if d.horizon == 2 else 'are'} not tested, as {d.horizon}-step forecast "
+                "errors are correlated "
+                "there by construction" if d.horizon > 1 else "")
+    lags = f"lag {d.max_lag}" if d.horizon == d.max_lag else f"lags {d.horizon} to {d.max_lag}"
+    return (f"Consistent with white noise: no autocorrelation stands out at {lags} "
+            f"(adjusted {fmt_p(d.p_value)}){few}{untested}.")
 
 
 def _rejects(analysis, name: str, alpha: float) -> np.ndarray:
@@ -221,7 +230,7 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
             strongest_r=float(r[i, k - 1]), r1=r1, period=periods[i], max_lag=lay.max_lag, outliers=mech.outliers[i],
             outlier_z=mech.outlier_z[i], filled=filled[i], tied_share=float(ev.tied_share[i]),
             checks={"adf_p": _num(mech.adf_p[i]), "adf_trend_p": _num(mech.adf_trend_p[i]),
-                    "slope_t": _num(mech.slope_t[i]), "residual_r1": _num(mech.resid_r1[i])})
+                    "slope_t": _num(mech.slope_t[i]), "residual_r1": _num(mech.resid_r1[i])}, horizon=lay.horizon)
         out.append(d)
     return out
 
@@ -263,7 +272,7 @@ def _mechanisms(i, z, zr, comps, t_star, r1, lay, period, mech: Mechanism, alpha
     if seasonal and "over_differenced" not in kinds:
         kinds.append("seasonal")
     if period and seasonal:
-        lags = [k for k in range(1, h + 1) if k % period]
+        lags = [k for k in range(lay.horizon, h + 1) if k % period]
         other = min(sidak(np.abs(z[np.asarray(lags) - 1]).max(), len(lags)), comps[0]) if lags else 1.0
         short_term = other <= t_star
     else:

@@ -6,13 +6,16 @@ from lagsight.consult.advice import advice
 from lagsight.consult.cautions import cautions, short_series_warning
 from lagsight.consult.decision import Decision
 from lagsight.consult.sentences import sentences
-from lagsight.consult.words import meaning, tests_by_name
+from lagsight.consult.words import below, meaning, tests_by_name
 
 
 def interpret(report: dict, decision: Decision) -> dict:
     """Fill the verdict, sentences, advice, cautions and test meanings of a numeric report (in place)."""
+    h = report.get("horizon", 1)
     for t in report["tests"]:
         t["meaning"] = meaning(t["name"], t["lag"])
+        if h > 1 and "from_lag" in t["details"]:
+            t["meaning"] += f" Summed from lag {h}: {below(h)} {'is' if h == 2 else 'are'} not tested (horizon {h})."
     tests = tests_by_name(report)
     report["verdict"] = decision.verdict()
     s = report["seasonal"]

@@ -4,6 +4,7 @@ from __future__ import annotations
 from lagsight.consult.decision import Decision
 from lagsight.consult.words import (
     and_,
+    below,
     fmt,
     fmt_p,
     lag_list,
@@ -24,8 +25,10 @@ def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | N
     label = {"white_noise": "", "small_sample": " small-sample", "bartlett": " Bartlett",
              "simultaneous": " simultaneous"}[band["kind"]]
     conf = pct(report["confidence"])
-    line = (f"{ex['count']} of {K} autocorrelations (lags 1 to {K}) fall outside the {conf}{label} band{width}"
-            + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(report['acf']['outside'])})" if ex["count"] else "")
+    first = report.get("horizon", 1)
+    outside = sorted(ex["far"] + ex["marginal"])
+    line = (f"{ex['count']} of {ex['lags_tested']} autocorrelations (lags {first} to {K}) fall outside the {conf}{label} "
+            f"band{width}" + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(outside)})" if ex["count"] else "")
             + f"; about {fmt(ex['expected'], 2)} would be expected by chance if the series were white noise")
     if ex["count"]:
         line += f", and {ex['count']} or more happen by chance with probability {fmt(ex['chance_probability'], 2)}."
@@ -100,6 +103,9 @@ def _portmanteau_sentences(report: dict, alpha: float, tests: dict[str, list[dic
     if not done:
         return out
     mc = " (Monte Carlo p-values)" if done[0]["method"] == "monte_carlo" else ""
+    first = report.get("horizon", 1)
+    if first > 1:
+        mc = f" from lag {first} on, with Bartlett's variance ({below(first)} not tested)"
     parts = [f"up to lag {t['lag']}: Q = {fmt(t['statistic'])} on {plural(t['df'], 'degree')} of freedom, {fmt_p(t['p_value'])}"
              for t in done]
     rejecting = [str(t["lag"]) for t in done if t["reject"]]
@@ -127,7 +133,9 @@ def _seasonal_sentences(report: dict, tests: dict[str, list[dict]]) -> list[str]
                        else f"The seasonal lag {lags[0]} alone")
             verb = ("reject" if len(lags) > 1 else "rejects") if t["reject"] else \
                 ("do not reject" if len(lags) > 1 else "does not reject")
-            out.append(f"{subject} {verb} white noise (seasonal Ljung-Box {fmt_p(t['p_value'])}).")
+            aside = (", but the verdict, which allows for the number of lags and checks, does not count it"
+                     if t["reject"] and report["verdict"]["white_noise"] else "")
+            out.append(f"{subject} {verb} white noise (seasonal Ljung-Box {fmt_p(t['p_value'])}){aside}.")
     if s["strength"] and s["strength"]["value"] is not None:
         out.append(f"Seasonal strength from an STL decomposition is {fmt(s['strength']['value'], 2)} on a 0-to-1 "
                    "scale.")

@@ -22,6 +22,11 @@ def meaning(name: str, lag: int | None) -> str:
     return MEANINGS[name].format(lag=lag)
 
 
+def below(h: int) -> str:
+    """The lags below a horizon h > 1 in words: "lag 1" or "lags 1 to h - 1"."""
+    return "lag 1" if h == 2 else f"lags 1 to {h - 1}"
+
+
 def fmt(x: float, digits: int = 3) -> str:
     """A number for a sentence: 3 significant digits, no exponent for everyday sizes."""
     if x == 0:

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import chdtrc
 
+from lagsight.engine import horizon as ahead
 from lagsight.engine import mechanism as mechanism_checks
 from lagsight.engine import randomness, seasonality, spectrum, stationarity, stl, whiteness
 from lagsight.engine.autocorrelation import autocovariance, center
@@ -51,12 +52,19 @@ class Spec:
     seed: int | None = None
     seasonal_strength: bool = True
     report_extras: bool = True  # suggested period and unit-root check (read only by the full report)
+    horizon: int = 1  # the values are h-step forecast errors: lags 1..horizon - 1 are not tested (horizon.py)
 
     @property
     def seasonal_lags(self) -> tuple[int, ...]:
         if self.period is None:
             return ()
-        return tuple(self.period * j for j in range(1, 4) if self.period * j <= self.max_lag)
+        return tuple(self.period * j for j in range(1, 4) if self.horizon <= self.period * j <= self.max_lag)
+
+    @property
+    def layout(self) -> whiteness.Layout:
+        """The verdict's evidence layout: with a horizon H the short window is the lags H..short + H - 1."""
+        H = self.horizon
+        return whiteness.Layout(self.max_lag, min(self.short_lag + H - 1, self.max_lag), self.seasonal_lags, H)
 
 
 @dataclass
@@ -128,8 +136,11 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None
     """
     m, n = x.shape
     out = []
+    H = spec.horizon
     for name in spec.tests:
-        if name in ("ljung_box", "box_pierce") and mask is not None:
+        if H > 1 and name in ("ljung_box", "box_pierce", "mcleod_li"):
+            out.append(_from_horizon(name, d, r, spec, mask, n_eff))
+        elif name in ("ljung_box", "box_pierce") and mask is not None:
             stat, df, p = masked_portmanteau(r, n, n_eff, spec.test_lags, spec.model_df, name)
             out.append(TestArrays(name, list(spec.test_lags), [int(v) if v > 0 else None for v in df], stat, p, stat))
         elif name in ("ljung_box", "box_pierce"):
@@ -142,6 +153,8 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None
             idx = np.array(lags) - 1
             weight = n if n_eff is None else n_eff[:, idx]
             stat = (weight * (n + 2.0) * (r[:, idx] ** 2 / (n - np.array(lags)))).sum(axis=1)[:, None]
+            if H > 1:  # lags at or beyond the horizon, with Bartlett's variance there
+                stat = stat / ahead.bartlett_factor(r, H)[:, None]
             out.append(TestArrays(name, [lags[-1]], [len(lags)], stat, chdtrc(len(lags), stat), stat,
                                   extras={"seasonal_lags": list(lags)}))
         elif name == "mcleod_li" and mask is not None:
@@ -185,6 +198,28 @@ def _tests(x: np.ndarray, d: np.ndarray, r: np.ndarray, power: np.ndarray | None
         else:
             raise ValueError(f"unknown test {name!r}")
     return out
+
+
+def _from_horizon(name: str, d: np.ndarray, r: np.ndarray, spec: Spec, mask: np.ndarray | None,
+                  n_eff: np.ndarray | None) -> TestArrays:
+    """Ljung-Box, Box-Pierce or McLeod-Li summed from lag ``spec.horizon`` with Bartlett's variance
+    (:func:`.horizon.portmanteau_from`); McLeod-Li at the short lag shifted by the horizon, on the squares."""
+    m, n = d.shape
+    H = spec.horizon
+    if name == "mcleod_li":
+        lag = min(spec.short_lag + H - 1, spec.max_lag)
+        if mask is None:
+            sq = center(d * d)
+            c = autocovariance(sq, lag)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                r2, size = c[:, 1:] / c[:, :1], n
+        else:
+            r2, size = masked_acf(np.where(mask, d * d, np.nan), mask, lag)
+        stat, _, p = ahead.portmanteau_from(r2, size, [lag], H)
+        return TestArrays(name, [lag], [lag - H + 1], stat, p, stat, extras={"from_lag": H})
+    stat, df, p = ahead.portmanteau_from(r, n if n_eff is None else n_eff, spec.test_lags, H, spec.model_df, name)
+    return TestArrays(name, list(spec.test_lags), [int(v) if v > 0 else None for v in df], stat, p, stat,
+                      extras={"from_lag": H})
 
 
 def _observe(x: np.ndarray, spec: Spec):
@@ -258,6 +293,8 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
         d, power = center_observed(x, mask), None
     phi = np.clip(pacf(r), -1.0, 1.0)
     band = acf_band(spec.band, r, n, spec.confidence)
+    if spec.horizon > 1 and spec.band != "bartlett":  # lags >= h: Bartlett's variance, as the evidence uses
+        band.se[:, spec.horizon - 1:] *= np.sqrt(ahead.bartlett_factor(r, spec.horizon))[:, None]
     p_band = pacf_band(spec.band, m, n, spec.max_lag, spec.confidence)
     if n_eff is not None:
         scale = np.sqrt(n / n_eff)
@@ -297,8 +334,7 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
             for i, result in zip(slow.tolist(), stationarity.adf_rows(x[slow])):
                 unit_root[i] = result
     decision_mask = mask if filled is None else (~filled if mask is None else mask & ~filled)
-    layout = whiteness.Layout(spec.max_lag, spec.short_lag, spec.seasonal_lags)
-    ev = whiteness.evidence(x, layout, spec.model_df, mask=decision_mask)
+    ev = whiteness.evidence(x, spec.layout, spec.model_df, mask=decision_mask)
     alpha = 1.0 - spec.confidence
     candidates = ev.p_autocorrelation < alpha
     if mask is None:

@@ -19,15 +19,19 @@ The components are
 - the sum at h and the largest spike over 1..h of the autocorrelations of the ranks (rank autocorrelation: a
   single outlier can hide or fake a correlation, it cannot move ranks much).
 
-The smallest component p-value is referred to its own null distribution: REPLICATES i.i.d. normal series of
-about the same length (as the next paragraph says), seeded, with the classical statistics
-(tau = 1). That is the min-p adjustment of Westfall and Young (1993): it accounts for the strong correlation among
-the components (no Bonferroni waste) and for the small-sample bias of the chi-square and normal approximations
-(the Ljung-Box test at lag K is liberal at n = 20-40). The adjusted p-value is the exact Monte Carlo one,
-(draws at or below + 1) / (draws + 1), so it is never below the table's resolution 1 / (draws + 1).
-Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (a shorter length is
-the more liberal one, so this errs on the safe side); long lengths get fewer draws (at most MAX_SIMULATED
-values per table). A table is built once per process for each (length, layout) and kept.
+The smallest component p-value is referred to its own null distribution: REPLICATES seeded i.i.d. normal series
+of about the same length, with the classical statistics (tau = 1): the min-p adjustment of Westfall and Young
+(1993), which accounts for the correlation among the components and for the small-sample bias of the chi-square
+and normal approximations. The adjusted p-value is the exact Monte Carlo one, (draws at or below + 1) / (draws +
+1). Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (the shorter
+length is the more liberal one); long lengths get fewer draws (at most MAX_SIMULATED values per table). A table is
+built once per process for each (length, layout) and kept.
+
+With a horizon H > 1 (h-step forecast errors, :mod:`.horizon`) every component starts at lag H: z_k for k >= H
+uses Bartlett's variance (times B = 1 + 2 sum_{j<H} r_j^2), z at lags below H is 0, and the sums take Box's scaled
+chi-square for correlated lags. The layout (so the table) is keyed by H; its i.i.d. null computes the same
+statistics, so the estimation of B is in the reference (simulation: tests/test_horizon.py, CALIBRATION.md). A
+table for H > 1 costs about what one for H = 1 does (CPU time 0.8-1.1 times, measured side by side at n 100-2,000).
 
 Volatility channel
 ------------------
@@ -56,8 +60,10 @@ from functools import lru_cache
 import numpy as np
 from scipy.special import chdtrc, ndtr
 
+from lagsight.engine import horizon as ahead
 from lagsight.engine.autocorrelation import autocovariance, center
 from lagsight.engine.masked import center_observed, pair_counts
+from lagsight.engine.ranking import masked_ranks
 
 #: Simulated series behind each null table, and the table's seed (fixed: the verdict is reproducible).
 REPLICATES = 4000
@@ -81,6 +87,7 @@ class Layout:
     max_lag: int
     short: int
     seasonal: tuple[int, ...]
+    horizon: int = 1  # lags 1..horizon - 1 are not tested (h-step forecast errors; see :mod:`.horizon`)
 
     @property
     def lags(self) -> tuple[int, ...]:
@@ -135,46 +142,15 @@ def sidak(z: np.ndarray, count: int) -> np.ndarray:
         return np.where(tail >= 1.0, 1.0, -np.expm1(count * np.log1p(-tail)))
 
 
-def _ranks(x: np.ndarray, mask: np.ndarray | None, largest_tie: list | None = None) -> np.ndarray:
-    """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank.
-
-    ``largest_tie``, when given, receives per row the size of the largest group of equal observed values.
-    """
-    filled = x if mask is None else np.where(mask, x, np.inf)
-    m, n = x.shape
-    order = np.argsort(filled, axis=1)
-    sorted_x = np.take_along_axis(filled, order, axis=1)
-    tied = sorted_x[:, 1:] == sorted_x[:, :-1]
-    positions = np.broadcast_to(np.arange(1, n + 1, dtype=np.float64), x.shape)
-    if mask is not None:
-        tied = tied & np.isfinite(sorted_x[:, 1:])  # missing entries (ranked last as +inf) are no tie
-    if not tied.any():  # the common case: the rank is the position in the sorted row
-        out = np.empty((m, n))
-        np.put_along_axis(out, order, positions, axis=1)
-        if largest_tie is not None:
-            largest_tie.append(np.ones(m, dtype=np.int64))
-        return out
-    new = np.ones((m, n), dtype=bool)
-    new[:, 1:] = ~tied
-    flat = np.cumsum(new, axis=1) - 1 + np.arange(m)[:, None] * n  # tie-group id, unique across rows
-    total = np.bincount(flat.ravel(), weights=positions.ravel(), minlength=m * n)
-    count = np.bincount(flat.ravel(), minlength=m * n)
-    if largest_tie is not None:
-        largest_tie.append(count.reshape(m, n).max(axis=1))
-    mean_rank = (total / np.maximum(count, 1))[flat]
-    out = np.empty((m, n))
-    np.put_along_axis(out, order, mean_rank, axis=1)
-    return out
-
-
-def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool):
+def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool, horizon: int = 1):
     """z (m, K) and r (m, K) of the rows; with a mask, the amplitude-modulated estimate. Undefined z (a row
-    without variation, a lag without pairs) are 0: no evidence."""
+    without variation, a lag without pairs) are 0: no evidence. With a horizon h > 1 the variance at lags k >= h
+    is Bartlett's (times :func:`.horizon.bartlett_factor`) and z at lags 1..h - 1 is 0: those lags are not tested."""
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        return _standardised_rows(x, mask, max_lag, robust)
+        return _standardised_rows(x, mask, max_lag, robust, horizon)
 
 
-def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool):
+def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool, horizon: int = 1):
     m, n = x.shape
     k = np.arange(1, max_lag + 1)
     if mask is None:
@@ -196,7 +172,11 @@ def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, rob
         v = 1.0 / n_eff
         pairs = counts[:, 1:]
         n_obs = mask.sum(axis=1, keepdims=True).astype(np.float64)
-    return _scaled(d, r, v, pairs, n_obs, max_lag, robust), r
+    if horizon == 1:
+        return _scaled(d, r, v, pairs, n_obs, max_lag, robust), r
+    z = _scaled(d, r, v * ahead.bartlett_factor(r, horizon)[:, None], pairs, n_obs, max_lag, robust)
+    z[:, : horizon - 1] = 0.0
+    return z, r
 
 
 def _scaled(d, r, v, pairs, n_obs, max_lag, robust) -> np.ndarray:
@@ -212,9 +192,13 @@ def _scaled(d, r, v, pairs, n_obs, max_lag, robust) -> np.ndarray:
     return np.nan_to_num(z, nan=0.0, posinf=0.0, neginf=0.0)
 
 
-def _components(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int) -> np.ndarray:
-    """Component p-values (m, len(COMPONENTS)); 1.0 where a component is absent or undefined."""
+def _components(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int, r: np.ndarray | None = None,
+                r_rank: np.ndarray | None = None) -> np.ndarray:
+    """Component p-values (m, len(COMPONENTS)); 1.0 where a component is absent or undefined. With a horizon
+    h > 1, ``r`` and ``r_rank`` (the autocorrelations behind z and zr) give the correlation between lags."""
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        if layout.horizon > 1:
+            return np.nan_to_num(_horizon_values(z, zr, layout, model_df, r, r_rank), nan=1.0)
         return np.nan_to_num(_component_values(z, zr, layout, model_df), nan=1.0)
 
 
@@ -238,11 +222,36 @@ def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: i
     return out
 
 
-def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int) -> np.ndarray:
-    """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers)."""
+def _horizon_values(z, zr, layout: Layout, model_df: int, r, r_rank) -> np.ndarray:
+    """The components over lags H..: the first tested lag H alone, the sums from H (Box's scaled chi-square
+    for correlated lags, :mod:`.horizon`), the spikes over H..short (Sidak: conservative for correlated lags)."""
+    m = z.shape[0]
+    out = np.ones((m, len(COMPONENTS)))
+    H, h, K = layout.horizon, layout.short, layout.max_lag
+    out[:, 0] = sidak(np.abs(z[:, H - 1]), 1)
+    sums = ahead.sum_p_values(z, ahead.lag_correlation(r, H), H, (h, K), model_df)
+    out[:, 1] = sums[:, 0]
+    if K != h:
+        out[:, 2] = sums[:, 1]
+    out[:, 3] = sidak(np.abs(z[:, H - 1:h]).max(axis=1), h - H + 1)
+    if layout.seasonal:
+        idx = np.asarray(layout.seasonal) - 1
+        out[:, 4] = sidak(np.abs(z[:, idx]).max(axis=1), len(idx))
+    out[:, 5] = ahead.sum_p_values(zr[:, :h], ahead.lag_correlation(r_rank, H), H, (h,), model_df)[:, 0]
+    out[:, 6] = sidak(np.abs(zr[:, H - 1:h]).max(axis=1), h - H + 1)
+    return out
+
+
+def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int, horizon: int = 1) -> np.ndarray:
+    """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers);
+    with a horizon H > 1, the sum over lags H..h with Bartlett's variance (the magnitudes of an MA(H - 1) error
+    are correlated up to lag H - 1 too)."""
     d = center(x) if mask is None else center_observed(x, mask)  # scaled by a power of two: ranks unchanged
-    a = _ranks(np.abs(d), mask)
-    z, _ = _standardised(a, mask, h, robust=False)
+    a = masked_ranks(np.abs(d), mask)
+    z, r = _standardised(a, mask, h, robust=False, horizon=horizon)
+    if horizon > 1:
+        p = ahead.sum_p_values(z, ahead.lag_correlation(r, horizon), horizon, (h,))[:, 0]
+        return np.nan_to_num(p, nan=1.0)
     return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
 
 
@@ -266,16 +275,17 @@ _BUILT: set = set()
 @lru_cache(maxsize=256)
 def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
     """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n."""
-    rng = np.random.default_rng([NULL_SEED, n, layout.max_lag, layout.short, *layout.seasonal])
+    H = layout.horizon
+    rng = np.random.default_rng([NULL_SEED + 1000 * (H - 1), n, layout.max_lag, layout.short, *layout.seasonal])
     draws = replicates(n)
     rows = max(1, min(draws, _CHUNK_VALUES // n))
     minp, vol = [], []
     for start in range(0, draws, rows):
         x = rng.standard_normal((min(rows, draws - start), n))
-        z, _ = _standardised(x, None, layout.max_lag, robust=False)
-        zr, _ = _standardised(_ranks(x, None), None, layout.short, robust=False)
-        minp.append(_components(z, zr, layout, 0).min(axis=1))
-        vol.append(_volatility(x, None, layout.short))
+        z, r = _standardised(x, None, layout.max_lag, robust=False, horizon=H)
+        zr, r_rank = _standardised(masked_ranks(x, None), None, layout.short, robust=False, horizon=H)
+        minp.append(_components(z, zr, layout, 0, r, r_rank).min(axis=1))
+        vol.append(_volatility(x, None, layout.short, H))
     _BUILT.add((n, layout))
     return np.sort(np.concatenate(minp)), np.sort(np.concatenate(vol))
 
@@ -309,14 +319,15 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     m, n = x.shape
     if mask is not None and mask.all():
         mask = None
-    z, r = _standardised(x, mask, layout.max_lag, robust=True)
+    H = layout.horizon
+    z, r = _standardised(x, mask, layout.max_lag, robust=True, horizon=H)
     largest_tie: list = []
-    zr, _ = _standardised(_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False)
-    comps = _components(z, zr, layout, model_df)
+    zr, r_rank = _standardised(masked_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False, horizon=H)
+    comps = _components(z, zr, layout, model_df, r, r_rank)
     n_obs = np.full(m, n) if mask is None else mask.sum(axis=1)
     n_sim = np.array([simulated_length(int(k), layout.max_lag) for k in n_obs])
     smallest = comps.min(axis=1)
-    p_vol_raw = _volatility(x, mask, layout.short)
+    p_vol_raw = _volatility(x, mask, layout.short, H)
     p_auto = np.empty(m)
     p_vol = np.empty(m)
     for length in np.unique(n_sim).tolist():
@@ -328,7 +339,7 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     # resolution: there the normal tails of the largest robust spike over every lag and of the rank spike
     # (Sidak, then Bonferroni over the two) are used; the chi-square tails of the sums are too light there.
     resolution = 1.0 / (REPLICATES + 1.0)
-    spikes = np.minimum(1.0, 2.0 * np.minimum(sidak(np.abs(z).max(axis=1), layout.max_lag), comps[:, 6]))
+    spikes = np.minimum(1.0, 2.0 * np.minimum(sidak(np.abs(z).max(axis=1), layout.max_lag - H + 1), comps[:, 6]))
     p_tail = np.where(p_auto > 2.0 * resolution, p_auto, np.minimum(p_auto, spikes))
     tied_share = largest_tie[0] / np.maximum(n_obs, 1)
     return Evidence(z, zr, np.nan_to_num(r), comps, p_auto, p_vol, p_tail, layout, n_sim, tied_share)

@@ -1,5 +1,5 @@
 """The common batch item, checked and prepared in bulk: ``{"id", "values"}`` of plain numbers, optionally
-``name``, ``period``, ``max_lag``, ``confidence`` and ``model_df``, under shared options without transforms.
+``name``, ``period``, ``max_lag``, ``confidence``, ``model_df`` and ``horizon``, under shared options without transforms.
 
 Validated one at a time, such an item costs about 70 microseconds (field validation, the
 preparation stage of :mod:`lagsight.inputs.series`, the plan of :mod:`lagsight.pipeline`): 0.7 s for
@@ -32,9 +32,9 @@ from lagsight.inputs.series import PreparedSeries
 
 _SERIES = BatchSeries()
 #: Keys of a plain item; any other key (timestamps, missing, transform, unknown ones) takes the general path.
-PLAIN_KEYS = frozenset({"id", "values", "name", "period", "max_lag", "confidence", "model_df"})
+PLAIN_KEYS = frozenset({"id", "values", "name", "period", "max_lag", "confidence", "model_df", "horizon"})
 #: Per-series overrides that change only the plan, checked by their schema fields.
-OVERRIDES = ("max_lag", "confidence", "model_df")
+OVERRIDES = ("max_lag", "confidence", "model_df", "horizon")
 _INT64 = 2**63
 _NUMBER_TYPES = frozenset({float, int})
 

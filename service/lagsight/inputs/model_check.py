@@ -54,7 +54,7 @@ class ModelCheckRequest(SeriesFields, AnalysisOptions):
     """Body of POST /v1/model-check."""
 
     class Meta:
-        exclude = ("model_df",)
+        exclude = ("model_df", "horizon")  # the residuals of a fitted model are one-step errors
 
     order = ModelOrder(required=True)
     seasonal_order = SeasonalOrder(load_default=None, allow_none=True)

@@ -219,6 +219,7 @@ class AnalysisOptions(Suggesting):
         validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False),
     )
     model_df = StrictInteger(load_default=options.DEFAULT_MODEL_DF, validate=validate.Range(min=0))
+    horizon = StrictInteger(load_default=options.DEFAULT_HORIZON, validate=validate.Range(min=options.MIN_HORIZON))
     band = fields.String(load_default=options.DEFAULT_BAND, validate=Choice(options.BAND_KINDS))
     tests = fields.List(
         fields.String(validate=Choice(options.TEST_NAMES)),
@@ -282,7 +283,7 @@ class DirectLoad:
 #: Fields of the single request loaded directly; timestamps with the check they share with values
 #: (DIRECT_CHECKS); tests keep the schema's load (its schema-level check is not mirrored here).
 DIRECT_FIELDS = ("values", "timestamps", "period", "name", "missing", "transform", "max_lag", "confidence",
-                 "model_df", "band", "p_values", "replicates", "seed")
+                 "model_df", "horizon", "band", "p_values", "replicates", "seed")
 DIRECT_CHECKS = (stamps_match_values,)
 
 
@@ -315,7 +316,7 @@ class ItemList(fields.Field):
 class BatchSeries(SeriesFields):
     """One item of ``series`` in POST /v1/diagnostics/batch.
 
-    ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence`` and ``model_df``
+    ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df`` and ``horizon``
     here override the batch's shared values for this series only; absent, the shared
     value applies (``max_lag: null`` asks for the default rule for this series).
     """
@@ -325,6 +326,7 @@ class BatchSeries(SeriesFields):
     max_lag = StrictInteger(allow_none=True, validate=validate.Range(min=1))
     confidence = StrictFloat(validate=validate.Range(min=0, max=1, min_inclusive=False, max_inclusive=False))
     model_df = StrictInteger(validate=validate.Range(min=0))
+    horizon = StrictInteger(validate=validate.Range(min=options.MIN_HORIZON))
     missing = fields.String(validate=Choice(options.MISSING_METHODS))
     transform = fields.Nested(TransformFields, allow_none=True)
 
@@ -343,6 +345,6 @@ class BatchRequest(AnalysisOptions):
     detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=Choice(options.DETAIL_LEVELS))
 
 #: The options a series of a batch may override, and the shared field each falls back to.
-BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df")
+BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df", "horizon")
 #: Of those, the ones that describe the series (read by series.prepare from the series' fields).
 SERIES_OVERRIDES = ("period", "missing", "transform")

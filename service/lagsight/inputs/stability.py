@@ -16,6 +16,9 @@ from lagsight.inputs.schema import AnalysisOptions, SeriesFields, StrictInteger
 class StabilityRequest(SeriesFields, AnalysisOptions):
     """Body of POST /v1/stability."""
 
+    class Meta:
+        exclude = ("horizon",)  # windows are read by their lag-1 autocorrelation: one-step values
+
     window = StrictInteger(required=True, validate=validate.Range(min=options.STABILITY_MIN_WINDOW))
     step = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=1))
 

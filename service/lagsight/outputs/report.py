@@ -149,7 +149,11 @@ def test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
     return out
 
 
-def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...]) -> dict:
+def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...], horizon: int = 1) -> dict:
+    """Lags outside the band among those tested: lags horizon..K (with a horizon, lags below it are not tested)."""
+    if horizon > 1:
+        acf_block = {key: [lag for lag in acf_block[key] if lag >= horizon] for key in ("lags", "outside", "far",
+                                                                                         "marginal")}
     K, k_out = len(acf_block["lags"]), len(acf_block["outside"])
     return {
         "count": k_out,
@@ -210,7 +214,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
     pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band)
     tests = test_rows(analysis)
     per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
-    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None
+    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None and spec.horizon == 1
     frequencies = _list(analysis.frequencies)
     power, cumulative = _rows(analysis.power), _rows(analysis.cumulative)
     crit = analysis.ks_critical
@@ -231,6 +235,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "max_lag": spec.max_lag,
             "confidence": spec.confidence,
             "model_df": spec.model_df,
+            "horizon": spec.horizon,
             "period": s.period,
             "frequency": s.frequency,
             "band": {
@@ -241,7 +246,7 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             },
             "acf": acf_block,
             "pacf": pacf.block(row),
-            "exceedances": _exceedances(acf_block, 1.0 - per_lag, seasonal_lags),
+            "exceedances": _exceedances(acf_block, 1.0 - per_lag, seasonal_lags, spec.horizon),
             "tests": tests[row],
             "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
             "seasonal": _seasonal(s, analysis, acf_block, row, n, seasonal_lags),

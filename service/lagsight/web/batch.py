@@ -83,7 +83,8 @@ def _item_id(item):
 
 #: A series of plain fields (no schema-level checks) is loaded field by field (see schema.DirectLoad):
 #: marshmallow's full load costs about 0.1 ms per series, most of a 10,000-series batch's validation.
-ITEM_LOAD = DirectLoad(_SERIES, ("id", "values", "timestamps", "name", "period", "max_lag", "confidence", "model_df"),
+ITEM_LOAD = DirectLoad(_SERIES, ("id", "values", "timestamps", "name", "period", "max_lag", "confidence", "model_df",
+                                        "horizon"),
                        DIRECT_CHECKS)
 
 
@@ -171,7 +172,7 @@ def _prepare_plain(item: dict, row, own: dict | None, shared: dict, cfg, seen: d
     if period is not None and period >= n:
         return None
     series = batch_items.prepared(row, item.get("name"), period, opts["missing"])
-    key = (n, period, opts["max_lag"], opts["confidence"], opts["model_df"])
+    key = (n, period, opts["max_lag"], opts["confidence"], opts["model_df"], opts.get("horizon", 1))
     plan = plans.get(key)
     if plan is None:
         try:

@@ -21,6 +21,13 @@ requests):
 - Monte Carlo p-values: replicates x (points + lags) per distinct length and options;
 - Box-Cox lambda estimation: per series that asks for it, counted before the series are prepared.
 
+The routes that follow a diagnosis are estimated before any work too (:func:`check_model_check`,
+:func:`check_driver_check`, :func:`check_stability`): a model fit by its units of ``engine.arima.cost`` (about 12
+microseconds a unit for small models, at most the whole work budget's 18 s; the suggested order's search at its
+whole work budget), the
+prewhitening and cross-correlation of each driver (per driver and per paired value), and every window of a
+stability request as a series of the engine, plus the change reading per window.
+
 Not counted: the unit-root check of the full report (for series whose autocorrelations decay
 slowly, on at most 10,000 points each), whose cost depends on the data. The estimate is a model,
 not a measurement: a busy machine is slower than the one it was measured on. A request over
@@ -30,7 +37,8 @@ Deadline
 --------
 Inside the budget, ``LAGSIGHT_REQUEST_DEADLINE`` (by default half the worker timeout) ends a
 request that runs late: it is checked before each engine pass of a batch (and before the one pass
-of a single series), so a late request answers a 503 problem, or, in an NDJSON stream whose status
+of a single series; before each driver of a driver check, the residuals' diagnosis of a model check and each
+engine pass over the windows of a stability request, :func:`checkpoint`), so a late request answers a 503 problem, or, in an NDJSON stream whose status
 line is already sent, one error line for each series not done, then the summary. What it cannot do:
 interrupt an engine pass that has started (a single pass runs to its end), or a step outside the
 engine (reading the body, preparing the series). Past the worker timeout gunicorn stops the worker;
@@ -46,8 +54,12 @@ from dataclasses import dataclass, field
 
 from flask import current_app, g
 
-from lagsight.engine import stl, whiteness
-from lagsight.pipeline import Plan, blocks
+from lagsight import follow_up, options
+from lagsight.engine import stl
+from lagsight.engine.arima import cost as fit_cost
+from lagsight.engine.whiteness import simulated_length, table_cost
+from lagsight.inputs.stability import window_starts
+from lagsight.pipeline import BLOCK_POINTS, Plan, blocks
 from lagsight.problems import FieldError, Problem, counted
 from lagsight.web import metrics
 from lagsight.web.observability import request_id, route_label
@@ -75,6 +87,15 @@ MC_LAG = 1.2e-4  # a replicate, per lag
 NULL_VALUE = 3.5e-4  # a value simulated for the verdict's null table (4,000 x 400 values measured at about 0.56 s)
 BOX_COX = 0.45  # estimating one series' Box-Cox lambda
 BOX_COX_POINT = 2e-5  # ... per point
+#: A unit of engine.arima.cost in one fit. Small models cost more per unit than the largest: ARIMA(2,0,1) on 1,000
+#: values took 2.5 s (216,000 units) and (3,0,3) on 2,000 values 11.4 s (1,152,000 units) on a busy 2-core machine,
+#: about 12 microseconds a unit, while fits of about 15,000,000 units took 16-18 s (1.1-1.2 microseconds a unit,
+#: options.MODEL_WORK_BUDGET). A fit is estimated at FIT_SMALL_UNIT a unit, at most FIT_UNIT x the work budget.
+FIT_SMALL_UNIT = 0.012
+FIT_UNIT = 1.2e-3
+DRIVER = 10.0  # a driver of /v1/driver-check: AR order search, prewhitening, cross-correlation, Haugh's test
+DRIVER_POINT = 0.5  # ... per paired value (measured on a busy machine: 13 ms at 200 values, 0.2 s at 1,000, 1.1 s at 2,000-4,000)
+WINDOW = 0.45  # a window of /v1/stability beyond the engine's series: its entry and the change reading
 
 #: What to change when a part dominates, said in the answer.
 _ADVICE = {
@@ -86,6 +107,9 @@ _ADVICE = {
     "Monte Carlo p-values": "use fewer replicates, fewer distinct series lengths, or asymptotic p-values",
     "Box-Cox estimates": "send a Box-Cox lambda instead of \"estimate\", or split the batch",
     "verdict null tables": "send fewer distinct max_lag values and periods (or a lower max_lag), or split the batch",
+    "model fits": "send fewer values, a smaller (seasonal) order, or an explicit order instead of \"suggested\"",
+    "drivers": "send fewer drivers or fewer values per request",
+    "windows": "raise step or window (fewer windows), or send fewer values",
 }
 
 
@@ -132,11 +156,11 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
                 STL_SERIES_W2 * w2 + (STL_POINT + STL_POINT_W * trend) * plan.n))
         if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
             estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
-        layout = whiteness.Layout(lags, plan.spec.short_lag, plan.spec.seasonal_lags)
-        key = (whiteness.simulated_length(plan.n, lags), layout)
+        layout = plan.spec.layout  # keyed by the horizon too: each horizon has its own table
+        key = (simulated_length(plan.n, lags), layout)
         if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
             verdict_nulls.add(key)
-            values = whiteness.table_cost(plan.n, layout)
+            values = table_cost(plan.n, layout)
             # The first table a request needs is warm-up work (at most whiteness.MAX_SIMULATED values, under a
             # second); every further one that is not built yet counts.
             if values and len(verdict_nulls) > 1:
@@ -173,13 +197,78 @@ def check(estimate: Estimate, pointer: str) -> None:
     raise Problem("payload-too-large", detail, [FieldError(pointer, detail)])
 
 
+def _series_work(estimate: Estimate, count: int, n: int, lags: int, part: str) -> None:
+    """``count`` full reports of n points and ``lags`` lags, in engine passes of at most BLOCK_POINTS values."""
+    passes = -(-count * n // BLOCK_POINTS) if count else 0
+    estimate.add(part, passes * (PASS + PASS_LAG * lags) + count * (
+        SERIES + FULL_SERIES + (POINT + FULL_POINT) * n + SERIES_LAG2 * lags * lags))
+
+
+def check_model_check(data: dict, cfg) -> None:
+    """413 when a model check's estimated work is over the budget: its fits at their worst and the two reports."""
+    estimate = Estimate()
+    n = int(data["values"].size)
+    if data["order"] == options.MODEL_SUGGESTED:
+        estimate.add("model fits", FIT_UNIT * options.MODEL_WORK_BUDGET)
+        estimate.notes["model fits"] = (f"the suggested order's search may spend its whole work budget of "
+                                        f"{options.MODEL_WORK_BUDGET:,} units")
+    else:
+        order = follow_up.order_sent(data)
+        units = fit_cost(order, n)
+        if units > options.MODEL_WORK_BUDGET:
+            return  # the route refuses it with a 422 of its own (the model's work budget), naming the order
+        estimate.add("model fits", min(FIT_SMALL_UNIT * units, FIT_UNIT * options.MODEL_WORK_BUDGET))
+        estimate.notes["model fits"] = f"one fit of {order.label()} to {n:,} values at its iteration limit"
+    _series_work(estimate, 2, n, data["max_lag"] or options.default_max_lag(n, data["period"]), "series and points")
+    check(estimate, "/order")
+
+
+def check_driver_check(data: dict, cfg) -> None:
+    """413 when a driver check's estimated work is over the budget."""
+    estimate = Estimate()
+    n = int(data["values"].size)
+    count = len(data["drivers"])
+    estimate.add("drivers", sum(DRIVER + DRIVER_POINT * min(n, d["values"].size) for d in data["drivers"]))
+    estimate.notes["drivers"] = counted(count, "driver", "drivers") + f" against {n:,} values"
+    check(estimate, "/drivers")
+
+
+def check_stability(data: dict, cfg) -> None:
+    """413 when a stability request's estimated work is over the budget (windows that do not fit the series are
+    left to the route's own checks)."""
+    n, width = int(data["values"].size), data["window"]
+    step = data["step"] or max(1, width // 2)
+    if not width <= n or step > width:
+        return
+    count = len(window_starts(n, width, step))
+    estimate = Estimate()
+    lags = data["max_lag"] or options.default_max_lag(width, data["period"])
+    _series_work(estimate, count, width, lags, "windows")
+    estimate.add("windows", WINDOW * count)
+    if data["p_values"] == "monte_carlo":
+        estimate.add("Monte Carlo p-values", data["replicates"] * (MC_VALUE * width + MC_LAG * lags))
+    estimate.notes["windows"] = counted(count, "window", "windows") + f" of {width:,} values"
+    check(estimate, "/window")
+
+
+def checkpoint(unit: str, advice: str):
+    """The ``checkpoint(done, total)`` a route that follows a diagnosis calls before each remaining piece of work:
+    a 503 problem once the request is past its deadline and work remains."""
+    def stop_if_late(done: int, total: int) -> None:
+        if done < total and deadline_passed():
+            raise late(done, total, unit, advice)
+    return stop_if_late
+
+
 def deadline_passed() -> bool:
     """Whether this request has run past LAGSIGHT_REQUEST_DEADLINE (counted from its start)."""
     started = g.get("started")
     return started is not None and time.perf_counter() - started > current_app.config["REQUEST_DEADLINE"]
 
 
-def late(done: int, total: int) -> Problem:
+def late(done: int, total: int, unit: str = "series",
+         advice: str = "Send fewer series per request, or ask for NDJSON (application/x-ndjson) to receive results as "
+                       "they finish.") -> Problem:
     """Log and count a request stopped at its deadline, and the problem that says so (503)."""
     seconds = current_app.config["REQUEST_DEADLINE"]
     log.warning("request stopped at its deadline", extra={
@@ -188,6 +277,5 @@ def late(done: int, total: int) -> Problem:
         "series_done": done, "series_not_done": total - done})
     metrics.record_stopped("deadline")
     return Problem("unavailable", f"The request reached this deployment's deadline of {seconds:g} s "
-                                  f"(LAGSIGHT_REQUEST_DEADLINE) with {total - done:,} of {total:,} series not "
-                                  "analysed. Send fewer series per request, or ask for NDJSON "
-                                  "(application/x-ndjson) to receive results as they finish.")
+                                  f"(LAGSIGHT_REQUEST_DEADLINE) with {total - done:,} of {total:,} {unit} not "
+                                  f"analysed. {advice}")

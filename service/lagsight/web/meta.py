@@ -124,6 +124,9 @@ def methods():
             "max_lag": {"default": "min(max(floor(10 log10 n), s), n - 1) with s = 2 * period if that is at most n/2, else period if that is, else 0", "minimum": 1, "maximum": cfg["MAX_LAG"]},
             "confidence": {"default": options.DEFAULT_CONFIDENCE, "exclusive_minimum": 0, "exclusive_maximum": 1},
             "model_df": {"default": options.DEFAULT_MODEL_DF, "minimum": 0},
+            "horizon": {"default": options.DEFAULT_HORIZON, "minimum": options.MIN_HORIZON,
+                        "description": "h-step forecast errors: lags 1 to h - 1 are not tested; from lag h on the "
+                                       "variance is Bartlett's (1 + 2 sum_{j<h} r_j^2)/n and the sums start at lag h"},
             "period": {"default": None, "minimum": options.MIN_PERIOD},
             "band": {"default": options.DEFAULT_BAND, "enum": list(options.BAND_KINDS)},
             "tests": {"default": list(options.DEFAULT_TESTS), "enum": list(options.TEST_NAMES)},

@@ -19,7 +19,8 @@ OUTPUT_PARAMS = ("format", "chart", "vega_lite")
 CSV_PARAMS = ("column", "time_column", "header", "delimiter", "decimal")
 #: Analysis options with the JSON type each is converted to.
 ANALYSIS_PARAMS = {
-    "period": "integer", "max_lag": "integer", "confidence": "number", "model_df": "integer", "name": "string",
+    "period": "integer", "max_lag": "integer", "confidence": "number", "model_df": "integer", "horizon": "integer",
+    "name": "string",
     "missing": "string", "band": "string", "tests": "list", "p_values": "string", "replicates": "integer",
     "seed": "integer",
 }
