@@ -112,31 +112,61 @@ def thin_svd(a: np.ndarray):
     return np.matmul(q, ur), sv, vt
 
 
+def first_t(augmented: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The t-statistic of the first coefficient of least squares per row, from the triangle of one QR.
+
+    Parameters
+    ----------
+    augmented : ndarray, shape (m, nobs, k + 1)
+        The design (k columns) with the response as its last column; nobs >= k + 1.
+
+    Returns
+    -------
+    t : ndarray, shape (m,)
+        beta_0 / sqrt(s^2 (X'X)^+_00), s^2 = RSS / (nobs - k), as statsmodels' OLS (method "pinv") gives it;
+        NaN where the design is rank-deficient.
+    full_rank : ndarray of bool, shape (m,)
+        The rank by ``numpy.linalg.matrix_rank``'s tolerance equals k (callers hand the other rows to
+        statsmodels).
+
+    Notes
+    -----
+    The QR of [X | y] (triangle only, no Q) holds everything the statistic needs: its top-left k x k block is
+    R of X = QR, the column above the corner is Q'y, and the corner is the residual norm. The pseudo-inverse
+    of X is V S^+ U' Q' with R = U S V' (the SVD of the small R, singular values below 1e-15 x the largest
+    dropped, as ``statsmodels.tools.tools.pinv_extended``), so beta = V S^+ U' Q'y and (X'X)^+_00 is the
+    squared norm of the first row of V S^+. This is the same arithmetic as forming Q and the pseudo-inverse, to
+    rounding, at about half the cost of a full QR and without the (k, nobs) pseudo-inverse.
+    """
+    m, nobs, k1 = augmented.shape
+    k = k1 - 1
+    tri = np.linalg.qr(augmented, mode="r")
+    u, sv, vt = np.linalg.svd(tri[:, :k, :k])
+    top = np.maximum.reduce(sv, axis=1, keepdims=True)
+    with np.errstate(divide="ignore"):
+        inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)
+    weights = vt[:, :, 0] * inv  # first row of V S^+
+    beta0 = np.vecdot(weights, np.matmul(tri[:, None, :k, k], u)[:, 0, :])
+    rss = tri[:, k, k] ** 2
+    se = np.sqrt(rss / (nobs - k) * np.vecdot(weights, weights))
+    full_rank = (sv > top * k * np.finfo(np.float64).eps).sum(axis=1) == k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(full_rank, beta0 / se, np.nan), full_rank
+
+
 def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     m, n = x.shape
     k = lags + 2
     nobs = n - 1 - lags
     dx = np.diff(x, axis=1)
-    design = np.empty((m, nobs, k))  # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant
-    design[:, :, 0] = x[:, lags : n - 1]
+    # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant; then the response dx_t
+    augmented = np.empty((m, nobs, k + 1))
+    augmented[:, :, 0] = x[:, lags : n - 1]
     for i in range(1, lags + 1):
-        design[:, :, i] = dx[:, lags - i : n - 1 - i]
-    design[:, :, -1] = 1.0
-    y = dx[:, lags:]
-    # statsmodels' OLS (method "pinv"): pinv from the SVD, singular values below 1e-15 x the largest dropped
-    u, sv, vt = thin_svd(design)
-    top = np.maximum.reduce(sv, axis=1, keepdims=True)
-    with np.errstate(divide="ignore"):
-        inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)
-    pinv = np.matmul(np.swapaxes(vt, 1, 2), inv[:, :, None] * np.swapaxes(u, 1, 2))  # (m, k, nobs)
-    params = np.matmul(pinv, y[:, :, None])[:, :, 0]
-    resid = y - np.matmul(design, params[:, :, None])[:, :, 0]
-    # numpy.linalg.matrix_rank's tolerance on the singular values, as statsmodels takes the rank
-    full_rank = (sv > top * k * np.finfo(np.float64).eps).sum(axis=1) == k
-    scale = np.einsum("ij,ij->i", resid, resid) / (nobs - k)
-    se = np.sqrt(scale * np.einsum("ij,ij->i", pinv[:, 0, :], pinv[:, 0, :]))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        stat = params[:, 0] / se
+        augmented[:, :, i] = dx[:, lags - i : n - 1 - i]
+    augmented[:, :, k - 1] = 1.0
+    augmented[:, :, k] = dx[:, lags:]
+    stat, full_rank = first_t(augmented)
     pvalue = mackinnon_p(np.where(np.isfinite(stat), stat, 0.0))
     out = []
     for i, (t, p, ok) in enumerate(zip(stat.tolist(), pvalue.tolist(), full_rank.tolist())):
