@@ -247,3 +247,63 @@ def decompose(x: np.ndarray, period: int) -> tuple[np.ndarray, np.ndarray]:
         seasonal = cycle[:, period:period + n] - low
         trend = smooth(x - seasonal, trend_window)
     return seasonal, trend
+
+
+def decompose_many(xs: list[np.ndarray], period: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    """:func:`decompose` of several arrays of rows (m_i, n_i), each n_i >= 2 * period + 1, at once.
+
+    The same decomposition, step for step; what changes is how the loess fits at the ends of the series are
+    applied. A window shorter than the series has one table of coefficients whatever the length
+    (:func:`_smoother`), so the fits at the ends of every array that uses it are one matrix product over all
+    their rows, instead of a dot product per row and point. The result agrees with :func:`decompose` to rounding
+    (about 1e-15 of the series' scale; a matrix product sums in its own order), not bit for bit: it serves a
+    batch of many lengths, where a few dot products per row would cost more than the rest of the
+    decomposition.
+    """
+    if not supports(period):
+        raise ValueError(f"period {period} needs a trend window above {MAX_TREND_WINDOW} values")
+    xs = [np.atleast_2d(np.asarray(x, dtype=np.float64)) for x in xs]
+    trend_window, low_pass_window = windows(period)
+    trends = [np.zeros_like(x) for x in xs]
+    seasonals = trends
+    for _ in range(INNER_PASSES):
+        cycles = [_cycle_subseries(x - trend, period) for x, trend in zip(xs, trends)]
+        lows = smooth_many([_moving_average(_moving_average(_moving_average(c, period), period), 3) for c in cycles],
+                           low_pass_window)
+        seasonals = [c[:, period:period + x.shape[1]] - low for c, x, low in zip(cycles, xs, lows)]
+        trends = smooth_many([x - s for x, s in zip(xs, seasonals)], trend_window)
+    return list(zip(seasonals, trends))
+
+
+def smooth_many(ys: list[np.ndarray], window: int) -> list[np.ndarray]:
+    """:func:`smooth` of several arrays of rows; arrays that share a table get their end fits by one matrix
+    product (see :func:`decompose_many`)."""
+    out: list = [None] * len(ys)
+    shared: dict[int, list[int]] = {}
+    tables = {}
+    for i, y in enumerate(ys):
+        n = y.shape[1]
+        table = _smoother(n, window) if n >= 2 else None
+        if table is None or table[0] == n:
+            out[i] = smooth(y, window)
+        else:
+            shared.setdefault(id(table[2]), []).append(i)
+            tables[id(table[2])] = table
+    for key, members in shared.items():
+        width, head, coef = tables[key]
+        first = np.concatenate([ys[i][:, :width] for i in members]) @ coef[:head].T
+        last = np.concatenate([ys[i][:, -width:] for i in members]) @ coef[head:width].T
+        start = 0
+        for i in members:
+            y = ys[i]
+            m, n = y.shape
+            res = np.empty((m, n))
+            res[:, :head] = first[start:start + m]
+            res[:, n - (width - head):] = last[start:start + m]
+            if width >= FFT_MIN_WIDTH and (n - width) * width >= FFT_MIN_WORK:
+                res[:, head:head + n - width] = _middle_by_fft(y, coef[width])
+            else:
+                res[:, head:head + n - width] = np.vecdot(sliding_window_view(y, width, axis=1)[:, 1:, :], coef[width])
+            out[i] = res
+            start += m
+    return out
