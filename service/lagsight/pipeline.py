@@ -29,7 +29,7 @@ from lagsight import options
 from lagsight.consult.decision import decide_block
 from lagsight.consult.reading import interpret
 from lagsight.engine.analysis import Spec, analyse
-from lagsight.engine.family import analyse_groups
+from lagsight.engine.family import analyse_groups, prepare_null_tables
 from lagsight.inputs.series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 from lagsight.outputs.brief import brief_results
 from lagsight.outputs.report import build_reports
@@ -164,7 +164,9 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
     built from the same engine pass without the report and its sentences. ``observe(series, points)``,
     when given, is called for each block after its engine pass (the web layer counts the work in its metrics).
     """
-    for chunk in chunks(blocks(items)):
+    planned = blocks(items)
+    prepare_null_tables([(plan.n, plan.spec) for plan, _ in planned if not (plan.pairwise or plan.filled)])
+    for chunk in chunks(planned):
         inputs = []
         for plan, members in chunk:
             if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case

@@ -19,7 +19,7 @@ from collections import defaultdict
 
 import numpy as np
 
-from lagsight.engine import seasonality
+from lagsight.engine import seasonality, whiteness
 from lagsight.engine.analysis import GroupAnalysis, Spec, analyse
 from lagsight.engine.partial import pacf
 
@@ -50,3 +50,13 @@ def analyse_groups(groups: list[tuple[np.ndarray, Spec, np.ndarray | None, np.nd
     for result in results:
         result.seasonal_rows = None
     return results
+
+
+def prepare_null_tables(groups: list[tuple[int, Spec]]) -> None:
+    """Build the verdict's null tables that complete series of these (length, spec) pairs need, one set of
+    simulated draws per length, max_lag and seasonal lags (:func:`.whiteness.prepare_tables`): each length of a
+    batch has its own short lag, and each would otherwise simulate its own draws in its own pass."""
+    keys = {(whiteness.simulated_length(n, spec.max_lag),
+             whiteness.Layout(spec.max_lag, spec.short_lag, spec.seasonal_lags)) for n, spec in groups}
+    if len(keys) > 1:
+        whiteness.prepare_tables(keys)

@@ -27,7 +27,8 @@ the components (no Bonferroni waste) and for the small-sample bias of the chi-sq
 (draws at or below + 1) / (draws + 1), so it is never below the table's resolution 1 / (draws + 1).
 Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (a shorter length is
 the more liberal one, so this errs on the safe side); long lengths get fewer draws (at most MAX_SIMULATED
-values per table). A table is built once per process for each (length, layout) and kept.
+values per table). A table is built once per process for each (length, layout) and kept; the tables of one
+length, max_lag and seasonal lags come from the same seeded draws (the short lag only picks the lags they read).
 
 Volatility channel
 ------------------
@@ -50,14 +51,16 @@ References
 """
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
 from scipy.special import chdtrc, ndtr
 
 from lagsight.engine.autocorrelation import autocovariance, center
 from lagsight.engine.masked import center_observed, pair_counts
+from lagsight.engine.ranks import tied_ranks
 
 #: Simulated series behind each null table, and the table's seed (fixed: the verdict is reproducible).
 REPLICATES = 4000
@@ -70,6 +73,8 @@ EXACT_MAX_N = 50
 _GRID = (50, 60, 70, 85, 100, 120, 150, 200, 250, 300, 400)
 #: Values simulated per chunk when building a table (bounds memory).
 _CHUNK_VALUES = 1 << 21
+
+_lock = threading.Lock()  # the tables are shared by a worker's threads
 
 COMPONENTS = ("lag_one", "ljung_box_short", "ljung_box_long", "spike", "seasonal_spike", "rank_ljung_box", "rank_spike")
 
@@ -133,38 +138,6 @@ def sidak(z: np.ndarray, count: int) -> np.ndarray:
     tail = np.clip(2.0 * ndtr(-np.asarray(z, dtype=np.float64)), 0.0, 1.0)
     with np.errstate(divide="ignore"):
         return np.where(tail >= 1.0, 1.0, -np.expm1(count * np.log1p(-tail)))
-
-
-def _ranks(x: np.ndarray, mask: np.ndarray | None, largest_tie: list | None = None) -> np.ndarray:
-    """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank.
-
-    ``largest_tie``, when given, receives per row the size of the largest group of equal observed values.
-    """
-    filled = x if mask is None else np.where(mask, x, np.inf)
-    m, n = x.shape
-    order = np.argsort(filled, axis=1)
-    sorted_x = np.take_along_axis(filled, order, axis=1)
-    tied = sorted_x[:, 1:] == sorted_x[:, :-1]
-    positions = np.broadcast_to(np.arange(1, n + 1, dtype=np.float64), x.shape)
-    if mask is not None:
-        tied = tied & np.isfinite(sorted_x[:, 1:])  # missing entries (ranked last as +inf) are no tie
-    if not tied.any():  # the common case: the rank is the position in the sorted row
-        out = np.empty((m, n))
-        np.put_along_axis(out, order, positions, axis=1)
-        if largest_tie is not None:
-            largest_tie.append(np.ones(m, dtype=np.int64))
-        return out
-    new = np.ones((m, n), dtype=bool)
-    new[:, 1:] = ~tied
-    flat = np.cumsum(new, axis=1) - 1 + np.arange(m)[:, None] * n  # tie-group id, unique across rows
-    total = np.bincount(flat.ravel(), weights=positions.ravel(), minlength=m * n)
-    count = np.bincount(flat.ravel(), minlength=m * n)
-    if largest_tie is not None:
-        largest_tie.append(count.reshape(m, n).max(axis=1))
-    mean_rank = (total / np.maximum(count, 1))[flat]
-    out = np.empty((m, n))
-    np.put_along_axis(out, order, mean_rank, axis=1)
-    return out
 
 
 def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool):
@@ -241,7 +214,7 @@ def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: i
 def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int) -> np.ndarray:
     """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers)."""
     d = center(x) if mask is None else center_observed(x, mask)  # scaled by a power of two: ranks unchanged
-    a = _ranks(np.abs(d), mask)
+    a = tied_ranks(np.abs(d), mask)
     z, _ = _standardised(a, mask, h, robust=False)
     return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
 
@@ -254,30 +227,79 @@ def replicates(n: int) -> int:
 
 def table_cost(n_obs: int, layout: Layout) -> int:
     """Values simulated to build the null table a series of n_obs observed values needs, 0 when this process has
-    it already: a request's cost estimate counts them."""
+    it already: a request's cost estimate counts them, once per :func:`draw_key` (the tables of one key come
+    from the same draws, see :func:`prepare_tables`)."""
     n = simulated_length(n_obs, layout.max_lag)
     return 0 if (n, layout) in _BUILT else replicates(n) * n
 
 
+def draw_key(n_obs: int, layout: Layout) -> tuple:
+    """The draws a table comes from: (simulated length, max_lag, seasonal lags); the short lag is not part of it."""
+    return simulated_length(n_obs, layout.max_lag), layout.max_lag, layout.seasonal
+
+
 #: The (length, layout) keys whose table this process has built.
 _BUILT: set = set()
+_TABLES: OrderedDict = OrderedDict()
+#: Null tables kept per process (two sorted arrays of at most REPLICATES values each).
+TABLES_KEPT = 256
 
 
-@lru_cache(maxsize=256)
-def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
-    """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n."""
-    rng = np.random.default_rng([NULL_SEED, n, layout.max_lag, layout.short, *layout.seasonal])
+def _draws(n: int, max_lag: int, seasonal: tuple[int, ...]):
+    """Standardised autocorrelations (classical), rank autocorrelations and volatility-rank autocorrelations
+    (each (draws, max_lag)) of the seeded i.i.d. normal draws behind every table of (n, max_lag, seasonal)."""
+    rng = np.random.default_rng([NULL_SEED, n, max_lag, *seasonal])
     draws = replicates(n)
     rows = max(1, min(draws, _CHUNK_VALUES // n))
-    minp, vol = [], []
+    z, zr, zv = [], [], []
     for start in range(0, draws, rows):
         x = rng.standard_normal((min(rows, draws - start), n))
-        z, _ = _standardised(x, None, layout.max_lag, robust=False)
-        zr, _ = _standardised(_ranks(x, None), None, layout.short, robust=False)
-        minp.append(_components(z, zr, layout, 0).min(axis=1))
-        vol.append(_volatility(x, None, layout.short))
-    _BUILT.add((n, layout))
-    return np.sort(np.concatenate(minp)), np.sort(np.concatenate(vol))
+        z.append(_standardised(x, None, max_lag, robust=False)[0])
+        zr.append(_standardised(tied_ranks(x, None), None, max_lag, robust=False)[0])
+        zv.append(_standardised(tied_ranks(np.abs(center(x)), None), None, max_lag, robust=False)[0])
+    return np.concatenate(z), np.concatenate(zr), np.concatenate(zv)
+
+
+def _table(n: int, layout: Layout, z: np.ndarray, zr: np.ndarray, zv: np.ndarray):
+    h = layout.short
+    minp = _components(z, zr, layout, 0).min(axis=1)
+    vol = np.nan_to_num(chdtrc(h, (zv[:, :h] ** 2).sum(axis=1)), nan=1.0)
+    table = np.sort(minp), np.sort(vol)
+    with _lock:
+        _TABLES[(n, layout)] = table
+        _BUILT.add((n, layout))
+        while len(_TABLES) > TABLES_KEPT:
+            _BUILT.discard(_TABLES.popitem(last=False)[0])
+    return table
+
+
+def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n.
+
+    Every layout with the same max_lag and seasonal lags is computed from the same seeded draws (the short lag
+    only chooses which of their lags the components read), so :func:`prepare_tables` builds many at the cost of
+    one and gives the same tables as building them one by one.
+    """
+    with _lock:
+        if (n, layout) in _TABLES:
+            _TABLES.move_to_end((n, layout))
+            return _TABLES[(n, layout)]
+    return _table(n, layout, *_draws(n, layout.max_lag, layout.seasonal))
+
+
+def prepare_tables(keys) -> None:
+    """Build the null tables of (simulated length, layout) ``keys`` not built yet, one set of draws per
+    (length, max_lag, seasonal lags): a batch of many lengths has one short lag per length, and each would
+    otherwise simulate its own draws."""
+    with _lock:
+        missing = {key for key in keys if key not in _TABLES}
+    by_draws: dict = {}
+    for n, layout in missing:
+        by_draws.setdefault((n, layout.max_lag, layout.seasonal), []).append(layout)
+    for (n, max_lag, seasonal), layouts in by_draws.items():
+        arrays = _draws(n, max_lag, seasonal)
+        for layout in layouts:
+            _table(n, layout, *arrays)
 
 
 def raw_threshold(n: int, layout: Layout, level: float) -> float:
@@ -311,7 +333,7 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
         mask = None
     z, r = _standardised(x, mask, layout.max_lag, robust=True)
     largest_tie: list = []
-    zr, _ = _standardised(_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False)
+    zr, _ = _standardised(tied_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False)
     comps = _components(z, zr, layout, model_df)
     n_obs = np.full(m, n) if mask is None else mask.sum(axis=1)
     n_sim = np.array([simulated_length(int(k), layout.max_lag) for k in n_obs])

@@ -175,13 +175,13 @@ def _block_work(estimate: Estimate, plan: Plan, rows: int, full: bool, tables: s
     if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
         estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
     layout = whiteness.Layout(lags, plan.spec.short_lag, plan.spec.seasonal_lags)
-    key = (whiteness.simulated_length(plan.n, lags), layout)
-    if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
+    values = whiteness.table_cost(plan.n, layout)  # the verdict's null table, built once per process and kept
+    key = whiteness.draw_key(plan.n, layout)
+    if values and key not in verdict_nulls:  # tables of one key share their draws (whiteness.prepare_tables)
         verdict_nulls.add(key)
-        values = whiteness.table_cost(plan.n, layout)
-        # The first table a request needs is warm-up work (at most whiteness.MAX_SIMULATED values, under a
-        # second); every further one that is not built yet counts.
-        if values and len(verdict_nulls) > 1:
+        # The first draws a request needs are warm-up work (at most whiteness.MAX_SIMULATED values, under a
+        # second); every further set of draws for tables not built yet counts.
+        if len(verdict_nulls) > 1:
             estimate.add("verdict null tables", NULL_VALUE * values)
 
 
