@@ -121,18 +121,23 @@ def targets(r: dict) -> list[tuple[str, str, str, str]]:
                  f" over all lengths {sc['slope_length']['engine']:.2f}", "-"))
     rows.append(("5. slope of log time on log batch size (full report)", "about 1 (linear)",
                  f"{sc['slope_batch']['full_report']:.2f}", "-"))
-    d = r.get("daily")
-    if d:
-        t = d["times"]["batch"]["median"]
-        rows.append((f"6. {d['m']:,} daily series of {d['shortest']:,} to {d['longest']:,} points, period "
-                     f"{d['period']}: the batch route in process (warm)", "<= 5 s", _ms(t),
-                     _status(t <= 5, f"{t / 5:.1f}x over")))
-        same = d["verdicts_equal"] == d["sample"] and d["max_strength_difference"] <= 1e-6
-        rows.append((f"6. the same series one by one through the single route (a sample of {d['sample']})",
-                     "same verdicts; strengths within 1e-6",
-                     f"{d['verdicts_equal']} of {d['sample']} verdicts; strengths {d['strengths_compared']} compared, "
-                     f"largest difference {d['max_strength_difference']:.1e}", _status(same, "they differ")))
+    if r.get("daily"):
+        rows += daily_targets(r["daily"])
     return rows
+
+
+def daily_targets(d: dict) -> list[tuple[str, str, str, str]]:
+    """The target rows of measurement 6."""
+    t = d["times"]["batch"]["median"]
+    same = d["verdicts_equal"] == d["sample"] and d["max_strength_difference"] <= 1e-6
+    return [
+        (f"6. {d['m']:,} daily series of {d['shortest']:,} to {d['longest']:,} points, period {d['period']}: the "
+         "batch route in process (warm)", "<= 5 s", _ms(t), _status(t <= 5, f"{t / 5:.1f}x over")),
+        (f"6. the same series one by one through the single route (a sample of {d['sample']})",
+         "same verdicts; strengths within 1e-6",
+         f"{d['verdicts_equal']} of {d['sample']} verdicts; {d['strengths_compared']} strengths compared, "
+         f"largest difference {d['max_strength_difference']:.1e}", _status(same, "they differ")),
+    ]
 
 
 def daily_section(d: dict) -> list[str]:
