@@ -19,6 +19,8 @@ from flask import g
 from lagsight import create_app
 from lagsight.web import budget
 
+from . import workloads
+
 #: name -> (series, shortest length, distinct lengths, period, seasonal, options); a case with lengths
 #: drawn at random instead (a realistic batch) is built by :func:`daily_batch`.
 CASES = {
@@ -41,14 +43,8 @@ QUICK = ("one short series", "400 series, 400 lengths 200-599", "100 seasonal se
 
 def daily_batch(seed: int = 0) -> dict:
     """2,515 daily series of two to three years (730 to 1,100 points, lengths drawn at random) with a yearly
-    period: the batch whose cost is one seasonal decomposition per distinct length."""
-    rng = np.random.default_rng(seed)
-    series = []
-    for i in range(2515):
-        n = int(rng.integers(730, 1101))
-        x = rng.standard_normal(n) + 2 * np.sin(2 * np.pi * np.arange(n) / 365)
-        series.append({"id": i, "values": np.round(x, 3).tolist()})
-    return {"series": series, "period": 365, "detail": "brief"}
+    period: the batch whose cost was one engine pass and one seasonal decomposition per distinct length."""
+    return workloads.daily_batch(seed=seed)
 
 
 def body(m: int, n: int, distinct: int, period: int | None, seasonal: bool, opts: dict, seed: int = 0) -> dict:

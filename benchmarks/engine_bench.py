@@ -177,3 +177,53 @@ def measure_scaling(lengths: list[int], batch_sizes: list[int], max_lag: int, ba
         "slope_length_top_nlogn": {k: _slope(nlogn[-2:], [by_length[n][k] for n in lengths[-2:]])
                                    for k in ("engine", "full_report")},
     }
+
+
+def _per_length(items):
+    """pipeline.chunks as before chunking: every block its own engine pass (the comparison case)."""
+    return [[block] for block in items]
+
+
+def measure_daily(m: int, shortest: int, longest: int, period: int, repeats: int, sample: int) -> dict:
+    """Measurement 6: the daily batch (workloads.daily_batch) through POST /v1/diagnostics/batch in process
+    (Flask's test client: body parsing, checks, the cost estimate, the engine, the brief answer), side by side
+    with the same request run one engine pass per length (pipeline.chunks disabled); the first request of a
+    fresh application (its verdict null tables and loess tables built) is timed apart. Then ``sample`` series
+    through the single route (/v1/diagnostics, full report) against the batch's full answers: verdicts and
+    seasonal strengths compared."""
+    from unittest import mock
+
+    from lagsight import create_app, pipeline
+
+    body = workloads.daily_batch(m, shortest, longest, period)
+    app = create_app({"TESTING": True, "LOG_LEVEL": "WARNING", "MAX_COST": 10**9, "REQUEST_DEADLINE": 3000.0,
+                      "TIMEOUT": 6000})
+    client = app.test_client()
+
+    def batch():
+        r = client.post("/v1/diagnostics/batch", json=body)
+        assert r.status_code == 200, r.get_data()[:300]
+
+    def per_length():
+        with mock.patch.object(pipeline, "chunks", _per_length):
+            batch()
+
+    first = timing.seconds(batch)
+    times = timing.interleaved({"batch": batch, "one_pass_per_length": per_length}, repeats)
+    lengths = [len(s["values"]) for s in body["series"]]
+    picked = np.random.default_rng(1).choice(len(lengths), size=min(sample, len(lengths)), replace=False).tolist()
+    full = client.post("/v1/diagnostics/batch", json={**body, "detail": "full"}).get_json()["results"]
+    verdicts_equal, strength_diffs, strengths = 0, [], 0
+    for i in picked:
+        one = client.post("/v1/diagnostics", json={"period": period, "values": body["series"][i]["values"]}).get_json()
+        verdicts_equal += one["verdict"] == full[i]["verdict"]
+        a, b = one["seasonal"]["strength"]["value"], full[i]["seasonal"]["strength"]["value"]
+        if a is not None and b is not None:
+            strengths += 1
+            strength_diffs.append(abs(a - b))
+        elif (a is None) != (b is None):
+            strength_diffs.append(float("inf"))
+    return {"m": m, "shortest": shortest, "longest": longest, "period": period, "repeats": repeats,
+            "distinct_lengths": len(set(lengths)), "points": sum(lengths), "first_request": first, "times": times,
+            "sample": len(picked), "verdicts_equal": verdicts_equal, "strengths_compared": strengths,
+            "max_strength_difference": max(strength_diffs, default=0.0)}

@@ -121,7 +121,53 @@ def targets(r: dict) -> list[tuple[str, str, str, str]]:
                  f" over all lengths {sc['slope_length']['engine']:.2f}", "-"))
     rows.append(("5. slope of log time on log batch size (full report)", "about 1 (linear)",
                  f"{sc['slope_batch']['full_report']:.2f}", "-"))
+    if r.get("daily"):
+        rows += daily_targets(r["daily"])
     return rows
+
+
+def daily_targets(d: dict) -> list[tuple[str, str, str, str]]:
+    """The target rows of measurement 6."""
+    t = d["times"]["batch"]["median"]
+    same = d["verdicts_equal"] == d["sample"] and d["max_strength_difference"] <= 1e-6
+    return [
+        (f"6. {d['m']:,} daily series of {d['shortest']:,} to {d['longest']:,} points, period {d['period']}: the "
+         "batch route in process (warm)", "<= 5 s", _ms(t), _status(t <= 5, f"{t / 5:.1f}x over")),
+        (f"6. the same series one by one through the single route (a sample of {d['sample']})",
+         "same verdicts; strengths within 1e-6",
+         f"{d['verdicts_equal']} of {d['sample']} verdicts; {d['strengths_compared']} strengths compared, "
+         f"largest difference {d['max_strength_difference']:.1e}", _status(same, "they differ")),
+    ]
+
+
+def daily_section(d: dict) -> list[str]:
+    """Measurement 6: the batch of many lengths with a long period."""
+    t = d["times"]
+    ratio = paired(_runs(t, "one_pass_per_length"), _runs(t, "batch"))
+    return [
+        f"## 6. A batch of many lengths: {d['m']:,} daily series, {d['shortest']:,} to {d['longest']:,} points, "
+        f"period {d['period']}",
+        "",
+        f"`benchmarks.workloads.daily_batch` ({d['distinct_lengths']:,} distinct lengths, {d['points']:,} values; "
+        "a yearly cycle plus noise, detail \"brief\") posted to `/v1/diagnostics/batch` in process (Flask's test "
+        "client: parsing, checks, the cost estimate, the engine and the answer). Reproduce with "
+        "`python -m benchmarks.run --only 6`.",
+        "",
+        "| case | median |",
+        "| --- | --- |",
+        f"| the batch route (chunks of several lengths, one engine pass each) | {_ms(t['batch']['median'])} |",
+        f"| the same, one engine pass per length (pipeline.chunks disabled) | "
+        f"{_ms(t['one_pass_per_length']['median'])} |",
+        f"| the first request of a fresh application (builds its verdict null tables and loess tables) | "
+        f"{_ms(d['first_request'])} |",
+        "",
+        f"One pass per length over chunked: {ratio:.2f}x (median of the ratios within each round). A sample of "
+        f"{d['sample']} series sent one by one to `/v1/diagnostics` got the batch's verdict "
+        f"{d['verdicts_equal']} times of {d['sample']}; of {d['strengths_compared']} seasonal strengths the "
+        f"largest difference is {d['max_strength_difference']:.1e} (reported to 6 decimals; tests/test_family.py "
+        "holds them within 1e-6).",
+        "",
+    ]
 
 
 def render(r: dict, previous: str = "") -> str:
@@ -312,6 +358,8 @@ def render(r: dict, previous: str = "") -> str:
             " Kolmogorov-Smirnov table is shipped with the package, not computed per length).",
             "",
         ]
+    if r.get("daily"):
+        out += daily_section(r["daily"])
     out += kept_dask_section(previous)
     out += [
         "## Analysis",

@@ -1,4 +1,4 @@
-"""Run the five measurements and write BENCHMARKS.md: ``python -m benchmarks.run`` (``make bench``).
+"""Run the six measurements and write BENCHMARKS.md: ``python -m benchmarks.run`` (``make bench``).
 
 Options: ``--quick`` (tiny sizes, a minute or less; used by the test suite), ``--repeats N``,
 ``--out PATH`` (default BENCHMARKS.md at the repository root), ``--load {wrk,python}``,
@@ -30,6 +30,7 @@ FULL = {
     "throughput": {"n": 120, "seconds": 10, "connections": 16},
     "long": {"n": 1_000_000, "max_lag": 100},
     "mixed": {"m": 2_000, "shortest": 100, "longest": 1_000},
+    "daily": {"m": 2_515, "shortest": 730, "longest": 1_100, "period": 365, "sample": 40},
 }
 QUICK = {
     "batch": {"m": 60, "n": 120, "max_lag": 24, "period": 12, "default_loop_rows": 10},
@@ -37,12 +38,13 @@ QUICK = {
     "throughput": {"n": 120, "seconds": 1, "connections": 2},
     "long": {"n": 5_000, "max_lag": 100},
     "mixed": {"m": 20, "shortest": 100, "longest": 300},
+    "daily": {"m": 12, "shortest": 60, "longest": 90, "period": 12, "sample": 3},
 }
 
 
 def measure(sizes: dict, repeats: int, tool: str, log=print, only: set[str] | None = None) -> dict:
-    """The measurements, or those numbered in ``only`` ("1" to "5")."""
-    wanted = only or {"1", "2", "3", "4", "5"}
+    """The measurements, or those numbered in ``only`` ("1" to "6")."""
+    wanted = only or {"1", "2", "3", "4", "5", "6"}
     started = time.time()
     results: dict = {"machine": machine.describe(), "repeats": repeats, "load_tool": tool}
     b = sizes["batch"]
@@ -62,6 +64,11 @@ def measure(sizes: dict, repeats: int, tool: str, log=print, only: set[str] | No
                                                               s["batch_n"], s["batch_lag"], repeats)
             mx = sizes["mixed"]
             results["scaling"]["mixed"] = engine_bench.measure_mixed(mx["m"], mx["shortest"], mx["longest"], repeats)
+        if "6" in wanted:
+            d = sizes["daily"]
+            log(f"6. {d['m']:,} daily series of {d['shortest']:,} to {d['longest']:,} points, period {d['period']}")
+            results["daily"] = engine_bench.measure_daily(d["m"], d["shortest"], d["longest"], d["period"],
+                                                          repeats, d["sample"])
     if wanted & {"2", "3", "4"}:
         with Server(workers=2) as server:
             if "2" in wanted:
@@ -92,7 +99,7 @@ def main(argv=None) -> dict:
     parser.add_argument("--out", type=Path, default=ROOT / "BENCHMARKS.md")
     parser.add_argument("--load", choices=("wrk", "python"), default="wrk",
                         help="load generator for measurement 3 (wrk falls back to python when not installed)")
-    parser.add_argument("--only", nargs="+", choices=("1", "2", "3", "4", "5"), default=None,
+    parser.add_argument("--only", nargs="+", choices=("1", "2", "3", "4", "5", "6"), default=None,
                         help="run only these measurements and print their raw numbers (the report is not written)")
     ns = parser.parse_args(argv)
     repeats = ns.repeats or (1 if ns.quick else 7)

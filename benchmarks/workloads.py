@@ -28,3 +28,17 @@ def batch_body(x: np.ndarray, period: int | None, max_lag: int | None) -> dict:
 
 def long_series(n: int, seed: int = 7) -> np.ndarray:
     return batch(1, n, seed)[0]
+
+
+def daily_batch(m: int = 2515, shortest: int = 730, longest: int = 1100, period: int = 365,
+                seed: int = 0) -> dict:
+    """A bakery chain's daily sales: m series of ``shortest`` to ``longest`` days (lengths drawn at random,
+    so a few hundred distinct ones) with a yearly cycle, as one brief batch body with period ``period``:
+    the batch whose cost was one engine pass and one seasonal decomposition per distinct length."""
+    rng = np.random.default_rng(seed)
+    series = []
+    for i in range(m):
+        n = int(rng.integers(shortest, longest + 1))
+        x = rng.standard_normal(n) + 2 * np.sin(2 * np.pi * np.arange(n) / period)
+        series.append({"id": i, "values": np.round(x, 3).tolist()})
+    return {"series": series, "period": period, "detail": "brief"}

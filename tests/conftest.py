@@ -6,10 +6,17 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from threadpoolctl import threadpool_limits
 
 from lagsight import create_app
 
 DATA = Path(__file__).parent / "data"
+
+#: One BLAS thread in the test process, as every service worker runs (serving/gunicorn_conf.py). With the
+#: default two OpenBLAS threads on a busy 2-core machine, the engine's many small QR factorisations (the ADF
+#: regressions) took about 58 ms each instead of 2 ms, and a batch that answers in seconds reached the
+#: 30 s request deadline (a 503) in tests/test_budget.py.
+BLAS_LIMIT = threadpool_limits(1)
 
 
 @pytest.fixture

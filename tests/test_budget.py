@@ -14,6 +14,7 @@ import orjson
 import pytest
 
 from lagsight import config, create_app
+from lagsight.engine import trend
 from lagsight.web import budget
 from lagsight.web.observability import JsonFormatter
 
@@ -59,35 +60,74 @@ def _problem(r, status: int) -> dict:
 
 
 def test_many_lengths_with_a_long_period_are_refused_before_any_analysis(log_lines):
-    """One seasonal decomposition per distinct length: 150 lengths with period 1,000 cost about 30,000 units
-    (about half a minute of one core), over the default budget of 20,000."""
-    client = create_app({"TESTING": True}).test_client()
+    """150 lengths with period 1,000 and max_lag 1,000 under a budget of 1,000 units: refused before any analysis,
+    the request logged and counted, the largest part named with what to change."""
+    client = create_app({"TESTING": True, "MAX_COST": 1000}).test_client()
     body = {"period": 1000, "series": [{"id": f"depot-{i}", "values": _seasonal(2001 + i, 1000, i)}
                                        for i in range(150)]}
     before = _counter(client, "lagsight_series_analysed_total")
     r = client.post(BATCH, json=body, headers={"X-Request-ID": "costly-1"})
     problem = _problem(r, 413)
     assert problem["type"] == "urn:lagsight:problem:payload-too-large"
-    assert "over this deployment's budget of 20,000 (LAGSIGHT_MAX_COST" in problem["detail"]
+    assert "over this deployment's budget of 1,000 (LAGSIGHT_MAX_COST" in problem["detail"]
     cost = int(re.search(r"would cost about ([\d,]+) units", problem["detail"]).group(1).replace(",", ""))
-    assert cost > 20_000
-    assert "seasonal decompositions" in problem["detail"]
+    assert cost > 1000
+    assert "Most of it is seasonal decompositions" in problem["detail"]
     assert "150 distinct pairs of series length and period" in problem["detail"]
-    assert "fewer distinct series lengths" in problem["detail"]  # what to change
+    assert budget._ADVICE["seasonal decompositions"] in problem["detail"]  # what to change
     assert [e["pointer"] for e in problem["errors"]] == ["/series"]
     assert _counter(client, "lagsight_series_analysed_total") == before  # nothing analysed
     refused = [e for e in log_lines() if e["message"] == "request over the cost budget"]
     assert refused and refused[0]["request_id"] == "costly-1" and refused[0]["cost"] == cost
-    # The same series with one length share their tables: well within the budget, and answered.
-    same = {"period": 1000, "detail": "brief",
-            "series": [{"id": f"depot-{i}", "values": _seasonal(2001, 1000, i)} for i in range(100)]}
-    assert client.post(BATCH, json=same).status_code == 200
+
+
+def test_many_lengths_with_a_long_period_fit_the_default_budget():
+    """The same 150 lengths share one loess table per window, one joint decomposition per chunk and one set of
+    null draws for their verdict tables (one per short lag, 30 of them): within the default budget of 20,000;
+    before, one table per length and per short lag cost about 30,000 units. Their estimate, not their run."""
+    app = create_app({"TESTING": True})
+    body = {"period": 1000, "series": [{"id": i, "values": _seasonal(2001 + i, 1000, i)} for i in range(150)]}
+    from lagsight.inputs.schema import BatchRequest
+    from lagsight.web.batch import prepare_items
+
+    with app.test_request_context(BATCH, method="POST"):
+        shared = BatchRequest().load(body)
+        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
+        estimate = budget.engine_work(budget.Estimate(), prepared, "full")
+    assert estimate.total < 20_000
+    assert estimate.parts.get("verdict null tables", 0.0) == 0.0  # one set of draws: the request's warm-up
+
+
+def test_the_seasonal_decompositions_of_many_lengths_share_their_tables():
+    """The loess tables of a period serve every length its windows are shorter than (engine/stl.py), and the
+    lengths of a chunk are decomposed together: 150 lengths with period 1,000 count one table, one joint
+    decomposition per chunk, and each block's and series' own work."""
+    app = create_app({"TESTING": True})
+    body = {"period": 1000, "series": [{"id": i, "values": _seasonal(2001 + i, 1000, i)} for i in range(150)]}
+    from lagsight.engine import stl
+    from lagsight.inputs.schema import BatchRequest
+    from lagsight.pipeline import blocks, chunks
+    from lagsight.web.batch import prepare_items
+
+    with app.test_request_context(BATCH, method="POST"):
+        shared = BatchRequest().load(body)
+        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
+        estimate = budget.engine_work(budget.Estimate(), prepared, "brief")
+    trend = stl.windows(1000)[0]
+    assert trend < 2001 and trend >= stl.FFT_MIN_WIDTH and (2001 - trend) * trend >= stl.FFT_MIN_WORK
+    count = len(chunks(blocks(prepared)))
+    points = sum(2001 + i for i in range(150))
+    expected = (budget.STL_TABLES + budget.STL_TABLES_W2 * trend ** 2
+                + count * (budget.STL_CALL + budget.STL_CALL_W2 * trend ** 2)
+                + 150 * (budget.STL_GROUP + budget.STL_SERIES_W2 * trend ** 2) + budget.STL_POINT * points)
+    assert estimate.parts["seasonal decompositions"] == pytest.approx(expected)
+    assert estimate.notes["seasonal decompositions"].startswith("150 distinct pairs of series length and period")
 
 
 @pytest.mark.parametrize("body,part", [
     ({"transform": {"box_cox": "estimate"}, "series": [
         {"id": i, "values": np.exp(_noise(300, i)).tolist()} for i in range(200)]}, "Box-Cox estimates"),
-    ({"max_lag": 300, "series": [{"id": i, "values": _noise(700 + i, i)} for i in range(60)]}, "lags"),
+    ({"max_lag": 2000, "series": [{"id": i, "values": _noise(5000, i)} for i in range(10)]}, "lags"),
     ({"series": [{"id": i, "values": _noise(400 + i, i)} for i in range(100)]}, "engine passes"),  # one null table
     ({"p_values": "monte_carlo", "replicates": 999, "series": [{"id": 0, "values": _noise(3000, 1)}]},
      "Monte Carlo p-values"),
@@ -121,7 +161,11 @@ def test_the_estimate_follows_the_model():
     per_series = budget.SERIES + budget.POINT * 200 + budget.FULL_SERIES + budget.FULL_POINT * 200
     assert estimate.parts["engine passes"] == pytest.approx(budget.PASS)
     assert estimate.parts["series and points"] == pytest.approx(10 * per_series)
-    assert estimate.parts["lags"] == pytest.approx(budget.PASS_LAG * 20 + budget.SERIES_LAG2 * 400 * 10)
+    assert estimate.parts["lags"] == pytest.approx((budget.PASS_LAG + budget.PASS_LAG_BLOCK) * 20
+                                                   + budget.SERIES_LAG2 * 400 * 10)
+    k = trend.adf_trend_lags(200) + 3  # the ADF regressors with a trend
+    mechanism = budget.MECH_SERIES + budget.MECH_POINT * 200 + budget.MECH_POINT_K2 * 200 * k * k
+    assert estimate.parts["mechanism checks"] == pytest.approx(10 * mechanism)
     assert "seasonal decompositions" not in estimate.parts
 
 
@@ -129,9 +173,10 @@ def _late_app(deadline: float):
     return create_app({"TESTING": True, "REQUEST_DEADLINE": deadline})
 
 
-#: Many engine passes of a few milliseconds each (one per distinct length): the work outlasts a short deadline.
+#: Several engine passes (chunks of pipeline.BLOCK_POINTS values: 150 lengths of about 2,000 values make two)
+#: of well over 0.2 s each: the work outlasts a short deadline.
 SLOW_BATCH = {"max_lag": 300, "detail": "brief",
-              "series": [{"id": f"meter-{i}", "values": _noise(700 + i, i)} for i in range(150)]}
+              "series": [{"id": f"meter-{i}", "values": _noise(2000 + i, i)} for i in range(150)]}
 
 
 def test_a_late_batch_ends_with_a_503_logged_and_counted(log_lines):

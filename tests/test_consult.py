@@ -17,8 +17,8 @@ from scipy.stats import rankdata
 from lagsight import create_app
 from lagsight.consult import advice as advice_mod
 from lagsight.consult.words import plural
-from lagsight.engine import whiteness
-from lagsight.engine.ranking import masked_ranks
+from lagsight.engine import channels, whiteness
+from lagsight.engine.ranks import tied_ranks
 
 from .spec_tools import spec
 
@@ -146,17 +146,17 @@ def test_an_isolated_extreme_value_is_named_in_a_caution(client):
 def test_advice_codes_are_said_once_and_the_spec_lists_the_same():
     schema = spec()["components"]["schemas"]
     assert tuple(schema["Advice"]["properties"]["code"]["enum"]) == advice_mod.CODES
-    assert tuple(schema["Evidence"]["properties"]["source"]["enum"]) == whiteness.COMPONENTS
+    assert tuple(schema["Evidence"]["properties"]["source"]["enum"]) == channels.COMPONENTS
 
 
 def test_ranks_are_average_ranks():
     # Reference: scipy.stats.rankdata (method "average"), with ties, and on the observed values of masked rows.
     rng = np.random.default_rng(2)
     ties = rng.integers(0, 5, (40, 30)).astype(float)
-    np.testing.assert_array_equal(masked_ranks(ties, None), rankdata(ties, axis=1))
+    np.testing.assert_array_equal(tied_ranks(ties, None), rankdata(ties, axis=1))
     y = rng.standard_normal((40, 30))
     mask = rng.uniform(size=y.shape) > 0.3
-    ranked = masked_ranks(y, mask)
+    ranked = tied_ranks(y, mask)
     for i in range(40):
         np.testing.assert_array_equal(ranked[i][mask[i]], rankdata(y[i][mask[i]]))
 
@@ -167,7 +167,7 @@ def test_standardised_autocorrelations_follow_the_published_formula():
     # tau_k = (sum_{t>k} d_t^2 d_{t-k}^2 / (n - k)) / (sum d_t^2 / n)^2.
     rng = np.random.default_rng(8)
     x = rng.standard_t(4, (5, 90))
-    z, r = whiteness._standardised(x, None, 12, robust=True)
+    z, r = channels.standardised(x, None, 12, robust=True)
     for i in range(5):
         d = x[i] - x[i].mean()
         n = d.size

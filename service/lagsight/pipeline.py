@@ -6,6 +6,13 @@ Large groups are cut into blocks of at most ``BLOCK_POINTS`` values, which bound
 the engine's working memory and lets a streaming response send results while
 later blocks compute. Each row's numbers do not depend on the other rows of its
 block, so the blocking changes no result.
+
+Small blocks (a batch of many lengths has one per length) are gathered into chunks of
+about ``BLOCK_POINTS`` values that run as one engine pass over several groups
+(:func:`lagsight.engine.family.analyse_groups`): the partial autocorrelations and the
+seasonal strengths are computed over the rows of the whole chunk. The partial
+autocorrelations are the same bit for bit; the seasonal strengths agree with a block's
+own pass to rounding (tests/test_family.py checks a batch against the single route).
 """
 from __future__ import annotations
 
@@ -22,6 +29,7 @@ from lagsight import options
 from lagsight.consult.decision import decide_block
 from lagsight.consult.reading import interpret
 from lagsight.engine.analysis import Spec, analyse
+from lagsight.engine.family import analyse_groups, prepare_null_tables
 from lagsight.inputs.series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
 from lagsight.outputs.brief import brief_results
 from lagsight.outputs.report import build_reports
@@ -136,33 +144,63 @@ def gc_paused():
             gc.enable()
 
 
+def chunks(planned: list[tuple[Plan, list[int]]]) -> list[list[tuple[Plan, list[int]]]]:
+    """Blocks gathered, in order, into chunks of at most ``BLOCK_POINTS`` values (one engine pass each); a block
+    of ``BLOCK_POINTS`` values or more, and a Monte Carlo block (it simulates its own null), is a chunk alone."""
+    out: list[list[tuple[Plan, list[int]]]] = []
+    points = 0
+    for plan, members in planned:
+        size = max(plan.n, plan.length) * len(members)
+        if plan.spec.replicates or size >= BLOCK_POINTS:
+            out.append([(plan, members)])
+            points = BLOCK_POINTS  # the next block starts a new chunk
+            continue
+        if not out or points + size > BLOCK_POINTS:
+            out.append([])
+            points = 0
+        out[-1].append((plan, members))
+        points += size
+    return out
+
+
 def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.DEFAULT_DETAIL,
                observe: Callable[[int, int], None] | None = None) -> Iterator[list[tuple[int, dict]]]:
-    """Results block by block, as ``(index in items, result)`` pairs, as soon as each block is done.
+    """Results chunk by chunk (see :func:`chunks`), as ``(index in items, result)`` pairs, as soon as each chunk
+    is done.
 
     ``detail`` "full" gives full reports; "brief" the brief results of :mod:`lagsight.outputs.brief`,
     built from the same engine pass without the report and its sentences. ``observe(series, points)``,
-    when given, is called after each engine pass (the web layer counts the work in its metrics).
+    when given, is called for each block after its engine pass (the web layer counts the work in its metrics).
     """
-    for plan, members in blocks(items):
-        if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
-            x = items[members[0]][0].values[None, :]
-        else:
-            x = np.stack([items[i][0].values for i in members])
-        mask = ~np.isnan(x) if plan.pairwise else None
-        filled = np.stack([items[i][0].filled for i in members]) if plan.filled else None
-        result = analyse(x, plan.spec, mask=mask, filled=filled)
-        block = [items[i][0] for i in members]
-        decisions = decide_block(result, [s.n for s in block], [s.period for s in block],
-                                 [0 if s.filled is None else int(s.filled.sum()) for s in block])
-        if observe is not None:
-            observe(len(members), plan.n * len(members))
-        with gc_paused():
-            if detail == "brief":
-                done = list(zip(members, brief_results(block, result, decisions)))
+    planned = blocks(items)
+    prepare_null_tables([(plan.n, plan.spec) for plan, _ in planned if not (plan.pairwise or plan.filled)])
+    for chunk in chunks(planned):
+        inputs = []
+        for plan, members in chunk:
+            if len(members) == 1:  # a view, not a copy: one long series is the memory-heavy case
+                x = items[members[0]][0].values[None, :]
             else:
-                reports = build_reports(block, result)
-                done = [(i, interpret(report, d)) for i, report, d in zip(members, reports, decisions)]
+                x = np.stack([items[i][0].values for i in members])
+            mask = ~np.isnan(x) if plan.pairwise else None
+            filled = np.stack([items[i][0].filled for i in members]) if plan.filled else None
+            inputs.append((x, plan.spec, mask, filled))
+        if len(inputs) == 1:
+            results = [analyse(inputs[0][0], inputs[0][1], mask=inputs[0][2], filled=inputs[0][3])]
+        else:
+            results = analyse_groups(inputs)
+        done = []
+        for (plan, members), result in zip(chunk, results):
+            block = [items[i][0] for i in members]
+            decisions = decide_block(result, [s.n for s in block], [s.period for s in block],
+                                     [0 if s.filled is None else int(s.filled.sum()) for s in block])
+            if observe is not None:
+                observe(len(members), plan.n * len(members))
+            with gc_paused():
+                if detail == "brief":
+                    done.extend(zip(members, brief_results(block, result, decisions)))
+                else:
+                    reports = build_reports(block, result)
+                    done.extend((i, interpret(report, d)) for i, report, d in zip(members, reports, decisions))
         yield done
 
 

@@ -49,8 +49,9 @@ import numpy as np
 
 from lagsight import options
 from lagsight.consult.words import below, fmt, fmt_p, plural
+from lagsight.engine.channels import COMPONENTS, sidak
 from lagsight.engine.mechanism import Mechanism
-from lagsight.engine.whiteness import COMPONENTS, Evidence, raw_threshold, sidak
+from lagsight.engine.whiteness import Evidence, raw_threshold
 
 WEIGHT_AUTOCORRELATION = 0.9
 WEIGHT_VOLATILITY = 0.1

@@ -104,6 +104,7 @@ class GroupAnalysis:
     n_effective: np.ndarray | None = None  # (m, K) per-lag effective sizes when values are missing (masked.py)
     evidence: whiteness.Evidence | None = None  # the verdict's evidence channels (whiteness.py)
     mechanism: mechanism_checks.Mechanism | None = None  # what tells one mechanism from another (mechanism.py)
+    seasonal_rows: np.ndarray | None = None  # deferred: the rows whose seasonal strength the caller computes
 
     @property
     def max_lag(self) -> int:
@@ -262,7 +263,7 @@ def monte_carlo(observed: list[TestArrays], n: int, spec: Spec) -> None:
 
 
 def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
-            filled: np.ndarray | None = None) -> GroupAnalysis:
+            filled: np.ndarray | None = None, deferred: bool = False) -> GroupAnalysis:
     """Autocorrelations, bands, tests and spectral summaries for rows of x.
 
     Parameters
@@ -280,6 +281,10 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
     filled : ndarray of bool, shape (m, n), optional
         True where a value was filled in (interpolated). The verdict's evidence leaves those values out
         (amplitude-modulated estimator on the observed ones); everything else is computed on the filled series.
+    deferred : bool, default False
+        Leave the partial autocorrelations (``pacf`` None) and the seasonal strengths (None, with the rows
+        that need one in ``seasonal_rows``) to the caller, which computes them for several groups at once
+        (:func:`lagsight.engine.family.analyse_groups`).
     """
     x = np.atleast_2d(np.asarray(x, dtype=np.float64))
     m, n = x.shape
@@ -291,7 +296,7 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
     else:
         r, n_eff = masked_acf(x, mask, spec.max_lag)
         d, power = center_observed(x, mask), None
-    phi = np.clip(pacf(r), -1.0, 1.0)
+    phi = None if deferred else np.clip(pacf(r), -1.0, 1.0)
     band = acf_band(spec.band, r, n, spec.confidence)
     if spec.horizon > 1 and spec.band != "bartlett":  # lags >= h: Bartlett's variance, as the evidence uses
         band.se[:, spec.horizon - 1:] *= np.sqrt(ahead.bartlett_factor(r, spec.horizon))[:, None]
@@ -318,10 +323,11 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
         seasonal_flag = np.zeros(m, dtype=bool)
     complete = mask is None
     strength: list = [None] * m
+    rows = np.zeros(0, dtype=np.int64)
     if (complete and spec.seasonal_strength and spec.period is not None and n >= 2 * spec.period + 1
             and stl.supports(spec.period)):
         rows = np.flatnonzero(seasonal_flag)
-        if rows.size:
+        if rows.size and not deferred:
             for i, value in zip(rows.tolist(), seasonality.stl_strengths(x[rows], spec.period).tolist()):
                 strength[i] = value
     suggested: list = [None] * m
@@ -346,5 +352,5 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
                                           [[] for _ in range(m)])
     return GroupAnalysis(
         n, spec, r, band, phi, p_band, tests, freqs, chart_power, chart_cum, expected, crit,
-        strength, suggested, unit_root, n_eff, ev, mech,
+        strength, suggested, unit_root, n_eff, ev, mech, rows if deferred else None,
     )

@@ -58,8 +58,7 @@ def check(x: np.ndarray, r: np.ndarray, persistence_rows: np.ndarray, outlier_ro
     outlier_z: list = [[] for _ in range(m)]
     if n >= MIN_N and persistence_rows.size:
         rows = x[persistence_rows]
-        adf_p[persistence_rows] = [p for _, p, _ in stationarity.adf_rows(rows)]
-        adf_trend_p[persistence_rows] = trend.adf_trend_rows(rows).p_value
+        adf_p[persistence_rows], adf_trend_p[persistence_rows] = _adf_pair(rows)
         fit = trend.trend_slope(rows)
         slope_t[persistence_rows] = fit.t
         resid_r1[persistence_rows] = fit.resid_r1
@@ -87,3 +86,18 @@ def check(x: np.ndarray, r: np.ndarray, persistence_rows: np.ndarray, outlier_ro
                 outliers[row] = where.tolist()
                 outlier_z[row] = level.z[hit[i], where].tolist()
     return Mechanism(adf_p, adf_trend_p, slope_t, resid_r1, kpss_trend_p, slow, outliers, outlier_z)
+
+
+def _adf_pair(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """ADF p-values with a constant, and with a constant and a trend: both from one QR per row when their lags
+    agree (stationarity.adf_pair_rows), the rows it leaves NaN (and short series) by the separate tests."""
+    pair = stationarity.adf_pair_rows(rows)
+    if pair is None:
+        return (np.array([p for _, p, _ in stationarity.adf_rows(rows)]), trend.adf_trend_rows(rows).p_value)
+    p_const, t_trend = pair
+    p_trend = trend.mackinnon_p_ct(np.where(np.isfinite(t_trend), t_trend, 0.0))
+    redo = np.flatnonzero(~(np.isfinite(p_const) & np.isfinite(t_trend)))
+    if redo.size:
+        p_const[redo] = [p for _, p, _ in stationarity.adf_rows(rows[redo])]
+        p_trend[redo] = trend.adf_trend_rows(rows[redo]).p_value
+    return p_const, p_trend

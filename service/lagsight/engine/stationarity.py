@@ -112,33 +112,106 @@ def thin_svd(a: np.ndarray):
     return np.matmul(q, ur), sv, vt
 
 
+def first_t(augmented: np.ndarray, tri: np.ndarray | None = None, k: int | None = None
+            ) -> tuple[np.ndarray, np.ndarray]:
+    """The t-statistic of the first coefficient of least squares per row, from the triangle of one QR.
+
+    Parameters
+    ----------
+    augmented : ndarray, shape (m, nobs, c + 1)
+        The design (c columns) with the response as its last column; nobs >= c + 1.
+    tri : ndarray, shape (m, c + 1, c + 1), optional
+        Its triangle, when already computed (see :func:`adf_pair_rows`).
+    k : int, optional (default c)
+        Regress on the first k columns of the design only: the triangle of the whole serves every leading
+        subset of its columns (its rows k.. of the last column hold the rest of the response).
+
+    Returns
+    -------
+    t : ndarray, shape (m,)
+        beta_0 / sqrt(s^2 (X'X)^+_00), s^2 = RSS / (nobs - k), as statsmodels' OLS (method "pinv") gives it;
+        NaN where the design is rank-deficient.
+    full_rank : ndarray of bool, shape (m,)
+        The rank by ``numpy.linalg.matrix_rank``'s tolerance equals k (callers hand the other rows to
+        statsmodels).
+
+    Notes
+    -----
+    The QR of [X | y] (triangle only, no Q) holds everything the statistic needs: its top-left k x k block is
+    R of X = QR, the column above the corner is Q'y, and the corner is the residual norm. The pseudo-inverse
+    of X is V S^+ U' Q' with R = U S V' (the SVD of the small R, singular values below 1e-15 x the largest
+    dropped, as ``statsmodels.tools.tools.pinv_extended``), so beta = V S^+ U' Q'y and (X'X)^+_00 is the
+    squared norm of the first row of V S^+. This is the same arithmetic as forming Q and the pseudo-inverse, to
+    rounding, at about half the cost of a full QR and without the (k, nobs) pseudo-inverse.
+    """
+    m, nobs, c1 = augmented.shape
+    k = c1 - 1 if k is None else k
+    if tri is None:
+        tri = np.linalg.qr(augmented, mode="r")
+    u, sv, vt = np.linalg.svd(tri[:, :k, :k])
+    top = np.maximum.reduce(sv, axis=1, keepdims=True)
+    with np.errstate(divide="ignore"):
+        inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)
+    weights = vt[:, :, 0] * inv  # first row of V S^+
+    beta0 = np.vecdot(weights, np.matmul(tri[:, None, :k, -1], u)[:, 0, :])
+    rss = np.vecdot(tri[:, k:, -1], tri[:, k:, -1])
+    se = np.sqrt(rss / (nobs - k) * np.vecdot(weights, weights))
+    full_rank = (sv > top * k * np.finfo(np.float64).eps).sum(axis=1) == k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(full_rank, beta0 / se, np.nan), full_rank
+
+
 def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     m, n = x.shape
     k = lags + 2
     nobs = n - 1 - lags
     dx = np.diff(x, axis=1)
-    design = np.empty((m, nobs, k))  # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant
-    design[:, :, 0] = x[:, lags : n - 1]
+    # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant; then the response dx_t
+    augmented = np.empty((m, nobs, k + 1))
+    augmented[:, :, 0] = x[:, lags : n - 1]
     for i in range(1, lags + 1):
-        design[:, :, i] = dx[:, lags - i : n - 1 - i]
-    design[:, :, -1] = 1.0
-    y = dx[:, lags:]
-    # statsmodels' OLS (method "pinv"): pinv from the SVD, singular values below 1e-15 x the largest dropped
-    u, sv, vt = thin_svd(design)
-    top = np.maximum.reduce(sv, axis=1, keepdims=True)
-    with np.errstate(divide="ignore"):
-        inv = np.where(sv > 1e-15 * top, 1.0 / sv, 0.0)
-    pinv = np.matmul(np.swapaxes(vt, 1, 2), inv[:, :, None] * np.swapaxes(u, 1, 2))  # (m, k, nobs)
-    params = np.matmul(pinv, y[:, :, None])[:, :, 0]
-    resid = y - np.matmul(design, params[:, :, None])[:, :, 0]
-    # numpy.linalg.matrix_rank's tolerance on the singular values, as statsmodels takes the rank
-    full_rank = (sv > top * k * np.finfo(np.float64).eps).sum(axis=1) == k
-    scale = np.einsum("ij,ij->i", resid, resid) / (nobs - k)
-    se = np.sqrt(scale * np.einsum("ij,ij->i", pinv[:, 0, :], pinv[:, 0, :]))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        stat = params[:, 0] / se
+        augmented[:, :, i] = dx[:, lags - i : n - 1 - i]
+    augmented[:, :, k - 1] = 1.0
+    augmented[:, :, k] = dx[:, lags:]
+    stat, full_rank = first_t(augmented)
     pvalue = mackinnon_p(np.where(np.isfinite(stat), stat, 0.0))
     out = []
     for i, (t, p, ok) in enumerate(zip(stat.tolist(), pvalue.tolist(), full_rank.tolist())):
         out.append((t, p, lags) if ok and math.isfinite(t) else _adfuller(x[i], lags))
     return out
+
+
+def adf_pair_rows(x: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """ADF p-values with a constant, and t-statistics with a constant and a linear trend, per row, from one QR.
+
+    The designs are nested (the trend is one more column after the constant) when both use the same lags,
+    as they do from 10 values on (Schwert's rule capped at n // 2 - 2 and n // 2 - 3): the triangle of
+    [x_{t-1}, lags, constant, trend | dx_t] serves both (:func:`first_t` with ``k``). The same numbers as
+    :func:`adf_rows` and ``trend.adf_trend_rows`` to rounding; rows they hand to ``adfuller`` (rank-deficient
+    designs) come back NaN for the caller to do the same. None when the two tests' lags differ (short series).
+    """
+    x = np.asarray(x, dtype=np.float64)[:, -ADF_MAX_POINTS:]
+    m, n = x.shape
+    lags = _schwert_lags(n)
+    if lags != max(min(int(12 * (n / 100.0) ** 0.25), n // 2 - 3), 0):  # trend.adf_trend_lags
+        return None
+    k = lags + 3
+    nobs = n - 1 - lags
+    rows = max(1, CHUNK_VALUES // (nobs * (k + 1)))
+    p_const, t_trend = np.empty(m), np.empty(m)
+    for start in range(0, m, rows):
+        block = x[start:start + rows]
+        dx = np.diff(block, axis=1)
+        augmented = np.empty((block.shape[0], nobs, k + 1))
+        augmented[:, :, 0] = block[:, lags:n - 1]
+        for i in range(1, lags + 1):
+            augmented[:, :, i] = dx[:, lags - i:n - 1 - i]
+        augmented[:, :, k - 2] = 1.0
+        augmented[:, :, k - 1] = np.arange(1.0, nobs + 1.0)
+        augmented[:, :, k] = dx[:, lags:]
+        tri = np.linalg.qr(augmented, mode="r")
+        t_const, _ = first_t(augmented, tri, k - 1)
+        t_trend[start:start + rows], _ = first_t(augmented, tri)
+        p_const[start:start + rows] = np.where(np.isfinite(t_const), mackinnon_p(np.where(np.isfinite(t_const),
+                                                                                          t_const, 0.0)), np.nan)
+    return p_const, t_trend

@@ -40,7 +40,7 @@ import numpy as np
 from scipy.special import ndtr
 from statsmodels.tsa.stattools import adfuller
 
-from lagsight.engine.stationarity import thin_svd
+from lagsight.engine.stationarity import first_t, thin_svd
 
 from .autocorrelation import acf, autocovariance, center
 from .stationarity import ADF_MAX_POINTS, CHUNK_VALUES, _schwert_lags
@@ -157,17 +157,15 @@ def _adf_trend_block(x: np.ndarray, lags: int) -> np.ndarray:
     k = lags + 3
     nobs = n - 1 - lags
     dx = np.diff(x, axis=1)
-    design = np.empty((m, nobs, k))  # adfuller's columns: x_{t-1}, dx_{t-1}..dx_{t-lags}, constant, trend
-    design[:, :, 0] = x[:, lags:n - 1]
+    # adfuller's columns: x_{t-1}, dx_{t-1}..dx_{t-lags}, constant, trend; then the response dx_t
+    augmented = np.empty((m, nobs, k + 1))
+    augmented[:, :, 0] = x[:, lags:n - 1]
     for i in range(1, lags + 1):
-        design[:, :, i] = dx[:, lags - i:n - 1 - i]
-    design[:, :, -2] = 1.0
-    design[:, :, -1] = np.arange(1.0, nobs + 1.0)
-    params, resid, pinv, full_rank = ols_rows(design, dx[:, lags:])
-    scale = np.vecdot(resid, resid) / (nobs - k)
-    se = np.sqrt(scale * np.vecdot(pinv[:, 0, :], pinv[:, 0, :]))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        stat = params[:, 0] / se
+        augmented[:, :, i] = dx[:, lags - i:n - 1 - i]
+    augmented[:, :, k - 2] = 1.0
+    augmented[:, :, k - 1] = np.arange(1.0, nobs + 1.0)
+    augmented[:, :, k] = dx[:, lags:]
+    stat, full_rank = first_t(augmented)
     for i in np.flatnonzero(~(full_rank & np.isfinite(stat))):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # statsmodels' notices on short series and its tuple return

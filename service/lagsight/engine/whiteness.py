@@ -19,18 +19,21 @@ The components are
 - the sum at h and the largest spike over 1..h of the autocorrelations of the ranks (rank autocorrelation: a
   single outlier can hide or fake a correlation, it cannot move ranks much).
 
-The smallest component p-value is referred to its own null distribution: REPLICATES seeded i.i.d. normal series
-of about the same length, with the classical statistics (tau = 1): the min-p adjustment of Westfall and Young
-(1993), which accounts for the correlation among the components and for the small-sample bias of the chi-square
-and normal approximations. The adjusted p-value is the exact Monte Carlo one, (draws at or below + 1) / (draws +
-1). Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (the shorter
-length is the more liberal one); long lengths get fewer draws (at most MAX_SIMULATED values per table). A table is
-built once per process for each (length, layout) and kept.
+The smallest component p-value is referred to its own null distribution: REPLICATES i.i.d. normal series of
+about the same length (as the next paragraph says), seeded, with the classical statistics
+(tau = 1). That is the min-p adjustment of Westfall and Young (1993): it accounts for the strong correlation among
+the components (no Bonferroni waste) and for the small-sample bias of the chi-square and normal approximations
+(the Ljung-Box test at lag K is liberal at n = 20-40). The adjusted p-value is the exact Monte Carlo one,
+(draws at or below + 1) / (draws + 1), so it is never below the table's resolution 1 / (draws + 1).
+Lengths above EXACT_MAX_N are simulated at a grid length at most their own and at least 4 K (a shorter length is
+the more liberal one, so this errs on the safe side); long lengths get fewer draws (at most MAX_SIMULATED
+values per table). A table is built once per process for each (length, layout) and kept; the tables of one
+length, max_lag and seasonal lags come from the same seeded draws (the short lag only picks the lags they read).
 
 With a horizon H > 1 (h-step forecast errors, :mod:`.horizon`) every component starts at lag H: z_k for k >= H
 uses Bartlett's variance (times B = 1 + 2 sum_{j<H} r_j^2), z at lags below H is 0, and the sums take Box's scaled
-chi-square for correlated lags. The layout (so the table) is keyed by H; its i.i.d. null computes the same
-statistics, so the estimation of B is in the reference (simulation: tests/test_horizon.py, CALIBRATION.md). A
+chi-square for correlated lags. The draws (so the tables) are keyed by H; its i.i.d. null computes the same
+statistics, so the estimation of B is in the reference (checked by simulation). A
 table for H > 1 costs about what one for H = 1 does (CPU time 0.8-1.1 times, measured side by side at n 100-2,000).
 
 Volatility channel
@@ -54,16 +57,18 @@ References
 """
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
-from scipy.special import chdtrc, ndtr
+from scipy.special import chdtrc
 
+from lagsight.engine import channels
 from lagsight.engine import horizon as ahead
-from lagsight.engine.autocorrelation import autocovariance, center
-from lagsight.engine.masked import center_observed, pair_counts
-from lagsight.engine.ranking import masked_ranks
+from lagsight.engine.autocorrelation import center
+from lagsight.engine.channels import Layout
+from lagsight.engine.ranks import tied_ranks
 
 #: Simulated series behind each null table, and the table's seed (fixed: the verdict is reproducible).
 REPLICATES = 4000
@@ -77,21 +82,8 @@ _GRID = (50, 60, 70, 85, 100, 120, 150, 200, 250, 300, 400)
 #: Values simulated per chunk when building a table (bounds memory).
 _CHUNK_VALUES = 1 << 21
 
-COMPONENTS = ("lag_one", "ljung_box_short", "ljung_box_long", "spike", "seasonal_spike", "rank_ljung_box", "rank_spike")
+_lock = threading.Lock()  # the tables are shared by a worker's threads
 
-
-@dataclass(frozen=True)
-class Layout:
-    """Which components a block has: the key of its null table."""
-
-    max_lag: int
-    short: int
-    seasonal: tuple[int, ...]
-    horizon: int = 1  # lags 1..horizon - 1 are not tested (h-step forecast errors; see :mod:`.horizon`)
-
-    @property
-    def lags(self) -> tuple[int, ...]:
-        return tuple(sorted({self.short, self.max_lag}))
 
 
 @dataclass
@@ -113,8 +105,8 @@ class Evidence:
 def simulated_length(n: int, max_lag: int) -> int:
     """The length the null is simulated at.
 
-    n itself up to EXACT_MAX_N (at least max_lag + 1); beyond, the largest grid length (50, 60, 70, 85, 100, 120, 150, 200, 250, 300,
-    400, then steps of a quarter) that is at most n and at most max(400, 4 K), and above K. A shorter length's
+    n itself up to EXACT_MAX_N (at least max_lag + 1); beyond, the largest grid length (50, 60, 70, 85, 100,
+    120, 150, 200, 250, 300, 400, then steps of a quarter) that is at most n and at most max(400, 4 K), and above K. A shorter length's
     null is the more liberal one, so the verdict errs on the safe side; the grid keeps the number of tables
     small when a batch has many lengths.
     """
@@ -135,126 +127,6 @@ def _grid_upto(limit: int) -> list[int]:
         out.append(g)
 
 
-def sidak(z: np.ndarray, count: int) -> np.ndarray:
-    """P(the largest of `count` independent |N(0,1)| exceeds z), elementwise."""
-    tail = np.clip(2.0 * ndtr(-np.asarray(z, dtype=np.float64)), 0.0, 1.0)
-    with np.errstate(divide="ignore"):
-        return np.where(tail >= 1.0, 1.0, -np.expm1(count * np.log1p(-tail)))
-
-
-def _standardised(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool, horizon: int = 1):
-    """z (m, K) and r (m, K) of the rows; with a mask, the amplitude-modulated estimate. Undefined z (a row
-    without variation, a lag without pairs) are 0: no evidence. With a horizon h > 1 the variance at lags k >= h
-    is Bartlett's (times :func:`.horizon.bartlett_factor`) and z at lags 1..h - 1 is 0: those lags are not tested."""
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        return _standardised_rows(x, mask, max_lag, robust, horizon)
-
-
-def _standardised_rows(x: np.ndarray, mask: np.ndarray | None, max_lag: int, robust: bool, horizon: int = 1):
-    m, n = x.shape
-    k = np.arange(1, max_lag + 1)
-    if mask is None:
-        d = center(x)  # rescaled by a power of two: no overflow near the largest floats, ratios unchanged
-        c = autocovariance(d, max_lag)
-        r = c[:, 1:] / c[:, :1]
-        v = (n - k) / (n * (n + 2.0))
-        pairs = np.broadcast_to((n - k).astype(np.float64), r.shape)
-        n_obs = np.full((m, 1), float(n))
-    else:
-        d = center_observed(x, mask)
-        counts = pair_counts(mask, max_lag).astype(np.float64)
-        c = autocovariance(d, max_lag) * n
-        kk = np.arange(max_lag + 1)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            c = (n - kk) / n * c / counts
-        r = c[:, 1:] / c[:, :1]
-        n_eff = n * counts[:, 1:] / (n - k)
-        v = 1.0 / n_eff
-        pairs = counts[:, 1:]
-        n_obs = mask.sum(axis=1, keepdims=True).astype(np.float64)
-    if horizon == 1:
-        return _scaled(d, r, v, pairs, n_obs, max_lag, robust), r
-    z = _scaled(d, r, v * ahead.bartlett_factor(r, horizon)[:, None], pairs, n_obs, max_lag, robust)
-    z[:, : horizon - 1] = 0.0
-    return z, r
-
-
-def _scaled(d, r, v, pairs, n_obs, max_lag, robust) -> np.ndarray:
-    n = d.shape[1]
-    if robust:
-        s = d * d
-        num = autocovariance(s, max_lag)[:, 1:] * n / pairs
-        g0 = s.sum(axis=1, keepdims=True) / n_obs
-        tau = np.maximum(num / (g0 * g0), 1.0)
-        z = r / np.sqrt(v * tau)
-    else:
-        z = r / np.sqrt(v)
-    return np.nan_to_num(z, nan=0.0, posinf=0.0, neginf=0.0)
-
-
-def _components(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int, r: np.ndarray | None = None,
-                r_rank: np.ndarray | None = None) -> np.ndarray:
-    """Component p-values (m, len(COMPONENTS)); 1.0 where a component is absent or undefined. With a horizon
-    h > 1, ``r`` and ``r_rank`` (the autocorrelations behind z and zr) give the correlation between lags."""
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        if layout.horizon > 1:
-            return np.nan_to_num(_horizon_values(z, zr, layout, model_df, r, r_rank), nan=1.0)
-        return np.nan_to_num(_component_values(z, zr, layout, model_df), nan=1.0)
-
-
-def _component_values(z: np.ndarray, zr: np.ndarray, layout: Layout, model_df: int) -> np.ndarray:
-    m = z.shape[0]
-    out = np.ones((m, len(COMPONENTS)))
-    h, K = layout.short, layout.max_lag
-    out[:, 0] = sidak(np.abs(z[:, 0]), 1)
-    cum = np.cumsum(z * z, axis=1)
-    if h - model_df > 0:
-        out[:, 1] = chdtrc(h - model_df, cum[:, h - 1])
-    if K != h and K - model_df > 0:
-        out[:, 2] = chdtrc(K - model_df, cum[:, K - 1])
-    out[:, 3] = sidak(np.abs(z[:, :h]).max(axis=1), h)
-    if layout.seasonal:
-        idx = np.asarray(layout.seasonal) - 1
-        out[:, 4] = sidak(np.abs(z[:, idx]).max(axis=1), len(idx))
-    if h - model_df > 0:
-        out[:, 5] = chdtrc(h - model_df, (zr[:, :h] ** 2).sum(axis=1))
-    out[:, 6] = sidak(np.abs(zr[:, :h]).max(axis=1), h)
-    return out
-
-
-def _horizon_values(z, zr, layout: Layout, model_df: int, r, r_rank) -> np.ndarray:
-    """The components over lags H..: the first tested lag H alone, the sums from H (Box's scaled chi-square
-    for correlated lags, :mod:`.horizon`), the spikes over H..short (Sidak: conservative for correlated lags)."""
-    m = z.shape[0]
-    out = np.ones((m, len(COMPONENTS)))
-    H, h, K = layout.horizon, layout.short, layout.max_lag
-    out[:, 0] = sidak(np.abs(z[:, H - 1]), 1)
-    sums = ahead.sum_p_values(z, ahead.lag_correlation(r, H), H, (h, K), model_df)
-    out[:, 1] = sums[:, 0]
-    if K != h:
-        out[:, 2] = sums[:, 1]
-    out[:, 3] = sidak(np.abs(z[:, H - 1:h]).max(axis=1), h - H + 1)
-    if layout.seasonal:
-        idx = np.asarray(layout.seasonal) - 1
-        out[:, 4] = sidak(np.abs(z[:, idx]).max(axis=1), len(idx))
-    out[:, 5] = ahead.sum_p_values(zr[:, :h], ahead.lag_correlation(r_rank, H), H, (h,), model_df)[:, 0]
-    out[:, 6] = sidak(np.abs(zr[:, H - 1:h]).max(axis=1), h - H + 1)
-    return out
-
-
-def _volatility(x: np.ndarray, mask: np.ndarray | None, h: int, horizon: int = 1) -> np.ndarray:
-    """Ljung-Box p-values at h of the ranks of |x - mean| (chi-square scale; referred to the null by callers);
-    with a horizon H > 1, the sum over lags H..h with Bartlett's variance (the magnitudes of an MA(H - 1) error
-    are correlated up to lag H - 1 too)."""
-    d = center(x) if mask is None else center_observed(x, mask)  # scaled by a power of two: ranks unchanged
-    a = masked_ranks(np.abs(d), mask)
-    z, r = _standardised(a, mask, h, robust=False, horizon=horizon)
-    if horizon > 1:
-        p = ahead.sum_p_values(z, ahead.lag_correlation(r, horizon), horizon, (h,))[:, 0]
-        return np.nan_to_num(p, nan=1.0)
-    return np.nan_to_num(chdtrc(h, (z * z).sum(axis=1)), nan=1.0)
-
-
 def replicates(n: int) -> int:
     """Null draws for length n: REPLICATES, fewer for long simulated lengths (at most MAX_SIMULATED values, at
     least 999 draws), so that one table costs at most a second or two."""
@@ -263,31 +135,86 @@ def replicates(n: int) -> int:
 
 def table_cost(n_obs: int, layout: Layout) -> int:
     """Values simulated to build the null table a series of n_obs observed values needs, 0 when this process has
-    it already: a request's cost estimate counts them."""
+    it already: a request's cost estimate counts them, once per :func:`draw_key` (the tables of one key come
+    from the same draws, see :func:`prepare_tables`)."""
     n = simulated_length(n_obs, layout.max_lag)
     return 0 if (n, layout) in _BUILT else replicates(n) * n
 
 
+def draw_key(n_obs: int, layout: Layout) -> tuple:
+    """The draws a table comes from: (simulated length, max_lag, seasonal lags, horizon); the short lag is not
+    part of it."""
+    return simulated_length(n_obs, layout.max_lag), layout.max_lag, layout.seasonal, layout.horizon
+
+
 #: The (length, layout) keys whose table this process has built.
 _BUILT: set = set()
+_TABLES: OrderedDict = OrderedDict()
+#: Null tables kept per process (two sorted arrays of at most REPLICATES values each).
+TABLES_KEPT = 256
 
 
-@lru_cache(maxsize=256)
-def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
-    """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n."""
-    H = layout.horizon
-    rng = np.random.default_rng([NULL_SEED + 1000 * (H - 1), n, layout.max_lag, layout.short, *layout.seasonal])
+def _draws(n: int, max_lag: int, seasonal: tuple[int, ...], horizon: int = 1):
+    """Standardised autocorrelations, rank autocorrelations and volatility-rank autocorrelations (each
+    (draws, max_lag), with the autocorrelations behind each) of the seeded i.i.d. normal draws behind every table
+    of (n, max_lag, seasonal, horizon); with a horizon H > 1 standardised as the evidence is (Bartlett's variance
+    from lag H on)."""
+    rng = np.random.default_rng([NULL_SEED + 1000 * (horizon - 1), n, max_lag, *seasonal])
     draws = replicates(n)
     rows = max(1, min(draws, _CHUNK_VALUES // n))
-    minp, vol = [], []
+    z, zr, zv = [], [], []
     for start in range(0, draws, rows):
         x = rng.standard_normal((min(rows, draws - start), n))
-        z, r = _standardised(x, None, layout.max_lag, robust=False, horizon=H)
-        zr, r_rank = _standardised(masked_ranks(x, None), None, layout.short, robust=False, horizon=H)
-        minp.append(_components(z, zr, layout, 0, r, r_rank).min(axis=1))
-        vol.append(_volatility(x, None, layout.short, H))
-    _BUILT.add((n, layout))
-    return np.sort(np.concatenate(minp)), np.sort(np.concatenate(vol))
+        z.append(channels.standardised(x, None, max_lag, robust=False, horizon=horizon))
+        zr.append(channels.standardised(tied_ranks(x, None), None, max_lag, robust=False, horizon=horizon))
+        magnitudes = tied_ranks(np.abs(center(x)), None)
+        zv.append(channels.standardised(magnitudes, None, max_lag, robust=False, horizon=horizon))
+    return tuple(np.concatenate([pair[i] for pair in part]) for part in (z, zr, zv) for i in (0, 1))
+
+
+def _table(n: int, layout: Layout, z, r, zr, r_rank, zv, r_vol):
+    h, H = layout.short, layout.horizon
+    minp = channels.components(z, zr, layout, 0, r, r_rank).min(axis=1)
+    if H > 1:
+        vol = ahead.sum_p_values(zv[:, :h], ahead.lag_correlation(r_vol, H), H, (h,))[:, 0]
+    else:
+        vol = chdtrc(h, (zv[:, :h] ** 2).sum(axis=1))
+    table = np.sort(minp), np.sort(np.nan_to_num(vol, nan=1.0))
+    with _lock:
+        _TABLES[(n, layout)] = table
+        _BUILT.add((n, layout))
+        while len(_TABLES) > TABLES_KEPT:
+            _BUILT.discard(_TABLES.popitem(last=False)[0])
+    return table
+
+
+def null_table(n: int, layout: Layout) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted null draws of (smallest component p-value, volatility p-value) for i.i.d. normal series of length n.
+
+    Every layout with the same max_lag, seasonal lags and horizon is computed from the same seeded draws (the
+    short lag only chooses which of their lags the components read), so :func:`prepare_tables` builds many at
+    the cost of one and gives the same tables as building them one by one.
+    """
+    with _lock:
+        if (n, layout) in _TABLES:
+            _TABLES.move_to_end((n, layout))
+            return _TABLES[(n, layout)]
+    return _table(n, layout, *_draws(n, layout.max_lag, layout.seasonal, layout.horizon))
+
+
+def prepare_tables(keys) -> None:
+    """Build the null tables of (simulated length, layout) ``keys`` not built yet, one set of draws per
+    (length, max_lag, seasonal lags, horizon): a batch of many lengths has one short lag per length, and each
+    would otherwise simulate its own draws."""
+    with _lock:
+        missing = {key for key in keys if key not in _TABLES}
+    by_draws: dict = {}
+    for n, layout in missing:
+        by_draws.setdefault((n, layout.max_lag, layout.seasonal, layout.horizon), []).append(layout)
+    for (n, max_lag, seasonal, horizon), layouts in by_draws.items():
+        arrays = _draws(n, max_lag, seasonal, horizon)
+        for layout in layouts:
+            _table(n, layout, *arrays)
 
 
 def raw_threshold(n: int, layout: Layout, level: float) -> float:
@@ -320,14 +247,15 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     if mask is not None and mask.all():
         mask = None
     H = layout.horizon
-    z, r = _standardised(x, mask, layout.max_lag, robust=True, horizon=H)
+    z, r = channels.standardised(x, mask, layout.max_lag, robust=True, horizon=H)
     largest_tie: list = []
-    zr, r_rank = _standardised(masked_ranks(x, mask, largest_tie), mask, layout.max_lag, robust=False, horizon=H)
-    comps = _components(z, zr, layout, model_df, r, r_rank)
+    ranks = tied_ranks(x, mask, largest_tie)
+    zr, r_rank = channels.standardised(ranks, mask, layout.max_lag, robust=False, horizon=H)
+    comps = channels.components(z, zr, layout, model_df, r, r_rank)
     n_obs = np.full(m, n) if mask is None else mask.sum(axis=1)
     n_sim = np.array([simulated_length(int(k), layout.max_lag) for k in n_obs])
     smallest = comps.min(axis=1)
-    p_vol_raw = _volatility(x, mask, layout.short, H)
+    p_vol_raw = channels.volatility(x, mask, layout.short, H)
     p_auto = np.empty(m)
     p_vol = np.empty(m)
     for length in np.unique(n_sim).tolist():
@@ -339,7 +267,8 @@ def evidence(x: np.ndarray, layout: Layout, model_df: int, mask: np.ndarray | No
     # resolution: there the normal tails of the largest robust spike over every lag and of the rank spike
     # (Sidak, then Bonferroni over the two) are used; the chi-square tails of the sums are too light there.
     resolution = 1.0 / (REPLICATES + 1.0)
-    spikes = np.minimum(1.0, 2.0 * np.minimum(sidak(np.abs(z).max(axis=1), layout.max_lag - H + 1), comps[:, 6]))
+    largest = channels.sidak(np.abs(z).max(axis=1), layout.max_lag - H + 1)
+    spikes = np.minimum(1.0, 2.0 * np.minimum(largest, comps[:, 6]))
     p_tail = np.where(p_auto > 2.0 * resolution, p_auto, np.minimum(p_auto, spikes))
     tied_share = largest_tie[0] / np.maximum(n_obs, 1)
     return Evidence(z, zr, np.nan_to_num(r), comps, p_auto, p_vol, p_tail, layout, n_sim, tied_share)

@@ -10,23 +10,27 @@ by a linear model of what the service does, with coefficients measured there
 requests):
 
 - every engine pass (series of one length and options are analysed together; large groups are cut
-  into blocks, see ``pipeline.blocks``): a fixed cost and a cost per lag;
+  into blocks, see ``pipeline.blocks``): a fixed cost and a cost per lag; small blocks run together in
+  chunks (``pipeline.chunks``), whose partial autocorrelations are one recursion per number of lags;
 - every series: a fixed cost, a cost per point (reading, checks, the engine, the answer) and per
   squared lag (partial autocorrelations), more for the full report than for the brief one;
-- the seasonal decomposition (STL) of series with a period: per distinct length and period its
-  loess tables (which grow with the square of the trend window, about 1.9 x the period), and per
-  series its application. It is counted as if every such series were decomposed: the engine
-  decomposes only those with a seasonal lag outside the band, which is not known before the
-  analysis, and a request that states a period usually has one;
+- the seasonal decomposition (STL) of series with a period: per period its loess tables (which grow
+  with the square of the trend window, about 1.9 x the period; shared by every length longer than
+  the window, one per length otherwise), per chunk and period a joint decomposition, per block its
+  own steps, and per series its application. It is counted as if every such series were decomposed:
+  the engine decomposes only those with a seasonal lag outside the band, which is not known before
+  the analysis, and a request that states a period usually has one;
+- the mechanism checks (ADF regressions with and without a trend, KPSS, the trend slope): per
+  complete series, by its length and the ADF's regressors. Counted for every series, as if each had
+  the strong lag-one autocorrelation that calls for them;
 - Monte Carlo p-values: replicates x (points + lags) per distinct length and options;
 - Box-Cox lambda estimation: per series that asks for it, counted before the series are prepared.
 
-The routes that follow a diagnosis are estimated before any work too (:func:`check_model_check`,
-:func:`check_driver_check`, :func:`check_stability`): a model fit by its units of ``engine.arima.cost`` (about 12
-microseconds a unit for small models, at most the whole work budget's 18 s; the suggested order's search at its
-whole work budget), the
-prewhitening and cross-correlation of each driver (per driver and per paired value), and every window of a
-stability request as a series of the engine, plus the change reading per window.
+The routes that follow a diagnosis (model check, driver check, stability) are estimated before any work
+too: a model fit by its units of the fit's cost (about 12 microseconds a unit for small models, at most the
+whole work budget's 18 s; the suggested order's search at its whole work budget), the prewhitening and
+cross-correlation of each driver (per driver and per paired value), and every window of a stability request as
+a series of the engine, plus the change reading per window.
 
 Not counted: the unit-root check of the full report (for series whose autocorrelations decay
 slowly, on at most 10,000 points each), whose cost depends on the data. The estimate is a model,
@@ -55,11 +59,11 @@ from dataclasses import dataclass, field
 from flask import current_app, g
 
 from lagsight import follow_up, options
-from lagsight.engine import stl
+from lagsight.engine import mechanism, stationarity, stl, whiteness
+from lagsight.engine import trend as trend_mod
 from lagsight.engine.arima import cost as fit_cost
-from lagsight.engine.whiteness import simulated_length, table_cost
 from lagsight.inputs.stability import window_starts
-from lagsight.pipeline import BLOCK_POINTS, Plan, blocks
+from lagsight.pipeline import BLOCK_POINTS, Plan, blocks, chunks
 from lagsight.problems import FieldError, Problem, counted
 from lagsight.web import metrics
 from lagsight.web.observability import request_id, route_label
@@ -69,19 +73,24 @@ log = logging.getLogger("lagsight")
 #: Cost units (about a millisecond of one core of the benchmark machine) per item, measured by
 #: benchmarks/cost_model.py on the 2-core benchmark machine (December 2026).
 PASS = 0.9  # an engine pass
-PASS_LAG = 0.015  # an engine pass, per lag
+PASS_LAG = 0.013  # the partial autocorrelations' recursion, per lag, once per chunk and number of lags
+PASS_LAG_BLOCK = 0.002  # an engine pass, per lag (the rest of a block's own pass)
 SERIES = 0.02  # a series
 POINT = 0.0006  # a point: reading, checks, engine and brief answer
 SERIES_LAG2 = 2e-6  # a series, per squared lag (partial autocorrelations)
 FULL_SERIES = 0.15  # the full report over the brief one, per series
 FULL_POINT = 0.0003  # the full report over the brief one, per point
-STL_TABLES = 1.2  # the loess tables of one distinct length and period: fixed
+STL_TABLES = 1.2  # the loess tables of one period (and of each length its trend window covers): fixed
 STL_TABLES_W2 = 4.5e-5  # ... per squared trend window
-STL_CALL = 0.6  # decomposing the series of one engine pass: fixed
+STL_CALL = 0.6  # decomposing the series of one chunk with one period: fixed
 STL_CALL_W2 = 2.2e-6  # ... per squared trend window
+STL_GROUP = 0.5  # ... per block in it (its own cycle-subseries, averages and transforms)
 STL_SERIES_W2 = 1.3e-6  # decomposing one series: its ends, per squared trend window
-STL_POINT = 2e-4  # ... per point
-STL_POINT_W = 6.5e-7  # ... per point and trend window
+STL_POINT = 3e-4  # ... per point (the middle fits of long windows by FFT: stl.FFT_MIN_WIDTH)
+STL_POINT_W = 6.5e-7  # ... per point and trend window, for windows whose middle fits are direct sums
+MECH_SERIES = 0.03  # the mechanism checks of one series (ADF with and without trend, KPSS, trend slope)
+MECH_POINT = 4e-4  # ... per point
+MECH_POINT_K2 = 9.2e-7  # ... per point (at most stationarity.ADF_MAX_POINTS) and squared ADF regressors
 MC_VALUE = 8.5e-5  # a simulated value (replicates x points)
 MC_LAG = 1.2e-4  # a replicate, per lag
 NULL_VALUE = 3.5e-4  # a value simulated for the verdict's null table (4,000 x 400 values measured at about 0.56 s)
@@ -102,6 +111,7 @@ _ADVICE = {
     "seasonal decompositions": "send fewer distinct series lengths with a period (for example trim the series to "
                                "a few common lengths), split the batch, or use a shorter period",
     "engine passes": "send fewer distinct series lengths and options, or split the batch",
+    "mechanism checks": "split the batch, or send shorter series",
     "series and points": "split the batch, or ask for detail \"brief\"",
     "lags": "ask for a lower max_lag",
     "Monte Carlo p-values": "use fewer replicates, fewer distinct series lengths, or asymptotic p-values",
@@ -139,38 +149,62 @@ def box_cox_estimates(estimate: Estimate, count: int, points: int) -> Estimate:
 def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
     """Add the work of analysing ``prepared`` ((series, plan) pairs) and answering with ``detail``."""
     full = detail == "full"
+    tables: set = set()
     decomposed: set[tuple[int, int]] = set()
     verdict_nulls: set = set()
-    for plan, members in blocks(prepared):
-        rows, lags, n = len(members), plan.spec.max_lag, max(plan.n, plan.length)
-        estimate.add("engine passes", PASS)
-        estimate.add("lags", PASS_LAG * lags + SERIES_LAG2 * lags * lags * rows)
-        estimate.add("series and points", rows * (SERIES + POINT * n + (FULL_SERIES + FULL_POINT * n if full else 0)))
-        if _decomposes(plan):
-            w2 = stl.windows(plan.spec.period)[0] ** 2
-            if (plan.n, plan.spec.period) not in decomposed:  # tables are kept per length and window
-                decomposed.add((plan.n, plan.spec.period))
-                estimate.add("seasonal decompositions", STL_TABLES + STL_TABLES_W2 * w2)
-            trend = stl.windows(plan.spec.period)[0]
-            estimate.add("seasonal decompositions", STL_CALL + STL_CALL_W2 * w2 + rows * (
-                STL_SERIES_W2 * w2 + (STL_POINT + STL_POINT_W * trend) * plan.n))
-        if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
-            estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
-        layout = plan.spec.layout  # keyed by the horizon too: each horizon has its own table
-        key = (simulated_length(plan.n, lags), layout)
-        if key not in verdict_nulls:  # the verdict's null table, built once per process and kept
-            verdict_nulls.add(key)
-            values = table_cost(plan.n, layout)
-            # The first table a request needs is warm-up work (at most whiteness.MAX_SIMULATED values, under a
-            # second); every further one that is not built yet counts.
-            if values and len(verdict_nulls) > 1:
-                estimate.add("verdict null tables", NULL_VALUE * values)
+    for chunk in chunks(blocks(prepared)):
+        # One recursion for the partial autocorrelations of every block with the same lags, and one joint
+        # decomposition per period (engine/family.py).
+        for lags in {plan.spec.max_lag for plan, _ in chunk}:
+            estimate.add("lags", PASS_LAG * lags)
+        for period in {plan.spec.period for plan, _ in chunk if _decomposes(plan)}:
+            estimate.add("seasonal decompositions", STL_CALL + STL_CALL_W2 * stl.windows(period)[0] ** 2)
+        for plan, members in chunk:
+            _block_work(estimate, plan, len(members), full, tables, decomposed, verdict_nulls)
     if decomposed:
         periods = sorted({p for _, p in decomposed})
         shown = ", ".join(f"{p:,}" for p in periods[:3]) + (" ..." if len(periods) > 3 else "")
         estimate.notes["seasonal decompositions"] = (counted(len(decomposed), "distinct pair", "distinct pairs")
                                                      + f" of series length and period to decompose (period {shown})")
     return estimate
+
+
+def _block_work(estimate: Estimate, plan: Plan, rows: int, full: bool, tables: set, decomposed: set,
+                verdict_nulls: set) -> None:
+    """Add one block's work (its series within a chunk; see engine_work)."""
+    lags, n = plan.spec.max_lag, max(plan.n, plan.length)
+    estimate.add("engine passes", PASS)
+    estimate.add("lags", PASS_LAG_BLOCK * lags + SERIES_LAG2 * lags * lags * rows)
+    estimate.add("series and points", rows * (SERIES + POINT * n + (FULL_SERIES + FULL_POINT * n if full else 0)))
+    if _decomposes(plan):
+        trend = stl.windows(plan.spec.period)[0]
+        w2 = trend ** 2
+        decomposed.add((plan.n, plan.spec.period))
+        # A loess table is kept per window, shared by every length the window is shorter than (engine/stl.py).
+        key = plan.spec.period if trend < plan.n else (plan.n, plan.spec.period)
+        if key not in tables:
+            tables.add(key)
+            estimate.add("seasonal decompositions", STL_TABLES + STL_TABLES_W2 * w2)
+        fft = trend >= stl.FFT_MIN_WIDTH and (plan.n - trend) * trend >= stl.FFT_MIN_WORK
+        per_point = STL_POINT if fft else STL_POINT + STL_POINT_W * trend
+        estimate.add("seasonal decompositions", STL_GROUP + rows * (STL_SERIES_W2 * w2 + per_point * plan.n))
+    if not plan.pairwise and plan.n >= mechanism.MIN_N:
+        # Counted as if every series needed them: the engine runs them for series with a strong lag-one
+        # autocorrelation, which is not known before the analysis.
+        adf_n = min(plan.n, stationarity.ADF_MAX_POINTS)
+        k = trend_mod.adf_trend_lags(adf_n) + 3
+        estimate.add("mechanism checks", rows * (MECH_SERIES + MECH_POINT * plan.n + MECH_POINT_K2 * adf_n * k * k))
+    if plan.spec.replicates:  # a Monte Carlo plan is one block: its null is simulated once
+        estimate.add("Monte Carlo p-values", plan.spec.replicates * (MC_VALUE * plan.n + MC_LAG * lags))
+    layout = plan.spec.layout  # keyed by the horizon too: each horizon has its own draws
+    values = whiteness.table_cost(plan.n, layout)  # the verdict's null table, built once per process and kept
+    key = whiteness.draw_key(plan.n, layout)
+    if values and key not in verdict_nulls:  # tables of one key share their draws (whiteness.prepare_tables)
+        verdict_nulls.add(key)
+        # The first draws a request needs are warm-up work (at most whiteness.MAX_SIMULATED values, under a
+        # second); every further set of draws for tables not built yet counts.
+        if len(verdict_nulls) > 1:
+            estimate.add("verdict null tables", NULL_VALUE * values)
 
 
 def _decomposes(plan: Plan) -> bool:

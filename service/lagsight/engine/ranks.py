@@ -1,10 +1,11 @@
-"""Ranks within each row of a block, with missing entries and ties: what the verdict's rank components read."""
+"""Average ranks within each row, ties sharing their mean rank and missing entries ranked last (the rank
+autocorrelations of the verdict's evidence, :mod:`.whiteness`)."""
 from __future__ import annotations
 
 import numpy as np
 
 
-def masked_ranks(x: np.ndarray, mask: np.ndarray | None, largest_tie: list | None = None) -> np.ndarray:
+def tied_ranks(x: np.ndarray, mask: np.ndarray | None, largest_tie: list | None = None) -> np.ndarray:
     """Average ranks within each row (1..n_observed), missing entries ranked last; ties share their mean rank.
 
     ``largest_tie``, when given, receives per row the size of the largest group of equal observed values.
