@@ -128,8 +128,8 @@ class Decision:
             confidence = "none"
         else:
             confidence = "weak" if self.n < options.SMALL_SAMPLE_N or self.p_value < 4 * self.alpha else "moderate"
-        return {"white_noise": self.white_noise, "summary": summary(self), "p_value": self.p_value,
-                "threshold": self.threshold, "confidence": confidence, "structure": list(self.structure),
+        return {"white_noise": self.white_noise, "summary": summary(self), "structure": list(self.structure),
+                "confidence": confidence, "p_value": self.p_value, "threshold": self.threshold,
                 "evidence": self.evidence,
                 "volatility": {"p_value": self.volatility_p, "threshold": self.volatility_threshold,
                                "clustering": "volatility_clustering" in self.structure},

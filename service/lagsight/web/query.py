@@ -21,7 +21,7 @@ CSV_PARAMS = ("column", "time_column", "header", "delimiter", "decimal")
 ANALYSIS_PARAMS = {
     "period": "integer", "max_lag": "integer", "confidence": "number", "model_df": "integer", "name": "string",
     "missing": "string", "band": "string", "tests": "list", "p_values": "string", "replicates": "integer",
-    "seed": "integer",
+    "seed": "integer", "detail": "string", "digits": "integer", "charts": "boolean",
 }
 TRANSFORM_PARAMS = {"log": "boolean", "box_cox": "number_or_string", "difference": "integer",
                     "seasonal_difference": "integer", "detrend": "string"}
