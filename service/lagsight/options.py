@@ -130,10 +130,10 @@ DETAIL_LEVELS = ("full", "brief")
 DEFAULT_DETAIL = "full"
 #: Significant digits of the numbers written (option ``digits``; null writes every float at full precision, the
 #: 17 digits that read back as the same double). The default keeps a relative rounding error of at most
-#: 5e-11 (half a unit in the 10th digit), inside every tolerance the service's reference checks use against
-#: statsmodels, scipy and NIST values (the tightest relative one is 1e-10 on a number of size one; see
-#: tests/test_answer_shape.py), and writes about half the characters of full precision.
-DEFAULT_DIGITS = 10
+#: 5e-13 (half a unit in the 13th digit), inside every tolerance at which the service's tests check answers
+#: against references (the tightest relative one is 1e-12, the pairwise band against z / sqrt(n_k) in
+#: tests/test_missing.py), and writes about a fifth fewer characters than full precision.
+DEFAULT_DIGITS = 13
 MIN_DIGITS, MAX_DIGITS = 1, 17
 #: Chart data (option ``charts``): off by default. The report's own blocks (acf, pacf, periodogram) hold the
 #: correlogram and periodogram numbers; ``charts: true`` adds the chart-ready tables (the time plot included).
