@@ -68,11 +68,10 @@ def _list(a: np.ndarray, digits: int | None = None) -> list:
 class _Correlograms:
     """One correlogram (ACF or PACF) of every row of a group, as lists."""
 
-    def __init__(self, lags: list[int], values: np.ndarray, band: Band, digits: int | None = None):
+    def __init__(self, lags: list[int], values: np.ndarray, band: Band, shown: list | None = None):
         self._classify(lags, values, band)
-        if digits is not None:  # classified on the numbers as computed, written rounded
-            self.values, self.lower, self.upper = (_rows(a, digits) for a in (values, band.lower, band.upper))
-            self.centre, self.se = _rows(band.centre, digits), _rows(band.se, digits)
+        if shown is not None:  # classified on the numbers as computed, written rounded (values, lower, upper,
+            self.values, self.lower, self.upper, self.centre, self.se = (_rows(a) for a in shown)  # centre, se)
 
     def _classify(self, lags: list[int], values: np.ndarray, band: Band) -> None:
         self.lags = lags
@@ -116,21 +115,31 @@ class _Correlograms:
         }
 
 
-def test_rows(analysis: GroupAnalysis, digits: int | None = None) -> list[list[dict]]:
-    """The test entries of every row: a list of test dicts per row (reject read off the unrounded p-value)."""
+def _band_arrays(band: Band) -> list:
+    return [band.lower, band.upper, band.centre, band.se]
+
+
+def _test_arrays(t) -> list:
+    """A test's arrays in the order test_rows reads them: statistic, p_value, mc_se, then its per-row extras."""
+    return [t.statistic, t.p_value, t.mc_se, *(v for v in t.extras.values() if isinstance(v, np.ndarray))]
+
+
+def test_rows(analysis: GroupAnalysis, digits: int | None = None, shown: list | None = None) -> list[list[dict]]:
+    """The test entries of every row: a list of test dicts per row (reject read off the unrounded p-value).
+
+    ``shown`` holds each test's arrays (:func:`_test_arrays`) as written, rounded already; without it they
+    are rounded here to ``digits``."""
     alpha = 1.0 - analysis.confidence
     m = analysis.acf.shape[0]
     out: list[list[dict]] = [[] for _ in range(m)]
-    for t in analysis.tests:
-        stats, exact = _rows(t.statistic, digits), _rows(t.p_value)
-        pvals = exact if digits is None else _rows(t.p_value, digits)
-        ses = _rows(t.mc_se, digits) if t.mc_se is not None else None
-        per_row, constant = {}, {}
-        for k, v in t.extras.items():
-            if isinstance(v, np.ndarray):
-                per_row[k] = _list(v, digits)
-            else:
-                constant[k] = rounding.value(v, digits)
+    if shown is None:
+        shown = [rounding.arrays(_test_arrays(t), digits) for t in analysis.tests]
+    for t, own in zip(analysis.tests, shown):
+        arrays = {k: v for k, v in t.extras.items() if isinstance(v, np.ndarray)}
+        stats, exact, pvals = _rows(own[0]), _rows(t.p_value), _rows(own[1])
+        ses = _rows(own[2]) if t.mc_se is not None else None
+        per_row = {k: _list(v) for k, v in zip(arrays, own[3:])}
+        constant = {k: rounding.value(v, digits) for k, v in t.extras.items() if k not in arrays}
         for j, lag in enumerate(t.lags):
             df = t.df[j]
             no_df = t.name in ("ljung_box", "box_pierce") and df is None
@@ -230,16 +239,27 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis, digits:
     """
     spec = analysis.spec
     lags = list(range(1, spec.max_lag + 1))
-    acf = _Correlograms(lags, analysis.acf, analysis.acf_band, digits)
-    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band, digits)
-    tests = test_rows(analysis, digits)
+    crit = analysis.ks_critical
+    band_lower = None if crit is None else analysis.expected_cumulative - crit
+    band_upper = None if crit is None else analysis.expected_cumulative + crit
+    # Every array written, rounded in one call (a NumPy call costs about the same whatever its size).
+    parts = [[analysis.acf, *_band_arrays(analysis.acf_band)], [analysis.pacf, *_band_arrays(analysis.pacf_band)],
+             [analysis.frequencies, analysis.power, analysis.cumulative, band_lower, band_upper],
+             *(_test_arrays(t) for t in analysis.tests)]
+    flat = rounding.arrays([a for part in parts for a in part], digits)
+    shown, at = [], 0
+    for part in parts:
+        shown.append(flat[at:at + len(part)])
+        at += len(part)
+    acf = _Correlograms(lags, analysis.acf, analysis.acf_band, shown[0] if digits is not None else None)
+    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band, shown[1] if digits is not None else None)
+    tests = test_rows(analysis, digits, shown[3:])
     per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
     constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None
-    frequencies = _list(analysis.frequencies, digits)
-    power, cumulative = _rows(analysis.power, digits), _rows(analysis.cumulative, digits)
-    crit = analysis.ks_critical
-    lower = None if crit is None else _list(analysis.expected_cumulative - crit, digits)
-    upper = None if crit is None else _list(analysis.expected_cumulative + crit, digits)
+    frequencies = _list(shown[2][0])
+    power, cumulative = _rows(shown[2][1]), _rows(shown[2][2])
+    lower = None if crit is None else _list(shown[2][3])
+    upper = None if crit is None else _list(shown[2][4])
     seasonal_lags = spec.seasonal_lags
     seasonal_flags = chart_seasonal_flags(spec.max_lag, spec.period)
     band_z, band_per_lag = rounding.value(analysis.acf_band.z, digits), rounding.value(per_lag, digits)

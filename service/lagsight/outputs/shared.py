@@ -28,7 +28,7 @@ PATHS = (
     ("periodogram", "frequencies"), ("periodogram", "lower"), ("periodogram", "upper"), ("periodogram", "binned"),
 )
 #: Keys of each test entry moved up when equal at the same position in every result.
-TEST_KEYS = ("meaning", "method")
+TEST_KEYS = ("meaning", "method")  # (read by _hoist_tests in this order)
 
 
 def _equal_at(reports: list[dict], path: tuple[str, ...]):
@@ -75,22 +75,16 @@ def hoist(results: list[dict | None]) -> dict:
 
 
 def _hoist_tests(reports: list[dict]) -> list[dict] | None:
-    first = reports[0]["tests"]
-    keys = [(t["name"], t["lag"]) + tuple(t.get(k) for k in TEST_KEYS) for t in first]
-    for r in reports[1:]:
-        tests = r["tests"]
-        if len(tests) != len(keys):
-            return None
-        for t, key in zip(tests, keys):
-            if (t["name"], t["lag"]) + tuple(t.get(k) for k in TEST_KEYS) != key:
-                return None
-    if not keys:
+    first = [(t["name"], t["lag"], t["meaning"], t["method"]) for t in reports[0]["tests"]]
+    if not first:
         return None
+    for r in reports[1:]:
+        if [(t["name"], t["lag"], t["meaning"], t["method"]) for t in r["tests"]] != first:
+            return None
     for r in reports:
         for t in r["tests"]:
-            for k in TEST_KEYS:
-                del t[k]
-    return [{k: t for k, t in zip(TEST_KEYS, key[2:])} for key in keys]
+            del t["meaning"], t["method"]
+    return [{"meaning": meaning, "method": method} for _, _, meaning, method in first]
 
 
 def _common_cautions(reports: list[dict]) -> list[str]:
