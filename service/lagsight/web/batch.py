@@ -23,13 +23,12 @@ from lagsight.handling import (  # noqa: F401  (ITEM_LOAD and prepare_items are 
 )
 from lagsight.inputs.series import PreparedSeries
 from lagsight.outputs.encode import dumps
-from lagsight.outputs.shared import hoist
+from lagsight.outputs.shared import strip, template
 from lagsight.pipeline import Plan, gc_paused, run_blocks
 from lagsight.problems import FieldError, Problem
 from lagsight.web import budget, metrics
 from lagsight.web.observability import request_id, route_label
 from lagsight.web.payload import read_body, read_json_object
-from lagsight.web.responses import json_response
 
 bp = Blueprint("batch", __name__)
 log = logging.getLogger("lagsight")
@@ -95,24 +94,46 @@ def _answer(media: str) -> Response:
     if media == NDJSON:
         return Response(stream_with_context(_stream(errors, prepared, where, summary, (detail, digits, charts),
                                                     notes)), mimetype=NDJSON)
-    results: list = [None] * (len(where) + len(errors))
+    # Each result is encoded as soon as its block is done and only its bytes are kept: the answer never
+    # exists as Python objects all at once (a full report is several times its JSON size in memory).
+    parts: list = [None] * (len(where) + len(errors))
     for i, result in errors:
-        results[i] = result
+        parts[i] = dumps(result)
+    shared = None  # with detail "full", the shared block: the first analysed result's values (outputs/shared.py)
     late: list[Problem] = []
     for block in _blocks_in_time(prepared, (detail, digits, charts), late):
         for j, report in block:
             i, item_id = where[j]
-            results[i] = {"id": item_id, **report}
-            summary.add(results[i], i, 1.0 - prepared[j][1].spec.confidence)
+            result = {"id": item_id, **report}
+            summary.add(result, i, 1.0 - prepared[j][1].spec.confidence)
+            if detail != "brief":
+                if shared is None:
+                    shared = template(result)
+                strip(result, shared)
+            parts[i] = dumps(result)
+        del block
     if late:
         raise late[0]
     for _, result in errors:
         summary.add(result)
     if detail == "brief":
-        answer = {"detail": detail, "results": results, "summary": summary.across(), **notes}
-    else:  # the values every series shares, said once (outputs/shared.py)
-        answer = {"shared": hoist(results), "results": results, "summary": summary.across()}
-    return json_response(answer)  # the results are freed on return, the collector still paused
+        head = b'{"detail":"brief","results":['
+        tail = b'],"summary":' + dumps(summary.across()) + b"," + dumps(notes)[1:-1] + b"}"
+    else:
+        head = b'{"shared":' + dumps(shared or {}) + b',"results":['
+        tail = b'],"summary":' + dumps(summary.across()) + b"}"
+    # The body is sent piece by piece from the encoded results (no joined copy of the whole answer).
+    length = len(head) + sum(map(len, parts)) + max(len(parts) - 1, 0) + len(tail)
+    return Response(_pieces(head, parts, tail), mimetype=JSON, headers={"Content-Length": str(length)})
+
+
+def _pieces(head: bytes, parts: list[bytes], tail: bytes):
+    """The answer's bytes: head, the results separated by commas (each freed once sent), tail."""
+    yield head
+    for k in range(len(parts)):
+        piece, parts[k] = parts[k], None
+        yield piece if k == 0 else b"," + piece
+    yield tail
 
 
 def _box_cox_requests(raw: list, shared: dict) -> tuple[int, int]:

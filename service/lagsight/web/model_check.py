@@ -123,6 +123,7 @@ def model_check():
         fitted, found = _fit_explicit(y, order), None
     resid = _residual_series(series, fitted, cfg)
     after_plan = _residual_plan(resid, data, fitted.order.arma_terms, cfg)
-    before, after = run([(series, before_plan), (resid, after_plan)], observe=metrics.record_analysed)
+    before, after = run([(series, before_plan), (resid, after_plan)], observe=metrics.record_analysed,
+                        charts=True)  # the residuals' report keeps its chart data (the time plot of the fit)
     return json_response(outputs.answer(series.name, fitted, found, after, before, options.MODEL_SEARCH_FITS,
                                         options.MODEL_WORK_BUDGET))
