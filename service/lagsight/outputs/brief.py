@@ -2,7 +2,7 @@
 
 A portal scanning thousands of series needs, per series, the verdict and the numbers behind
 it, not the correlogram lists, bands, periodogram, chart data, sentences and advice of the full
-report (about 27 KB of JSON each). A brief result holds:
+report (about 7 KB of JSON each in a batch). A brief result holds:
 
 - ``name``, ``n``, ``n_missing``, ``max_lag``, ``period``: as in the full report;
 - ``verdict``: the full report's verdict object, the same in every field (the decision rule of
