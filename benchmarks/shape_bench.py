@@ -13,6 +13,9 @@ that code's ``service/``; the base is ``git archive``'d into a temporary directo
 - ``in_process``: a batch of ``--series`` x 120 points at max_lag 24 and period 12: the engine alone
   (its blocks, as the service cuts them) against the full answer (plan, engine, report, reading and the
   JSON bytes of the batch answer); their ratio is taken within each child, side by side;
+- ``http``: a full-detail batch of ``--series`` x 120 points over HTTP (gunicorn, 2 workers) against the
+  same-estimator statsmodels loop on the same series, and single 120-point requests against the no-op route
+  (requests per second and p99, as measurement 3 of ``benchmarks.run``, 5 s each);
 - ``memory``: the peak resident set (VmHWM) of a one-worker gunicorn server with the service's settings
   while it answers a full-detail batch of ``--memory-series`` x 250 points posted over 127.0.0.1, and the
   worker's resident set before the request (a fresh server each time).
@@ -113,7 +116,38 @@ def case_memory(series: int) -> dict:
             "request_mib": len(body) / 2**20}
 
 
-CASES = {"bytes": case_bytes, "in_process": case_in_process, "memory": case_memory}
+def case_http(series: int) -> dict:
+    """A full-detail batch of ``series`` x 120 points (max_lag 24, period 12) over HTTP (gunicorn, the service's
+    settings, 2 workers; the client encodes, posts, reads and decodes) against the same-estimator statsmodels
+    loop on the same series in this process, one after the other; then single 120-point requests against the
+    no-op route of the same server (benchmarks.http_bench measurement 3, 5 s each)."""
+    import time
+
+    import orjson
+    from threadpoolctl import threadpool_limits
+
+    from benchmarks import engine_bench, http_bench, load, workloads
+    from benchmarks.server import Server
+
+    x = workloads.batch(series, 120)
+    body = orjson.dumps({"series": [{"id": i, "values": row} for i, row in enumerate(x.tolist())], "max_lag": 24,
+                         "period": 12})
+    with Server(workers=2) as server:
+        http_bench.post(server, "/v1/diagnostics/batch", orjson.dumps({"series": [{"id": 1, "values": x[0].tolist()}]}))
+        t0 = time.perf_counter()
+        orjson.loads(http_bench.post(server, "/v1/diagnostics/batch", body))
+        http = time.perf_counter() - t0
+        with threadpool_limits(1):
+            t0 = time.perf_counter()
+            engine_bench.statsmodels_loop(x, 24, [10, 24])
+            loop = time.perf_counter() - t0
+        single = http_bench.measure_single_throughput(server, 120, 5, 1, 16, load.available_tool("wrk"))["median"]
+    return {"http_s": http, "loop_s": loop, "loop_over_http": loop / http,
+            "rps_share": single["diagnosis"]["rps"] / single["noop"]["rps"],
+            "p99_ratio": single["diagnosis"]["p99"] / single["noop"]["p99"]}
+
+
+CASES = {"bytes": case_bytes, "in_process": case_in_process, "memory": case_memory, "http": case_http}
 
 
 def base_tree(commit: str, into: Path) -> Path:
@@ -159,7 +193,7 @@ def section(results: dict) -> str:
     peak_ratio = _median(p["base"], "peak_mib") / _median(p["now"], "peak_mib")
     lines = [
         START,
-        "## Answer shape, full answer in process and worker memory (against the base commit)",
+        "## Batches at scale: answer shape, full answer, memory and single requests (against the base commit)",
         "",
         f"`python -m benchmarks.shape_bench` against {results['base'][:12]} (the code before this work), each case "
         f"in a fresh process, both codes side by side in each of {results['rounds']} rounds; medians.",
@@ -176,6 +210,19 @@ def section(results: dict) -> str:
         f"| worker peak memory, full batch of {s['memory']:,} x 250 (gunicorn worker VmHWM) | >= 3x lower | "
         f"{_median(p['base'], 'peak_mib'):,.0f} MiB | {_median(p['now'], 'peak_mib'):,.0f} MiB | "
         f"{peak_ratio:.1f}x lower: {'met' if peak_ratio >= 3 else '**not met**'} |",
+    ]
+    if "http" in c:
+        h = c["http"]
+        loop, rps, p99 = (_median(h["now"], k) for k in ("loop_over_http", "rps_share", "p99_ratio"))
+        lines += [
+            f"| full batch over HTTP ({s['http']:,} x 120), speed vs the same-estimator statsmodels loop | >= 10x | "
+            f"{_median(h['base'], 'loop_over_http'):.1f}x | {loop:.1f}x | {'met' if loop >= 10 else '**not met**'} |",
+            f"| single 120-point requests: requests/s vs the no-op | >= 40% | {_median(h['base'], 'rps_share'):.0%} | "
+            f"{rps:.0%} | {'met' if rps >= 0.4 else '**not met**'} |",
+            f"| single requests: p99 vs the no-op's | <= 3x | {_median(h['base'], 'p99_ratio'):.1f}x | {p99:.1f}x | "
+            f"{'met' if p99 <= 3 else '**not met**'} |",
+        ]
+    lines += [
         "",
         f"In process: engine {_median(m['base'], 'engine_s'):.2f} s / {_median(m['now'], 'engine_s'):.2f} s (base / "
         f"now), full answer {_median(m['base'], 'full_s'):.2f} s / {_median(m['now'], 'full_s'):.2f} s, answer "
@@ -209,13 +256,20 @@ def main(argv=None) -> dict:
     parser.add_argument("--rounds", type=int, default=3)
     parser.add_argument("--quick", action="store_true", help="tiny sizes, one round")
     parser.add_argument("--no-write", action="store_true")
+    parser.add_argument("--only", nargs="+", choices=tuple(CASES), default=None,
+                        help="run only these cases (the section is printed, not written)")
     parser.add_argument("--out", type=Path, default=ROOT / "BENCHMARKS.md")
     ns = parser.parse_args(argv)
     base = ns.base or subprocess.run(["git", "merge-base", "HEAD", "main"], cwd=ROOT, check=True,
                                      capture_output=True, text=True).stdout.strip()
     sizes = ({"bytes": 20, "in_process": 100, "memory": 200} if ns.quick else
-             {"bytes": ns.size_series, "in_process": ns.series, "memory": ns.memory_series})
+             {"bytes": ns.size_series, "in_process": ns.series, "memory": ns.memory_series, "http": ns.series})
+    if ns.only:
+        sizes = {k: v for k, v in sizes.items() if k in ns.only}
     results = measure(base, sizes, 1 if ns.quick else ns.rounds)
+    if ns.only:
+        print(json.dumps(results, indent=1, default=float))
+        return results
     text = section(results)
     print(text)
     if not ns.no_write:
