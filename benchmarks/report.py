@@ -4,11 +4,15 @@ from __future__ import annotations
 import datetime as dt
 import statistics
 
+from . import shape_bench
+
 NOTES_START = "<!-- notes: hand-written, kept when the report is regenerated -->"
 NOTES_END = "<!-- /notes -->"
 #: The section that `python -m benchmarks.dask_bench` writes; kept as it is when the rest is regenerated.
 DASK_START = "<!-- dask-bench: written by python -m benchmarks.dask_bench, kept by make bench -->"
 DASK_END = "<!-- /dask-bench -->"
+#: The section that `python -m benchmarks.shape_bench` writes is kept the same way (its markers are its own).
+SHAPE_START, SHAPE_END = shape_bench.START, shape_bench.END
 
 
 def _ms(seconds: float | None) -> str:
@@ -30,6 +34,12 @@ def _notes(previous: str) -> str:
 def kept_dask_section(previous: str) -> list[str]:
     if DASK_START in previous and DASK_END in previous:
         return [previous[previous.index(DASK_START): previous.index(DASK_END) + len(DASK_END)], ""]
+    return []
+
+
+def kept_shape_section(previous: str) -> list[str]:
+    if SHAPE_START in previous and SHAPE_END in previous:
+        return [previous[previous.index(SHAPE_START): previous.index(SHAPE_END) + len(SHAPE_END)], ""]
     return []
 
 
@@ -361,6 +371,7 @@ def render(r: dict, previous: str = "") -> str:
     if r.get("daily"):
         out += daily_section(r["daily"])
     out += kept_dask_section(previous)
+    out += kept_shape_section(previous)
     out += [
         "## Analysis",
         "",

@@ -171,7 +171,7 @@ def test_crash_answers_in_problem_shape_without_trace(app, monkeypatch, caplog):
     def boom(*a, **k):
         raise RuntimeError("secret internal detail")
 
-    monkeypatch.setattr(view, "run", boom)
+    monkeypatch.setattr(view, "single_answer", boom)
     r = app.test_client().post(URL, json={"values": [1, 2, 3, 5]})
     body = _problem(r, 500)
     assert "secret" not in r.get_data(as_text=True) and "Traceback" not in r.get_data(as_text=True)

@@ -6,6 +6,7 @@ import orjson
 import pytest
 
 from lagsight import create_app, pipeline
+from lagsight.outputs.shared import merged
 
 from .load_tools import assert_direct_load_agrees
 from .spec_tools import assert_valid
@@ -62,8 +63,14 @@ def _single_body(item: dict, shared: dict) -> dict:
     return body
 
 
-def _report_bytes(result: dict) -> bytes:
-    return orjson.dumps({k: v for k, v in result.items() if k not in ("id", "kind", "index")})
+def _report(result: dict) -> dict:
+    return {k: v for k, v in result.items() if k not in ("id", "kind", "index")}
+
+
+def _whole(body: dict) -> list[dict]:
+    """The results of a batch answer with its shared block put back (each series' whole report)."""
+    shared = body.get("shared", {})
+    return [r if "error" in r else merged(r, shared) for r in body["results"]]
 
 
 @pytest.fixture
@@ -74,7 +81,7 @@ def small_blocks(monkeypatch):
 
 @pytest.mark.parametrize("shared", [{}, {"max_lag": 24, "confidence": 0.99, "model_df": 1, "period": 6}])
 @pytest.mark.parametrize("blocks", ["default", "small"])
-def test_batch_reports_are_byte_identical_to_single_reports(client, request, shared, blocks):
+def test_batch_reports_with_shared_put_back_equal_single_reports(client, request, shared, blocks):
     if blocks == "small":
         request.getfixturevalue("small_blocks")
     series = _mixed_series()
@@ -85,21 +92,21 @@ def test_batch_reports_are_byte_identical_to_single_reports(client, request, sha
     body = r.get_json()
     assert_valid(body, "BatchResponse")
     assert [res["id"] for res in body["results"]] == [s["id"] for s in series]
-    for item, result in zip(series, body["results"]):
+    for item, result in zip(series, _whole(body)):
         assert "error" not in result, result
         single = client.post(SINGLE, json=_single_body(item, shared))
         assert single.status_code == 200, single.get_json()
-        assert _report_bytes(result) == single.data, item["id"]
+        assert _report(result) == single.get_json(), item["id"]
 
 
 def test_results_do_not_depend_on_the_rest_of_the_batch(client):
     series = _mixed_series()
-    whole = client.post(URL, json={"series": series}).get_json()["results"]
+    whole = _whole(client.post(URL, json={"series": series}).get_json())
     reordered = series[::-1]
-    again = client.post(URL, json={"series": reordered}).get_json()["results"][::-1]
-    alone = [client.post(URL, json={"series": [s]}).get_json()["results"][0] for s in series[:5]]
-    assert [_report_bytes(r) for r in whole] == [_report_bytes(r) for r in again]
-    assert [_report_bytes(r) for r in whole[:5]] == [_report_bytes(r) for r in alone]
+    again = _whole(client.post(URL, json={"series": reordered}).get_json())[::-1]
+    alone = [_whole(client.post(URL, json={"series": [s]}).get_json())[0] for s in series[:5]]
+    assert [_report(r) for r in whole] == [_report(r) for r in again]
+    assert [_report(r) for r in whole[:5]] == [_report(r) for r in alone]
 
 
 GOOD = [
@@ -134,13 +141,13 @@ BAD_ITEMS = [
 
 @pytest.mark.parametrize("bad,pointer,phrase", BAD_ITEMS)
 def test_one_bad_series_leaves_the_others_intact(client, bad, pointer, phrase):
-    reference = client.post(URL, json={"series": GOOD}).get_json()["results"]
+    reference = _whole(client.post(URL, json={"series": GOOD}).get_json())
     r = client.post(URL, json={"series": [GOOD[0], bad, *GOOD[1:]]})
     assert r.status_code == 200
     body = r.get_json()
     assert_valid(body, "BatchResponse")
-    results = body["results"]
-    assert [_report_bytes(x) for x in results[:1] + results[2:]] == [_report_bytes(x) for x in reference]
+    results = _whole(body)
+    assert [_report(x) for x in results[:1] + results[2:]] == [_report(x) for x in reference]
     error = results[1]
     assert set(error) == {"id", "error"}
     assert error["id"] == (bad.get("id") if isinstance(bad, dict) and isinstance(bad.get("id"), str) else None)
@@ -174,8 +181,8 @@ def test_per_series_overrides_and_shared_defaults(client):
     series = [{"id": "shared", "values": _noise(100, 1)},
               {"id": "own", "values": _noise(100, 2), "period": 4, "max_lag": 12, "confidence": 0.9, "model_df": 2},
               {"id": "auto-lag", "values": _noise(100, 3), "max_lag": None}]
-    results = client.post(URL, json={"series": series, "period": 7, "max_lag": 15, "confidence": 0.99,
-                                     "model_df": 1}).get_json()["results"]
+    results = _whole(client.post(URL, json={"series": series, "period": 7, "max_lag": 15, "confidence": 0.99,
+                                     "model_df": 1}).get_json())
     assert [(r["period"], r["max_lag"], r["confidence"], r["model_df"]) for r in results] == [
         (7, 15, 0.99, 1), (4, 12, 0.9, 2), (7, 20, 0.99, 1)]  # auto: max(floor(10 log10 100), 2 * 7) = 20
 
@@ -289,10 +296,10 @@ def test_ndjson_stream_carries_the_same_results_and_a_final_summary(client, smal
     assert [line["index"] for line in results] == list(range(len(series)))  # request order, failures included
     assert "error" in results[1]
     by_index = {line.pop("index"): line for line in results}
-    for i, expected in enumerate(plain["results"]):
+    for i, expected in enumerate(_whole(plain)):
         got = by_index[i]
         assert got.pop("kind") == "result"
-        assert orjson.dumps(got) == orjson.dumps(expected)
+        assert got == expected
 
 
 def test_ndjson_keeps_request_order_when_the_engine_finishes_blocks_in_another(app, monkeypatch, small_blocks):
@@ -324,7 +331,7 @@ def test_ndjson_keeps_request_order_when_the_engine_finishes_blocks_in_another(a
     assert [line["id"] for line in lines[:-1]] == [s["id"] for s in series]
     assert "error" in lines[5] and "error" in lines[12]
     assert lines[-1] == {"kind": "summary", "summary": plain["summary"]}
-    for line, expected in zip(lines[:-1], plain["results"]):
+    for line, expected in zip(lines[:-1], _whole(plain)):
         assert {k: v for k, v in line.items() if k not in ("kind", "index")} == expected
     assert len(chunks) >= 2  # still sent as blocks finish, not held to the end
 
@@ -446,18 +453,18 @@ def test_shared_missing_and_transform_apply_unless_a_series_overrides_them(clien
               {"id": "refuses", "values": gappy, "missing": "refuse"},
               {"id": "own-transform", "values": [abs(v) + 1 for v in _noise(30, 3)], "transform": None}]
     body = {"series": series, "missing": "interpolate", "transform": {"difference": 1}}
-    results = client.post(URL, json=body).get_json()["results"]
+    results = _whole(client.post(URL, json=body).get_json())
     assert results[0]["missing"]["method"] == "interpolate" and results[0]["n_missing"] == 1
     assert [e["pointer"] for e in results[1]["error"]["errors"]] == ["/series/1/values/1"]
     single = client.post(SINGLE, json={"values": gappy, "missing": "interpolate", "transform": {"difference": 1}})
-    assert _report_bytes(results[0]) == single.data
+    assert _report(results[0]) == single.get_json()
     assert results[2]["n"] == 30  # no differencing for this series
 
 
 @pytest.mark.parametrize("big", [2**63, -(2**63) - 1, 10**30])
 def test_integer_ids_beyond_64_bits_fail_only_their_series(client, big):
     raw = b'{"series": [{"id": %d, "values": [1, 2, 4, 3]}, {"id": 1, "values": [1, 2, 4, 3]}]}' % big
-    results = client.post(URL, data=raw, content_type="application/json").get_json()["results"]
+    results = _whole(client.post(URL, data=raw, content_type="application/json").get_json())
     assert results[0]["error"]["errors"][0]["pointer"] == "/series/0/id" and "error" not in results[1]
 
 
@@ -492,5 +499,5 @@ def test_batch_answer_keeps_request_order_across_blocks_and_errors(client, small
     assert [res["id"] for res in answer["results"]] == [s["id"] for s in series]
     assert answer["summary"]["errors"] == 3 and answer["summary"]["series"] == len(series)
     assert list(answer) == (["detail", "results", "summary", "cautions", "full_report"] if detail == "brief"
-                            else ["results", "summary"])
+                            else ["shared", "results", "summary"])
     assert int(r.headers["Content-Length"]) == len(r.data)

@@ -72,3 +72,27 @@ def test_dask_benchmark_writes_its_section_and_make_bench_keeps_it(tmp_path):
     assert out.read_text().count(report.DASK_START) == 1
     kept = report.kept_dask_section(out.read_text())  # what make bench carries into the regenerated report
     assert kept[0].startswith(report.DASK_START) and kept[0].endswith(report.DASK_END) and "series/s" in kept[0]
+
+
+def test_shape_benchmark_cases_run_and_its_section_is_kept(tmp_path):
+    """The answer-size case runs on this code; the section reads a results dict and make bench keeps it (the
+    in-process and memory cases run in `python -m benchmarks.shape_bench --quick --no-write`, too slow here)."""
+    from benchmarks import shape_bench
+
+    sizes = shape_bench.case_bytes(3)
+    assert 2_000 < sizes["batch_per_series"] < sizes["single"] < 16_000
+    row = {"ratio": 2.0, "engine_s": 1.0, "full_s": 2.0, "answer_bytes": 2**20}
+    memory = {"peak_mib": 300.0, "rss_before_mib": 100.0, "answer_mib": 5.0, "request_mib": 2.0}
+    results = {"base": "0" * 40, "rounds": 1, "sizes": {"bytes": 3, "in_process": 10, "memory": 10},
+               "cases": {"bytes": {"base": [{"single": 29_000, "batch_per_series": 28_000}], "now": [sizes]},
+                         "in_process": {"base": [row], "now": [row]},
+                         "memory": {"base": [{**memory, "peak_mib": 900.0}], "now": [memory]}}}
+    out = tmp_path / "BENCHMARKS.md"
+    out.write_text(f"# old\n\n## Analysis\n\n{report.NOTES_START}\nkept\n{report.NOTES_END}\n")
+    shape_bench.write(shape_bench.section(results), out)
+    shape_bench.write(shape_bench.section(results), out)  # a second run replaces the section
+    text = out.read_text()
+    assert text.count(report.SHAPE_START) == 1 and text.index(report.SHAPE_START) < text.index("## Analysis")
+    assert "3.0x lower: met" in text and "| <= 8 KB |" in text
+    kept = report.kept_shape_section(text)
+    assert kept[0].startswith(report.SHAPE_START) and kept[0].endswith(report.SHAPE_END)

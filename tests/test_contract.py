@@ -155,9 +155,20 @@ def test_detail_option_and_brief_result_read_the_same_in_options_spec_and_method
 
 
 def test_batch_report_has_the_report_fields_and_id():
+    """A batch result has every field of the report (less what it shares) and its id; shared holds only report
+    fields and the outputs/shared.py paths."""
+    from lagsight.outputs.shared import PATHS
+
     schemas = spec()["components"]["schemas"]
     assert schemas["Report"]["allOf"] == [{"$ref": "#/components/schemas/ReportFields"}]
-    assert {"$ref": "#/components/schemas/ReportFields"} in schemas["BatchReport"]["allOf"]
+    report, batch = schemas["ReportFields"], schemas["BatchReport"]
+    assert set(batch["properties"]) == {"id", *report["properties"]}
+    assert set(batch["required"]) == {"id", *report["required"]} - {path[0] for path in PATHS if len(path) == 1}
+    shared = schemas["BatchShared"]["properties"]
+    assert set(shared) == {path[0] for path in PATHS} | {"tests"}
+    for path in PATHS:
+        if len(path) == 2:
+            assert path[1] in shared[path[0]]["properties"], path
 
 
 def test_problem_kinds_are_documented():

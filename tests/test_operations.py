@@ -171,10 +171,10 @@ def test_access_log_is_json_with_request_id_and_no_series_values(client, log_lin
 def test_a_crash_is_a_500_problem_and_its_log_does_not_quote_the_data(client, log_lines, monkeypatch):
     import lagsight.web.diagnostics as view
 
-    def crash(items, **kwargs):
+    def crash(*args, **kwargs):
         raise ValueError("could not use 271828.1828 from the request")
 
-    monkeypatch.setattr(view, "run", crash)
+    monkeypatch.setattr(view, "single_answer", crash)
     r = client.post(URL, json={"values": [271828.1828, 2, 1, 3]}, headers={"X-Request-ID": "crash-1"})
     assert r.status_code == 500 and r.mimetype == "application/problem+json"
     assert r.get_json()["type"] == "urn:lagsight:problem:internal-error"

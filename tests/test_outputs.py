@@ -67,9 +67,10 @@ def test_format_wins_over_accept_and_unknown_accept_is_406(client):
     assert bad.status_code == 422 and bad.mimetype == "application/problem+json"
 
 
-def test_charts_block_is_always_present_and_consistent(client):
+def test_charts_block_comes_when_asked_and_is_consistent(client):
     body = _seasonal_body()
-    report = client.post(URL, json=body).get_json()
+    assert client.post(URL, json=body).get_json()["charts"] is None  # opt-in: acf, pacf and periodogram hold the numbers
+    report = client.post(URL, json={**body, "charts": True}).get_json()
     assert_valid(report, "Report")
     c = report["charts"]
     assert c["time_plot"]["x"][0] == "2012-01-01" and c["time_plot"]["x_kind"] == "time"
@@ -102,9 +103,9 @@ def test_long_series_time_plot_is_thinned_keeping_extremes():
 def test_periodogram_chart_says_why_it_is_empty_with_missing_values(client):
     body = _seasonal_body() | {"missing": "pairwise"}
     body["values"][50] = None
-    block = client.post(URL, json=body).get_json()["charts"]["periodogram"]
+    block = client.post(URL, json=body | {"charts": True}).get_json()["charts"]["periodogram"]
     assert block["frequencies"] == [] and "missing=interpolate" in block["note"]
-    filled = client.post(URL, json=body | {"missing": "interpolate"}).get_json()
+    filled = client.post(URL, json=body | {"missing": "interpolate", "charts": True}).get_json()
     block = filled["charts"]["periodogram"]
     assert block["frequencies"] == filled["periodogram"]["frequencies"] and block["note"] is None
     assert len(block["power"]) == len(block["cumulative"]) == len(block["frequencies"]) > 10
@@ -118,7 +119,7 @@ def test_zones_follow_the_report_far_and_marginal_lags(client):
 
 def test_zones_use_the_band_centre_of_the_small_sample_band(client):
     x = np.random.default_rng(5).standard_normal(40).tolist()
-    body = client.post("/v1/diagnostics", json={"values": x, "band": "small_sample"}).get_json()
+    body = client.post("/v1/diagnostics", json={"values": x, "band": "small_sample", "charts": True}).get_json()
     acf, zone = body["acf"], body["charts"]["correlogram"]["zone"]
     for lag, value, centre, se, z in zip(acf["lags"], acf["values"], acf["centre"], acf["standard_error"], zone):
         outside = lag in acf["outside"]

@@ -91,9 +91,9 @@ def test_irregular_stamps_are_sent_as_iso_text(client):
     index = pd.Timestamp("2024-05-01 06:00") + pd.to_timedelta(minutes, unit="min")
     texts = [f"2024-05-01T{6 + m // 60:02d}:{m % 60:02d}:00" for m in minutes.tolist()]
     x = _noise(40, 10)
-    http = client.post(SINGLE, json={"values": x.tolist(), "timestamps": texts}).get_json()
-    assert http["frequency"] is None and texts[0] in str(http)
-    assert lagsight.diagnose(pd.Series(x, index=index)) == http
+    http = client.post(SINGLE, json={"values": x.tolist(), "timestamps": texts, "charts": True}).get_json()
+    assert http["frequency"] is None and texts[0] in str(http["charts"]["time_plot"]["x"])
+    assert lagsight.diagnose(pd.Series(x, index=index), charts=True) == http
 
 
 def test_zoned_stamps_keep_their_offsets(client):
@@ -303,8 +303,10 @@ def test_series_past_one_chunk_keep_their_positions_and_the_q_values_span_them(m
 
 
 def test_the_shared_item_preparation_matches_the_batch_view(app):
-    """web/batch.py keeps its own copy of the item functions: both must prepare the same items the same way."""
+    """web/batch.py prepares items with handling's own functions (no copy of its own)."""
     import lagsight.web.batch as view
+
+    assert view.prepare_items is handling.prepare_items and view.ITEM_LOAD is handling.ITEM_LOAD
 
     frame, specs = _long_frame()
     raw = _items(frame, specs) + [{"id": "store-01", "values": [1, 2, 3, 5]}, {"id": True, "values": [1, 2]},
@@ -314,8 +316,7 @@ def test_the_shared_item_preparation_matches_the_batch_view(app):
     shared.pop("series")
     for fast in (True, False):
         got = handling.prepare_items(raw, shared, app.config, fast=fast, instance=BATCH)
-        with app.test_request_context(BATCH):
-            want = view.prepare_items(raw, shared, app.config, fast=fast)
+        want = view.prepare_items(raw, shared, app.config, fast=fast, instance=BATCH)
         assert got[1] == want[1] and got[2] == want[2]
         for (s, plan), (w, wplan) in zip(got[0], want[0], strict=True):
             assert plan == wplan and np.array_equal(s.values, w.values, equal_nan=True)

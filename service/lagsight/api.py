@@ -32,7 +32,8 @@ import pandas as pd
 
 from lagsight import follow_up, handling, options, tables
 from lagsight.consult import across
-from lagsight.pipeline import gc_paused, run, run_blocks
+from lagsight.outputs.shared import hoist
+from lagsight.pipeline import gc_paused, run_blocks
 from lagsight.problems import KINDS, TYPE_PREFIX, Problem
 
 #: The limits that concern a series or a batch's analysis, as the service's defaults (settings names).
@@ -161,8 +162,9 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
         Settings names (MAX_POINTS, MAX_LAG, MAX_REPLICATES, MAX_SIMULATED_VALUES) over :data:`LIMITS`.
     **options_
         The request's fields: ``timestamps``, ``period``, ``name``, ``missing``, ``transform``, ``max_lag``,
-        ``confidence``, ``model_df``, ``horizon``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``
-        (GET /v1/methods and openapi/openapi.yaml describe them).
+        ``confidence``, ``model_df``, ``horizon``, ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``, and
+        what is written: ``detail`` ("full" or "brief"), ``digits`` (significant digits, None for full precision) and
+        ``charts`` (GET /v1/methods and openapi/openapi.yaml describe them).
 
     Raises
     ------
@@ -175,7 +177,7 @@ def diagnose(values, /, *, limits: Mapping | None = None, **options_) -> dict:
         data = handling.load(handling.SINGLE_LOAD, body)
         del body
         series, plan = handling.ready(data, cfg)
-        return run([(series, plan)])[0]
+        return handling.single_answer(series, plan, data)
     except Problem as problem:
         raise LagsightError.of(problem) from None
 
@@ -212,7 +214,7 @@ def analyse_long(long: tables.LongFrame, shared: dict, limits: dict, reports: bo
                     notes["count"] += 1
                     notes["alpha_sum"] += 1.0 - plan.spec.confidence
                     notes["unfitted"] = notes["unfitted"] or plan.spec.model_df == 0
-            for block in run_blocks(prepared, detail):
+            for block in run_blocks(prepared, detail, digits=shared["digits"], charts=shared["charts"]):
                 for j, report in block:
                     i, item_id = where[j]
                     result = {"id": item_id, **report}
@@ -256,8 +258,8 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
         As for :func:`diagnose`.
     **options_
         The batch request's shared options: ``detail`` ("full", the default, or "brief": faster, without the
-        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``horizon``, ``band``,
-        ``tests``, ``p_values``, ``replicates``, ``seed``.
+        advice column), ``period``, ``missing``, ``transform``, ``max_lag``, ``confidence``, ``model_df``, ``horizon``,
+        ``band``, ``tests``, ``p_values``, ``replicates``, ``seed``, ``digits``, ``charts``.
 
     Returns
     -------
@@ -282,7 +284,6 @@ def diagnose_many(frame: pd.DataFrame, id: str = "id", time: str | None = "time"
     out = tables.table(rows, summary["false_discovery"]["q_values"], long.id_dtype)
     if not reports:
         return out
-    answer = {"results": results, "summary": summary}
     if shared["detail"] == "brief":
-        answer = {"detail": shared["detail"], **answer, **notes}
-    return out, answer
+        return out, {"detail": shared["detail"], "results": results, "summary": summary, **notes}
+    return out, {"shared": hoist(results), "results": results, "summary": summary}

@@ -146,7 +146,8 @@ def model_check(data: dict, limits, observe: Callable | None = None, fits: Calla
     resid = _residual_series(series, fitted, limits)
     after_plan = _residual_plan(resid, data, fitted.order.arma_terms, limits)
     _count(checkpoint, 0, 2)
-    before, after = run([(series, before_plan), (resid, after_plan)], observe=observe)
+    before, after = run([(series, before_plan), (resid, after_plan)], observe=observe,
+                        charts=True)  # the residuals' report keeps its chart data (the time plot of the fit)
     return model_outputs.answer(series.name, fitted, found, after, before, options.MODEL_SEARCH_FITS,
                                 options.MODEL_WORK_BUDGET)
 

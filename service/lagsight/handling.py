@@ -9,8 +9,7 @@ HTTP's own: reading and negotiating the body, the request's size limits, its cos
   :func:`lagsight.pipeline.run`.
 - A batch: :func:`batch_options` (the shared options), :func:`prepare_items` (every item validated,
   cleaned and planned, a bad one becoming its error result), :func:`check_simulation`, then
-  :func:`lagsight.pipeline.run_blocks`. ``web/batch.py`` still holds its own copy of the item functions
-  below (same code); tests/test_python_api.py checks that both prepare the same items the same way.
+  :func:`lagsight.pipeline.run_blocks`. ``web/batch.py`` imports these same functions.
 
 ``limits`` is a mapping with the deployment limits that concern one series or one batch's analysis:
 MAX_POINTS, MAX_LAG, MAX_REPLICATES and MAX_SIMULATED_VALUES (the app's config, or
@@ -36,7 +35,7 @@ from lagsight.inputs.schema import (
 )
 from lagsight.inputs.series import PreparedSeries, prepare
 from lagsight.outputs import brief
-from lagsight.pipeline import Plan, plan_for
+from lagsight.pipeline import Plan, plan_for, run
 from lagsight.problems import FieldError, Problem, counted, flatten_messages
 
 #: The single request's body, loaded field by field when its fields are plain (see schema.DirectLoad).
@@ -213,7 +212,21 @@ def check_simulation(prepared: list[tuple[PreparedSeries, Plan]], limits) -> Non
         raise Problem("invalid-content", detail, [FieldError("/replicates", detail)])
 
 
-def brief_notes(count: int, alpha_sum: float, unfitted: bool) -> dict:
+def single_answer(series: PreparedSeries, plan: Plan, data: dict, observe=None) -> dict:
+    """The JSON answer for one loaded, prepared and planned series: its full report, or with ``detail``
+    "brief" its brief result with the general cautions and the pointer to the full report.
+    ``data`` holds the loaded options ``detail``, ``digits`` and ``charts``."""
+    detail = data["detail"]
+    result = run([(series, plan)], observe, detail, data["digits"], data["charts"])[0]
+    if detail != "brief":
+        return result
+    notes = brief_notes(1, 1.0 - plan.spec.confidence, plan.spec.model_df == 0, single=True)
+    return {"detail": detail, **result, **notes}
+
+
+def brief_notes(count: int, alpha_sum: float, unfitted: bool, single: bool = False) -> dict:
     """The cautions and the pointer to the full report that a brief answer carries once: ``count`` series
-    analysed, the sum of their alphas, and whether any was sent with model_df 0."""
-    return {"cautions": cautions_mod.batch_cautions(count, alpha_sum, unfitted), "full_report": brief.FULL_REPORT}
+    analysed, the sum of their alphas, and whether any was sent with model_df 0 (``single``: the answer of
+    the single route, whose cautions leave out the count across series)."""
+    return {"cautions": cautions_mod.batch_cautions(count, alpha_sum, unfitted, single),
+            "full_report": brief.FULL_REPORT}

@@ -131,6 +131,16 @@ DEFAULT_CHART = "correlogram"
 #: warnings, with the general cautions once for the whole batch (see lagsight.outputs.brief).
 DETAIL_LEVELS = ("full", "brief")
 DEFAULT_DETAIL = "full"
+#: Significant digits of the numbers written (option ``digits``; null writes every float at full precision, the
+#: 17 digits that read back as the same double). The default keeps a relative rounding error of at most
+#: 5e-13 (half a unit in the 13th digit), inside every tolerance at which the service's tests check answers
+#: against references (the tightest relative one is 1e-12, the pairwise band against z / sqrt(n_k) in
+#: tests/test_missing.py), and writes about a fifth fewer characters than full precision.
+DEFAULT_DIGITS = 13
+MIN_DIGITS, MAX_DIGITS = 1, 17
+#: Chart data (option ``charts``): off by default. The report's own blocks (acf, pacf, periodogram) hold the
+#: correlogram and periodogram numbers; ``charts: true`` adds the chart-ready tables (the time plot included).
+DEFAULT_CHARTS = False
 #: A spike beyond this many standard errors is "far" outside the band; between the band and it, "marginal".
 FAR_OUTSIDE_SE = 3.0
 

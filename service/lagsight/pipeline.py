@@ -31,6 +31,7 @@ from lagsight.consult.reading import interpret
 from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.family import analyse_groups, prepare_null_tables
 from lagsight.inputs.series import PreparedSeries, limit_to_paired_lags, resolve_max_lag
+from lagsight.outputs import digits as rounding
 from lagsight.outputs.brief import brief_results
 from lagsight.outputs.report import build_reports
 from lagsight.problems import invalid
@@ -164,13 +165,15 @@ def chunks(planned: list[tuple[Plan, list[int]]]) -> list[list[tuple[Plan, list[
 
 
 def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.DEFAULT_DETAIL,
-               observe: Callable[[int, int], None] | None = None) -> Iterator[list[tuple[int, dict]]]:
+               observe: Callable[[int, int], None] | None = None, digits: int | None = None,
+               charts: bool = False) -> Iterator[list[tuple[int, dict]]]:
     """Results chunk by chunk (see :func:`chunks`), as ``(index in items, result)`` pairs, as soon as each chunk
     is done.
 
     ``detail`` "full" gives full reports; "brief" the brief results of :mod:`lagsight.outputs.brief`,
     built from the same engine pass without the report and its sentences. ``observe(series, points)``,
     when given, is called for each block after its engine pass (the web layer counts the work in its metrics).
+    ``digits`` rounds the numbers written (None: full precision); ``charts`` adds the full reports' chart data.
     """
     planned = blocks(items)
     prepare_null_tables([(plan.n, plan.spec) for plan, _ in planned if not (plan.pairwise or plan.filled)])
@@ -197,17 +200,22 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
                 observe(len(members), plan.n * len(members))
             with gc_paused():
                 if detail == "brief":
-                    done.extend(zip(members, brief_results(block, result, decisions)))
+                    done.extend(zip(members, brief_results(block, result, decisions, digits)))
                 else:
-                    reports = build_reports(block, result)
-                    done.extend((i, interpret(report, d)) for i, report, d in zip(members, reports, decisions))
+                    reports = build_reports(block, result, digits, charts)
+                    answered = [(i, interpret(report, d)) for i, report, d in zip(members, reports, decisions)]
+                    if digits is not None:
+                        for _, report in answered:
+                            report["verdict"] = rounding.tree(report["verdict"], digits)
+                    done.extend(answered)
         yield done
 
 
-def run(items: list[tuple[PreparedSeries, Plan]], observe: Callable[[int, int], None] | None = None) -> list[dict]:
-    """Reports for prepared series, in the order given."""
+def run(items: list[tuple[PreparedSeries, Plan]], observe: Callable[[int, int], None] | None = None,
+        detail: str = options.DEFAULT_DETAIL, digits: int | None = None, charts: bool = False) -> list[dict]:
+    """Results for prepared series, in the order given (see :func:`run_blocks` for the options)."""
     reports: list[dict | None] = [None] * len(items)
-    for block in run_blocks(items, observe=observe):
+    for block in run_blocks(items, detail, observe, digits, charts):
         for i, report in block:
             reports[i] = report
     return reports

@@ -94,7 +94,8 @@ class Tally:
         self.counts[key] += 1
         self.index.append(index)
         self.ids.append(result["id"])
-        self.verdicts.append(result["verdict"])
+        whole = result["verdict"]  # only what the reading across series reads is kept (not the evidence)
+        self.verdicts.append({"white_noise": whole["white_noise"], "tail_p_value": whole["tail_p_value"]})
         self.alphas.append(alpha)
 
     def across(self) -> dict:

@@ -68,12 +68,13 @@ def cautions(report: dict, decision: Decision) -> list[str]:
     return out
 
 
-def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool) -> list[str]:
+def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool, single: bool = False) -> list[str]:
     """The general cautions of a brief batch answer, said once for all its series.
 
     ``chance_flags`` is the sum of 1 - confidence over the series analysed: the verdict rule
     holds each pure-noise series' chance of being called "not white noise" at or below its
     1 - confidence, so about that many could be flagged by chance if all were white noise.
+    ``single``: the brief answer of one series, whose multiple-testing caution speaks of its own checks.
     """
     out = [
         "A white-noise verdict is not proof of white noise: it says only that the sample gives no strong "
@@ -81,6 +82,8 @@ def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: boo
         f"Bands and p-values are large-sample (asymptotic) approximations, rough for short series (below n = "
         f"{options.SMALL_SAMPLE_N} a result with asymptotic p-values carries a short_series warning); p_values "
         "\"monte_carlo\" gives p-values that hold at any length.",
+        "Multiple testing: the verdict adjusts for the many lags and tests of this series (the per-test reject "
+        "flags do not)." if single else
         "Multiple testing: each verdict adjusts for the many lags and tests of its own series (the per-test reject "
         "flags do not), not for the other series. Of the "
         f"{analysed} series analysed here, up to about {_count(chance_flags)} could be called not white noise by chance "

@@ -63,14 +63,6 @@ RANK_GAP_SE = 3.0
 #: Structure kinds in the order of their importance for the advice.
 KINDS = ("outliers", "over_differenced", "trend", "unit_root", "seasonal", "autocorrelation",
          "volatility_clustering", "non_random_order", "uneven_spectrum")
-#: The lag each component points to ("lag_one" is the first tested lag: lag horizon).
-_COMPONENT_LAG = {"lag_one": lambda lay, z: lay.horizon, "ljung_box_short": lambda lay, z: lay.short,
-                  "ljung_box_long": lambda lay, z: lay.max_lag,
-                  "spike": lambda lay, z: int(np.argmax(np.abs(z[:lay.short]))) + 1,
-                  "seasonal_spike": lambda lay, z: lay.seasonal[int(np.argmax(np.abs(z[np.asarray(lay.seasonal) - 1])))]
-                  if lay.seasonal else None,
-                  "rank_ljung_box": lambda lay, z: lay.short,
-                  "rank_spike": lambda lay, z: int(np.argmax(np.abs(z[:lay.short]))) + 1}
 
 
 @dataclass
@@ -134,8 +126,8 @@ class Decision:
             confidence = "none"
         else:
             confidence = "weak" if self.n < options.SMALL_SAMPLE_N or self.p_value < 4 * self.alpha else "moderate"
-        return {"white_noise": self.white_noise, "summary": summary(self), "p_value": self.p_value,
-                "threshold": self.threshold, "confidence": confidence, "structure": list(self.structure),
+        return {"white_noise": self.white_noise, "summary": summary(self), "structure": list(self.structure),
+                "confidence": confidence, "p_value": self.p_value, "threshold": self.threshold,
                 "evidence": self.evidence,
                 "volatility": {"p_value": self.volatility_p, "threshold": self.volatility_threshold,
                                "clustering": "volatility_clustering" in self.structure},
@@ -205,18 +197,23 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
     r = ev.r  # the autocorrelations the evidence rests on (observed values only when some were filled)
     # Without a portmanteau lag that has degrees of freedom left after model_df, only a rejection is read.
     judged = lay.max_lag - analysis.spec.model_df > 0
+    lags = _component_lags(lay, ev.z, ev.z_rank)  # per component, every row's lag (None where it has none)
+    strongest = _strongest_lags(lay, ev.z, ev.z_rank, ev.components, lags)
+    components, simulated_n = ev.components.tolist(), ev.simulated_n.tolist()
+    against_list = against_a.tolist()
     out = []
     for i in range(r.shape[0]):
         z, zr, comps = ev.z[i], ev.z_rank[i], ev.components[i]
-        t_star = thresholds[int(ev.simulated_n[i])]
+        t_star = thresholds[int(simulated_n[i])]
+        row, against = components[i], against_list[i]
         evidence = []
         for j, name in enumerate(COMPONENTS):
-            if comps[j] >= 1.0 and name in ("ljung_box_long", "seasonal_spike"):
+            p = row[j]
+            if p >= 1.0 and name in ("ljung_box_long", "seasonal_spike"):
                 continue
-            evidence.append({"source": name, "lag": _COMPONENT_LAG[name](lay, zr if name.startswith("rank") else z),
-                             "p_value": float(comps[j]), "threshold": t_star,
-                             "against_white_noise": bool(comps[j] <= t_star and against_a[i])})
-        k = _strongest_lag(lay, z, zr, comps)
+            evidence.append({"source": name, "lag": lags[j][i], "p_value": p, "threshold": t_star,
+                             "against_white_noise": p <= t_star and against})
+        k = strongest[i]
         structure: list[str] = []
         r1 = float(r[i, 0])
         if against_a[i]:
@@ -236,17 +233,38 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
     return out
 
 
-def _strongest_lag(lay, z: np.ndarray, zr: np.ndarray, comps: np.ndarray) -> int:
-    """The lag the strongest evidence points to: that of the component with the smallest p-value (the rank
-    autocorrelations' own lag when a rank component wins; the largest robust spike for the sums)."""
-    name = COMPONENTS[int(np.argmin(comps))]
-    if name == "seasonal_spike":
-        return _COMPONENT_LAG[name](lay, z)
-    if name.startswith("rank"):
-        return int(np.argmax(np.abs(zr[:lay.short]))) + 1
-    if name == "ljung_box_long":
-        return int(np.argmax(np.abs(z))) + 1
-    return int(np.argmax(np.abs(z[:lay.short]))) + 1
+def _component_lags(lay, z: np.ndarray, zr: np.ndarray) -> list[list]:
+    """Per component (in COMPONENTS order), every row's lag, over the block at once: the first tested lag (the horizon) for lag_one, the short lag
+    for the short sums, max_lag for the long one, the lag of the largest |z| over the short lags for spike (of
+    the rank autocorrelations for rank_spike) and over the seasonal lags for seasonal_spike (None without one)."""
+    m = z.shape[0]
+    spike = (np.argmax(np.abs(z[:, :lay.short]), axis=1) + 1).tolist()
+    rank_spike = (np.argmax(np.abs(zr[:, :lay.short]), axis=1) + 1).tolist()
+    if lay.seasonal:
+        at = np.asarray(lay.seasonal)
+        seasonal = at[np.argmax(np.abs(z[:, at - 1]), axis=1)].tolist()
+    else:
+        seasonal = [None] * m
+    by_name = {"lag_one": [lay.horizon] * m, "ljung_box_short": [lay.short] * m, "ljung_box_long": [lay.max_lag] * m,
+               "spike": spike, "seasonal_spike": seasonal, "rank_ljung_box": [lay.short] * m, "rank_spike": rank_spike}
+    return [by_name[name] for name in COMPONENTS]
+
+
+def _strongest_lags(lay, z: np.ndarray, zr: np.ndarray, comps: np.ndarray, lags: list[list]) -> list[int]:
+    """The lag the strongest evidence of each row points to: that of the component with the smallest p-value (the
+    rank autocorrelations' own lag when a rank component wins; the largest robust spike over every lag for the
+    long sum, over the short lags for the other sums)."""
+    winner = np.argmin(comps, axis=1).tolist()
+    spike = lags[COMPONENTS.index("spike")]
+    rank_spike = lags[COMPONENTS.index("rank_spike")]
+    seasonal = lags[COMPONENTS.index("seasonal_spike")]
+    widest = (np.argmax(np.abs(z), axis=1) + 1).tolist()
+    out = []
+    for i, w in enumerate(winner):
+        name = COMPONENTS[w]
+        out.append(seasonal[i] if name == "seasonal_spike" else rank_spike[i] if name.startswith("rank")
+                   else widest[i] if name == "ljung_box_long" else spike[i])
+    return out
 
 
 def _num(v: float) -> float | None:

@@ -236,7 +236,19 @@ class AnalysisOptions(Suggesting):
             raise ValidationError("Each test may be named once.", "tests")
 
 
-class DiagnosticsRequest(SeriesFields, AnalysisOptions):
+class AnswerOptions(Suggesting):
+    """Options that shape what is written, not what is computed: detail, digits and charts."""
+
+    class Meta:
+        unknown = RAISE
+
+    detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=Choice(options.DETAIL_LEVELS))
+    digits = StrictInteger(load_default=options.DEFAULT_DIGITS, allow_none=True,
+                           validate=validate.Range(min=options.MIN_DIGITS, max=options.MAX_DIGITS))
+    charts = StrictBoolean(load_default=options.DEFAULT_CHARTS)
+
+
+class DiagnosticsRequest(SeriesFields, AnalysisOptions, AnswerOptions):
     """Body of POST /v1/diagnostics."""
 
 
@@ -283,7 +295,7 @@ class DirectLoad:
 #: Fields of the single request loaded directly; timestamps with the check they share with values
 #: (DIRECT_CHECKS); tests keep the schema's load (its schema-level check is not mirrored here).
 DIRECT_FIELDS = ("values", "timestamps", "period", "name", "missing", "transform", "max_lag", "confidence",
-                 "model_df", "horizon", "band", "p_values", "replicates", "seed")
+                 "model_df", "horizon", "band", "p_values", "replicates", "seed", "detail", "digits", "charts")
 DIRECT_CHECKS = (stamps_match_values,)
 
 
@@ -331,7 +343,7 @@ class BatchSeries(SeriesFields):
     transform = fields.Nested(TransformFields, allow_none=True)
 
 
-class BatchRequest(AnalysisOptions):
+class BatchRequest(AnalysisOptions, AnswerOptions):
     """Body of POST /v1/diagnostics/batch: the series (checked one by one) and the shared options.
 
     ``series`` is only checked to be a non-empty array here; each item is validated
@@ -342,7 +354,6 @@ class BatchRequest(AnalysisOptions):
     period = StrictInteger(load_default=None, allow_none=True, validate=validate.Range(min=options.MIN_PERIOD))
     missing = SeriesFields._declared_fields["missing"]
     transform = SeriesFields._declared_fields["transform"]
-    detail = fields.String(load_default=options.DEFAULT_DETAIL, validate=Choice(options.DETAIL_LEVELS))
 
 #: The options a series of a batch may override, and the shared field each falls back to.
 BATCH_OVERRIDES = ("period", "missing", "transform", "max_lag", "confidence", "model_df", "horizon")

@@ -2,7 +2,7 @@
 
 A portal scanning thousands of series needs, per series, the verdict and the numbers behind
 it, not the correlogram lists, bands, periodogram, chart data, sentences and advice of the full
-report (about 27 KB of JSON each). A brief result holds:
+report (about 7 KB of JSON each in a batch). A brief result holds:
 
 - ``name``, ``n``, ``n_missing``, ``max_lag``, ``period``: as in the full report;
 - ``verdict``: the full report's verdict object, the same in every field (the decision rule of
@@ -34,10 +34,11 @@ from lagsight.consult.cautions import short_series_warning
 from lagsight.consult.decision import Decision
 from lagsight.engine.analysis import GroupAnalysis, TestArrays
 from lagsight.inputs.series import PreparedSeries
+from lagsight.outputs import digits as rounding
 from lagsight.outputs.report import test_rows
 
 #: Per-series fields of a brief result, in order (the batch adds ``id``).
-FIELDS = ("name", "n", "n_missing", "max_lag", "period", "verdict", "tests", "exceedances", "seasonal_strength",
+FIELDS = ("verdict", "name", "n", "n_missing", "max_lag", "period", "tests", "exceedances", "seasonal_strength",
           "warnings")
 
 
@@ -51,7 +52,7 @@ def _row_slice(analysis: GroupAnalysis, row: int) -> GroupAnalysis:
     return dataclasses.replace(analysis, acf=analysis.acf[row:row + 1], tests=[cut(t) for t in analysis.tests])
 
 
-def _test_entries(analysis: GroupAnalysis, alpha: float) -> list[list[dict]]:
+def _test_entries(analysis: GroupAnalysis, alpha: float, digits: int | None = None) -> list[list[dict]]:
     """Every row's test entries: name, lag, df, statistic, p_value, reject, note.
 
     Built a column (one test at one lag) at a time, then regrouped by row. A note is written
@@ -62,21 +63,23 @@ def _test_entries(analysis: GroupAnalysis, alpha: float) -> list[list[dict]]:
     columns = []
     for t in analysis.tests:
         finite = np.isfinite(t.statistic) & np.isfinite(t.p_value)
-        stats, pvals = t.statistic.T.tolist(), t.p_value.T.tolist()
+        stats, exact = rounding.array(t.statistic, digits).T.tolist(), t.p_value.T.tolist()
+        pvals = exact if digits is None else rounding.array(t.p_value, digits).T.tolist()
         for j, lag in enumerate(t.lags):
             name, df = t.name, t.df[j]
             if finite[:, j].all():
                 columns.append([{"name": name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                                 "reject": p < alpha, "note": None} for stat, p in zip(stats[j], pvals[j])])
+                                 "reject": e < alpha, "note": None}
+                                for stat, p, e in zip(stats[j], pvals[j], exact[j])])
                 continue
             first = int(np.argmin(finite[:, j]))
             note = [e for e in test_rows(_row_slice(analysis, first))[0] if e["name"] == name][j]["note"]
             column = []
-            for stat, p in zip(stats[j], pvals[j]):
+            for stat, p, e in zip(stats[j], pvals[j], exact[j]):
                 stat = stat if math.isfinite(stat) else None
                 p = p if math.isfinite(p) else None
                 column.append({"name": name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                               "reject": None if p is None else p < alpha,
+                               "reject": None if p is None else e < alpha,
                                "note": note if stat is None or p is None else None})
             columns.append(column)
     if not columns:
@@ -96,13 +99,14 @@ def _outside_lags(analysis: GroupAnalysis) -> list[list[int]]:
     return [flat[a:b] for a, b in zip(starts, ends)]
 
 
-def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis, decisions: list[Decision]) -> list[dict]:
-    """The brief result of every row of a group analysis; ``series[i]`` is row i."""
+def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis, decisions: list[Decision],
+                  digits: int | None = None) -> list[dict]:
+    """The brief result of every row of a group analysis; ``series[i]`` is row i (numbers to ``digits``)."""
     spec = analysis.spec
     alpha = 1.0 - spec.confidence
     ns = [s.n for s in series]
-    verdicts = [d.verdict() for d in decisions]
-    tests = _test_entries(analysis, alpha)
+    verdicts = [rounding.tree(d.verdict(), digits) for d in decisions]
+    tests = _test_entries(analysis, alpha, digits)
     outside = _outside_lags(analysis)
     short = spec.p_values == "asymptotic"
     out = []
@@ -111,15 +115,15 @@ def brief_results(series: list[PreparedSeries], analysis: GroupAnalysis, decisio
         if short and ns[i] < options.SMALL_SAMPLE_N:
             warnings.append(short_series_warning(ns[i]))
         out.append({
+            "verdict": verdicts[i],
             "name": s.name,
             "n": ns[i],
             "n_missing": s.n_missing,
             "max_lag": spec.max_lag,
             "period": s.period,
-            "verdict": verdicts[i],
             "tests": tests[i],
             "exceedances": {"count": len(outside[i]), "outside": outside[i]},
-            "seasonal_strength": analysis.seasonal_strength[i],
+            "seasonal_strength": rounding.value(analysis.seasonal_strength[i], digits),
             "warnings": warnings,
         })
     return out

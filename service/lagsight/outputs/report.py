@@ -21,6 +21,7 @@ from lagsight.engine import stl
 from lagsight.engine.analysis import GroupAnalysis
 from lagsight.engine.bands import Band, per_lag_confidence
 from lagsight.inputs.series import PreparedSeries
+from lagsight.outputs import digits as rounding
 from lagsight.outputs.charts import chart_data
 from lagsight.outputs.charts import seasonal_flags as chart_seasonal_flags
 
@@ -39,8 +40,11 @@ _NOT_COMPUTABLE = {
 _SMALL_ARRAY = 256
 
 
-def _finite_rows(a: np.ndarray) -> tuple[list[list], bool]:
-    """Rows of a 2-D float array as lists, and whether every value is finite (else None replaces the others)."""
+def _finite_rows(a: np.ndarray, digits: int | None = None) -> tuple[list[list], bool]:
+    """Rows of a 2-D float array as lists (rounded to ``digits`` significant digits when given), and whether
+    every value is finite (else None replaces the others)."""
+    if digits is not None:
+        a = rounding.array(a, digits)
     rows = a.tolist()
     if a.size <= _SMALL_ARRAY:
         # The sum is finite only if every value is; a sum that overflows takes the slow path below,
@@ -52,19 +56,24 @@ def _finite_rows(a: np.ndarray) -> tuple[list[list], bool]:
     return [[v if math.isfinite(v) else None for v in row] for row in rows], False
 
 
-def _rows(a: np.ndarray) -> list[list]:
+def _rows(a: np.ndarray, digits: int | None = None) -> list[list]:
     """Rows of a 2-D float array as lists, with None where a value is not finite."""
-    return _finite_rows(a)[0]
+    return _finite_rows(a, digits)[0]
 
 
-def _list(a: np.ndarray) -> list:
-    return _rows(np.asarray(a, dtype=np.float64)[None, :])[0]
+def _list(a: np.ndarray, digits: int | None = None) -> list:
+    return _rows(np.asarray(a, dtype=np.float64)[None, :], digits)[0]
 
 
 class _Correlograms:
     """One correlogram (ACF or PACF) of every row of a group, as lists."""
 
-    def __init__(self, lags: list[int], values: np.ndarray, band: Band):
+    def __init__(self, lags: list[int], values: np.ndarray, band: Band, shown: list | None = None):
+        self._classify(lags, values, band)
+        if shown is not None:  # classified on the numbers as computed, written rounded (values, lower, upper,
+            self.values, self.lower, self.upper, self.centre, self.se = (_rows(a) for a in shown)  # centre, se)
+
+    def _classify(self, lags: list[int], values: np.ndarray, band: Band) -> None:
         self.lags = lags
         lower, upper = band.lower, band.upper
         self.values, finite_values = _finite_rows(values)
@@ -106,20 +115,31 @@ class _Correlograms:
         }
 
 
-def test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
-    """The test entries of every row: a list of test dicts per row."""
+def _band_arrays(band: Band) -> list:
+    return [band.lower, band.upper, band.centre, band.se]
+
+
+def _test_arrays(t) -> list:
+    """A test's arrays in the order test_rows reads them: statistic, p_value, mc_se, then its per-row extras."""
+    return [t.statistic, t.p_value, t.mc_se, *(v for v in t.extras.values() if isinstance(v, np.ndarray))]
+
+
+def test_rows(analysis: GroupAnalysis, digits: int | None = None, shown: list | None = None) -> list[list[dict]]:
+    """The test entries of every row: a list of test dicts per row (reject read off the unrounded p-value).
+
+    ``shown`` holds each test's arrays (:func:`_test_arrays`) as written, rounded already; without it they
+    are rounded here to ``digits``."""
     alpha = 1.0 - analysis.confidence
     m = analysis.acf.shape[0]
     out: list[list[dict]] = [[] for _ in range(m)]
-    for t in analysis.tests:
-        stats, pvals = _rows(t.statistic), _rows(t.p_value)
-        ses = _rows(t.mc_se) if t.mc_se is not None else None
-        per_row, constant = {}, {}
-        for k, v in t.extras.items():
-            if isinstance(v, np.ndarray):
-                per_row[k] = _list(v)
-            else:
-                constant[k] = v
+    if shown is None:
+        shown = [rounding.arrays(_test_arrays(t), digits) for t in analysis.tests]
+    for t, own in zip(analysis.tests, shown):
+        arrays = {k: v for k, v in t.extras.items() if isinstance(v, np.ndarray)}
+        stats, exact, pvals = _rows(own[0]), _rows(t.p_value), _rows(own[1])
+        ses = _rows(own[2]) if t.mc_se is not None else None
+        per_row = {k: _list(v) for k, v in zip(arrays, own[3:])}
+        constant = {k: rounding.value(v, digits) for k, v in t.extras.items() if k not in arrays}
         for j, lag in enumerate(t.lags):
             df = t.df[j]
             no_df = t.name in ("ljung_box", "box_pierce") and df is None
@@ -139,7 +159,7 @@ def test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
                                 "evenly spaced series (use missing \"interpolate\" to get it).")
                 out[row].append({
                     "name": t.name, "lag": lag, "df": df, "statistic": stat, "p_value": p,
-                    "reject": None if p is None else p < alpha,
+                    "reject": None if p is None else exact[row][j] < alpha,
                     "method": t.method,
                     "mc_standard_error": None if ses is None else ses[row][j],
                     "details": {**constant, **{k: v[row] for k, v in per_row.items()}} if per_row else dict(constant),
@@ -149,7 +169,8 @@ def test_rows(analysis: GroupAnalysis) -> list[list[dict]]:
     return out
 
 
-def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...], horizon: int = 1) -> dict:
+def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int, ...], digits: int | None,
+                 horizon: int = 1) -> dict:
     """Lags outside the band among those tested: lags horizon..K (with a horizon, lags below it are not tested)."""
     if horizon > 1:
         acf_block = {key: [lag for lag in acf_block[key] if lag >= horizon] for key in ("lags", "outside", "far",
@@ -158,8 +179,8 @@ def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int
     return {
         "count": k_out,
         "lags_tested": K,
-        "expected": alpha_per_lag * K,
-        "chance_probability": float(bdtrc(k_out - 1, K, alpha_per_lag)) if k_out else 1.0,
+        "expected": rounding.value(alpha_per_lag * K, digits),
+        "chance_probability": rounding.value(float(bdtrc(k_out - 1, K, alpha_per_lag)), digits) if k_out else 1.0,
         "far": list(acf_block["far"]),
         "marginal": list(acf_block["marginal"]),
         "seasonal": [lag for lag in acf_block["outside"] if lag in seasonal_lags],
@@ -167,7 +188,7 @@ def _exceedances(acf_block: dict, alpha_per_lag: float, seasonal_lags: tuple[int
 
 
 def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, row: int, n: int,
-              seasonal_lags: tuple[int, ...]) -> dict:
+              seasonal_lags: tuple[int, ...], digits: int | None = None) -> dict:
     period = series.period
     base = {"period": period, "period_source": series.period_source, "lags": [],
             "suggested_period": analysis.suggested_period[row], "strength": None, "leftover_likely": None,
@@ -184,7 +205,7 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
         base["note"] = f"max_lag is below the period {period}; raise max_lag to at least {period} to check seasonal lags."
     strength = analysis.seasonal_strength[row]
     base["strength"] = {
-        "value": strength,
+        "value": rounding.value(strength, digits),
         "method": "stl",
         "note": None if strength is not None else (
             f"Not computed: STL needs at least {2 * period + 1} values for period {period}."
@@ -199,35 +220,66 @@ def _seasonal(series: PreparedSeries, analysis: GroupAnalysis, acf_block: dict, 
     return base
 
 
-def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int) -> dict:
+def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int, digits: int | None) -> dict:
     block = dict(series.missing)
     if analysis.n_effective is not None:
-        block["effective_n"] = _rows(analysis.n_effective[row : row + 1])[0]
+        block["effective_n"] = _rows(analysis.n_effective[row : row + 1], digits)[0]
     return block
 
 
-def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list[dict]:
-    """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i."""
+#: The report's keys in order: the reading first (verdict, advice, sentences, cautions, warnings), then
+#: what was analysed, then the numbers. ``interpret`` fills the reading; ``charts`` is null unless asked for.
+KEYS = ("verdict", "advice", "interpretation", "cautions", "warnings", "name", "n", "n_input", "n_missing",
+        "max_lag", "confidence", "model_df", "period", "frequency", "band", "acf", "pacf", "exceedances", "tests",
+        "p_values", "seasonal", "periodogram", "unit_root", "missing", "transform", "charts")
+
+
+def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis, digits: int | None = None,
+                  charts: bool = False) -> list[dict]:
+    """The numeric part of the report of every row of a group analysis; ``series[i]`` is row i.
+
+    Floats are written to ``digits`` significant digits (None: as computed); the lags outside the
+    bands and the tests' reject flags are read off the unrounded numbers. ``charts`` adds the
+    chart-ready tables (:mod:`lagsight.outputs.charts`); without it ``charts`` is null.
+    """
     spec = analysis.spec
     lags = list(range(1, spec.max_lag + 1))
-    acf = _Correlograms(lags, analysis.acf, analysis.acf_band)
-    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band)
-    tests = test_rows(analysis)
-    per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
-    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None and spec.horizon == 1
-    frequencies = _list(analysis.frequencies)
-    power, cumulative = _rows(analysis.power), _rows(analysis.cumulative)
     crit = analysis.ks_critical
-    lower = None if crit is None else _list(analysis.expected_cumulative - crit)
-    upper = None if crit is None else _list(analysis.expected_cumulative + crit)
+    band_lower = None if crit is None else analysis.expected_cumulative - crit
+    band_upper = None if crit is None else analysis.expected_cumulative + crit
+    # Every array written, rounded in one call (a NumPy call costs about the same whatever its size).
+    parts = [[analysis.acf, *_band_arrays(analysis.acf_band)], [analysis.pacf, *_band_arrays(analysis.pacf_band)],
+             [analysis.frequencies, analysis.power, analysis.cumulative, band_lower, band_upper],
+             *(_test_arrays(t) for t in analysis.tests)]
+    flat = rounding.arrays([a for part in parts for a in part], digits)
+    shown, at = [], 0
+    for part in parts:
+        shown.append(flat[at:at + len(part)])
+        at += len(part)
+    acf = _Correlograms(lags, analysis.acf, analysis.acf_band, shown[0] if digits is not None else None)
+    pacf = _Correlograms(lags, analysis.pacf, analysis.pacf_band, shown[1] if digits is not None else None)
+    tests = test_rows(analysis, digits, shown[3:])
+    per_lag = per_lag_confidence(spec.band, spec.confidence, spec.max_lag)
+    constant_width = spec.band in ("white_noise", "simultaneous") and analysis.n_effective is None and (
+        spec.horizon == 1)
+    frequencies = _list(shown[2][0])
+    power, cumulative = _rows(shown[2][1]), _rows(shown[2][2])
+    lower = None if crit is None else _list(shown[2][3])
+    upper = None if crit is None else _list(shown[2][4])
     seasonal_lags = spec.seasonal_lags
     seasonal_flags = chart_seasonal_flags(spec.max_lag, spec.period)
+    band_z, band_per_lag = rounding.value(analysis.acf_band.z, digits), rounding.value(per_lag, digits)
     reports = []
     for row, s in enumerate(series):
         acf_block = acf.block(row)
         unit_root = analysis.unit_root[row]
         n = s.n
-        reports.append({
+        report = {
+            "verdict": None,
+            "advice": [],
+            "interpretation": [],
+            "cautions": [],
+            "warnings": list(s.warnings),
             "name": s.name,
             "n": n,
             "n_input": s.n_input,
@@ -240,16 +292,16 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
             "frequency": s.frequency,
             "band": {
                 "kind": spec.band,
-                "per_lag_confidence": per_lag,
-                "z": analysis.acf_band.z,
+                "per_lag_confidence": band_per_lag,
+                "z": band_z,
                 "half_width": acf_block["upper"][0] if constant_width else None,
             },
             "acf": acf_block,
             "pacf": pacf.block(row),
-            "exceedances": _exceedances(acf_block, 1.0 - per_lag, seasonal_lags, spec.horizon),
+            "exceedances": _exceedances(acf_block, 1.0 - per_lag, seasonal_lags, digits, spec.horizon),
             "tests": tests[row],
             "p_values": {"method": spec.p_values, "replicates": spec.replicates or None, "seed": spec.seed},
-            "seasonal": _seasonal(s, analysis, acf_block, row, n, seasonal_lags),
+            "seasonal": _seasonal(s, analysis, acf_block, row, n, seasonal_lags, digits),
             "periodogram": {
                 "frequencies": list(frequencies),
                 "power": power[row],
@@ -259,16 +311,15 @@ def build_reports(series: list[PreparedSeries], analysis: GroupAnalysis) -> list
                 "binned": len(frequencies) < (n - 1) // 2,
             },
             "unit_root": None if unit_root is None else {
-                "test": "augmented_dickey_fuller", "statistic": unit_root[0], "p_value": unit_root[1],
-                "lags_used": unit_root[2],
+                "test": "augmented_dickey_fuller", "statistic": rounding.value(unit_root[0], digits),
+                "p_value": rounding.value(unit_root[1], digits), "lags_used": unit_root[2],
             },
-            "verdict": None,
-            "interpretation": [],
-            "advice": [],
-            "cautions": [],
-            "warnings": list(s.warnings),
-            "missing": _missing(s, analysis, row),
+            "missing": _missing(s, analysis, row, digits),
             "transform": s.transform,
-        })
-        reports[-1]["charts"] = chart_data(s.values, s.labels, reports[-1], seasonal_flags, s.filled)
+            "charts": None,
+        }
+        if charts:
+            values = s.values if digits is None else rounding.array(s.values, digits)
+            report["charts"] = chart_data(values, s.labels, report, seasonal_flags, s.filled)
+        reports.append(report)
     return reports

@@ -12,11 +12,10 @@ from flask import Blueprint, Response, current_app, request
 from werkzeug.datastructures import ImmutableMultiDict
 
 from lagsight import options
-from lagsight.handling import SINGLE_LOAD, load, ready
+from lagsight.handling import SINGLE_LOAD, load, ready, single_answer
 from lagsight.inputs import csv_input, numbers
 from lagsight.outputs import vega_lite
 from lagsight.outputs.csv_table import correlogram_table
-from lagsight.pipeline import run
 from lagsight.problems import Problem
 from lagsight.web import budget, metrics, query
 from lagsight.web.payload import media_type, read_body, read_json_object
@@ -106,13 +105,17 @@ def diagnose():
     try:
         data = load(SINGLE_LOAD, body)
         body = None  # the parsed JSON (a Python float per value) is not needed past validation: free it now
+        if fmt != "json":  # tables and images are drawn from the full report and its chart data
+            data.update(detail="full", charts=fmt != "csv")
+        elif out["vega_lite"]:
+            data["charts"] = True  # the specifications are built on the chart data
         series, plan = ready(data, cfg)  # the same steps as lagsight.diagnose (lagsight.handling)
     except Problem as problem:
         raise _with_lines(problem, raw) from None
-    budget.check(budget.engine_work(budget.Estimate(), [(series, plan)], "full"), "")
+    budget.check(budget.engine_work(budget.Estimate(), [(series, plan)], data["detail"]), "")
     if budget.deadline_passed():  # reading and preparing took the request's time: the engine would run late
         raise budget.late(0, 1)
-    report = run([(series, plan)], observe=metrics.record_analysed)[0]
+    report = single_answer(series, plan, data, metrics.record_analysed)
     if fmt == "csv":
         return Response(correlogram_table(report), mimetype="text/csv",
                         headers={"Content-Disposition": 'inline; filename="lagsight-correlogram.csv"'})
@@ -120,7 +123,7 @@ def diagnose():
         from lagsight.outputs.render import render
 
         return Response(render(report, out["chart"], fmt), mimetype=options.FORMATS[fmt])
-    if out["vega_lite"]:
+    if out["vega_lite"] and report.get("charts"):
         vega_lite.attach(report["charts"], report["name"])
     return json_response(report)
 

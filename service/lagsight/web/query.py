@@ -22,7 +22,7 @@ ANALYSIS_PARAMS = {
     "period": "integer", "max_lag": "integer", "confidence": "number", "model_df": "integer", "horizon": "integer",
     "name": "string",
     "missing": "string", "band": "string", "tests": "list", "p_values": "string", "replicates": "integer",
-    "seed": "integer",
+    "seed": "integer", "detail": "string", "digits": "integer", "charts": "boolean",
 }
 TRANSFORM_PARAMS = {"log": "boolean", "box_cox": "number_or_string", "difference": "integer",
                     "seasonal_difference": "integer", "detrend": "string"}
