@@ -55,6 +55,8 @@ RULES_BEYOND_THE_SCHEMA = {
     r"^step \(\d+\) must be at most the window \(\d+\)": "relative to another field",
     r"^max_lag \(\d+\) must be below the window \(\d+\)": "relative to another field",
     r"^max_lag must be at most \d+ \(this deployment's limit\)": "the deployment's limit (LAGSIGHT_MAX_LAG)",
+    r"^horizon must be at most max_lag \(\d+\) so that a lag is left to test": "relative to another field",
+    r"^Monte Carlo p-values simulate an i.i.d. null; with a horizon above 1": "a rule across two fields",
     r"^A seasonal difference needs a period": "a rule across two fields (or the timestamps' spacing)",
     r"^Each test may be named once\.$": "names unique within one comma-separated string",
     r"^The (log|Box-Cox) transform needs every value to be positive": "depends on the values",

@@ -18,6 +18,7 @@ from lagsight.engine import horizon as ahead
 from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.autocorrelation import acf
 from lagsight.engine.bands import acf_band
+from lagsight.outputs.shared import merged
 
 from .spec_tools import assert_valid
 
@@ -190,7 +191,7 @@ def test_batch_shares_and_overrides_the_horizon(client):
     body = client.post("/v1/diagnostics/batch", json={"horizon": 3, "series": [
         {"id": "shared", "values": x}, {"id": "own", "values": x, "horizon": 1},
         {"id": "bad", "values": x, "horizon": 0}]}).get_json()
-    shared, own, bad = body["results"]
+    shared, own, bad = (r if "error" in r else merged(r, body.get("shared", {})) for r in body["results"])
     assert shared["horizon"] == 3 and own["horizon"] == 1
     assert shared["verdict"]["white_noise"] is True and own["verdict"]["white_noise"] is False
     assert bad["error"]["errors"][0]["pointer"] == "/series/2/horizon"

@@ -57,7 +57,7 @@ def _assert_apart(boxes: list) -> None:
                                           (1500, "D", "panel"), (240, "MS", "time_plot"), (3000, "min", "panel")],
                          ids=["12-days", "30-hours", "2400-hours", "1500-days", "20-years-monthly", "3000-minutes"])
 def test_date_labels_never_overlap(client, n, freq, chart):
-    report = client.post(URL, json=_body(n, freq, max_lag=10)).get_json()
+    report = client.post(URL, json=_body(n, freq, max_lag=10, charts=True)).get_json()
     fig = _figure(report, chart)
     _assert_apart(_label_boxes(fig.axes[0]))
 
@@ -73,7 +73,7 @@ def test_stability_image_date_labels_never_overlap(client, n, freq):
 
 @pytest.mark.parametrize("max_lag", [3, 7, 60])
 def test_lag_ticks_are_whole_numbers_and_bars_one_per_lag(client, max_lag):
-    report = client.post(URL, json=_body(200, None, max_lag=max_lag)).get_json()
+    report = client.post(URL, json=_body(200, None, max_lag=max_lag, charts=True)).get_json()
     fig = _figure(report, "correlogram")
     ax = fig.axes[0]
     ticks = [t for t in ax.get_xticks() if ax.get_xlim()[0] <= t <= ax.get_xlim()[1]]
@@ -89,7 +89,7 @@ def test_lag_ticks_are_whole_numbers_and_bars_one_per_lag(client, max_lag):
 def test_band_is_a_shaded_region_and_bars_take_the_zone_colours(client):
     e = np.random.default_rng(0).standard_normal(247)
     x = e[7:] + 0.5 * e[:-7]  # a seeded seasonal MA(1) at lag 7
-    report = client.post(URL, json={"values": x.round(4).tolist(), "period": 7, "max_lag": 21}).get_json()
+    report = client.post(URL, json={"values": x.round(4).tolist(), "period": 7, "max_lag": 21, "charts": True}).get_json()
     ax = _figure(report, "correlogram").axes[0]
     bands = [c for c in ax.collections if isinstance(c, PolyCollection)]
     assert len(bands) == 1 and to_hex(bands[0].get_facecolor()[0]) == style.BAND_FILL
@@ -116,7 +116,7 @@ def test_filled_values_are_ringed_on_the_time_plot(client):
     gaps = [5, 6, 40, 71]
     for i in gaps:
         body["values"][i] = None
-    report = client.post(URL, json=body).get_json()
+    report = client.post(URL, json=body | {"charts": True}).get_json()
     assert report["charts"]["time_plot"]["filled"] == gaps and report["missing"]["interpolated"] == len(gaps)
     ax = _figure(report, "time_plot").axes[0]
     rings = [line for line in ax.lines if line.get_marker() == "o"]
@@ -127,7 +127,7 @@ def test_filled_values_are_ringed_on_the_time_plot(client):
     spec = client.post(URL, json=body, query_string={"vega_lite": "true"}).get_json()["charts"]["time_plot"]["vega_lite"]
     assert [i for i, row in enumerate(spec["data"]["values"]) if row["filled"]] == gaps
     assert spec["layer"][1]["mark"]["stroke"] == style.FILLED  # the Vega-Lite specification rings them too
-    untouched = client.post(URL, json=_body(90, "D")).get_json()
+    untouched = client.post(URL, json=_body(90, "D", charts=True)).get_json()
     assert untouched["charts"]["time_plot"]["filled"] == []
 
 

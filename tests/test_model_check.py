@@ -244,3 +244,11 @@ def test_metrics_count_the_request_the_fits_and_both_series(client):
 def test_the_openapi_examples_are_answered(client, name):
     example = spec()["paths"][URL]["post"]["requestBody"]["content"]["application/json"]["examples"][name]["value"]
     assert_valid(_post(client, example), "ModelCheckResponse")
+
+
+@pytest.mark.parametrize("values", [[], [1.5]])
+def test_no_values_or_one_is_a_422_before_any_fit(client, values):
+    """Found by the schema fuzzing: an empty series once reached the cost estimate (log10 of 0) and answered 500."""
+    r = client.post(URL, json={"order": [0, 0, 0], "values": values})
+    assert r.status_code == 422 and r.content_type == "application/problem+json"
+    assert r.get_json()["errors"][0]["pointer"].startswith("/values")

@@ -12,6 +12,7 @@ from statsmodels.tsa.stattools import acf as sm_acf
 from statsmodels.tsa.tsatools import detrend as sm_detrend
 
 from lagsight.inputs import transforms
+from lagsight.outputs.shared import merged
 
 from .spec_tools import assert_valid
 
@@ -214,7 +215,8 @@ def test_batch_series_take_their_own_missing_and_transform_with_pointers_under_t
         {"id": "c", "values": [1, None, 3, 4]},
         {"id": "d", "values": [1, 2, 3, 4, 5], "transform": {"log": True, "box_cox": 1}},
     ]
-    results = client.post("/v1/diagnostics/batch", json={"series": series}).get_json()["results"]
+    body = client.post("/v1/diagnostics/batch", json={"series": series}).get_json()
+    results = [r if "error" in r else merged(r, body.get("shared", {})) for r in body["results"]]
     assert results[0]["missing"]["method"] == "pairwise" and results[0]["missing"]["effective_n"] is not None
     assert results[1]["transform"]["steps"][0]["step"] == "difference" and results[1]["n"] == 11
     assert results[2]["error"]["errors"][0]["pointer"] == "/series/2/values/1"

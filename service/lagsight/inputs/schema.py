@@ -292,8 +292,7 @@ class DirectLoad:
         return self.schema.load(body)
 
 
-#: Fields of the single request loaded directly; timestamps with the check they share with values
-#: (DIRECT_CHECKS); tests keep the schema's load (its schema-level check is not mirrored here).
+#: Fields of the single request loaded directly, timestamps with the check they share with values (DIRECT_CHECKS).
 DIRECT_FIELDS = ("values", "timestamps", "period", "name", "missing", "transform", "max_lag", "confidence",
                  "model_df", "horizon", "band", "p_values", "replicates", "seed", "detail", "digits", "charts")
 DIRECT_CHECKS = (stamps_match_values,)

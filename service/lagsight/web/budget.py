@@ -242,6 +242,8 @@ def check_model_check(data: dict, cfg) -> None:
     """413 when a model check's estimated work is over the budget: its fits at their worst and the two reports."""
     estimate = Estimate()
     n = int(data["values"].size)
+    if n < 2:
+        return  # too few values for any model: the route refuses it with a 422 of its own
     if data["order"] == options.MODEL_SUGGESTED:
         estimate.add("model fits", FIT_UNIT * options.MODEL_WORK_BUDGET)
         estimate.notes["model fits"] = (f"the suggested order's search may spend its whole work budget of "
