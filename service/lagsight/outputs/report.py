@@ -230,7 +230,7 @@ def _missing(series: PreparedSeries, analysis: GroupAnalysis, row: int, digits: 
 #: The report's keys in order: the reading first (verdict, advice, sentences, cautions, warnings), then
 #: what was analysed, then the numbers. ``interpret`` fills the reading; ``charts`` is null unless asked for.
 KEYS = ("verdict", "advice", "interpretation", "cautions", "warnings", "name", "n", "n_input", "n_missing",
-        "max_lag", "confidence", "model_df", "period", "frequency", "band", "acf", "pacf", "exceedances", "tests",
+        "max_lag", "confidence", "model_df", "horizon", "period", "frequency", "band", "acf", "pacf", "exceedances", "tests",
         "p_values", "seasonal", "periodogram", "unit_root", "missing", "transform", "charts")
 
 
