@@ -51,7 +51,7 @@ def test_a_batch_of_many_lengths_answers_as_the_single_route(lengths, period):
         "period": period, "series": [{"id": f"branch-{i}", "values": v} for i, v in enumerate(values)]})
     assert batch.status_code == 200
     answer = batch.get_json()
-    results = [merged(r, answer.get("shared", {})) for r in answer["results"]]  # each whole report
+    results = [merged(r, answer["shared"]) for r in answer["results"]]  # each series' whole report
     strengths = 0
     for i, v in enumerate(values):
         single = client.post("/v1/diagnostics", json={"period": period, "values": v})

@@ -209,6 +209,8 @@ def run_blocks(items: list[tuple[PreparedSeries, Plan]], detail: str = options.D
                             report["verdict"] = rounding.tree(report["verdict"], digits)
                     done.extend(answered)
         yield done
+        # The caller has taken the chunk's reports: nothing of them is kept through the next pass.
+        done = answered = reports = results = inputs = result = None
 
 
 def run(items: list[tuple[PreparedSeries, Plan]], observe: Callable[[int, int], None] | None = None,

@@ -14,6 +14,8 @@ import numpy as np
 
 #: Powers of ten that are exact doubles (10**22 is the largest): the division below is then correctly rounded.
 _EXACT_POWER = 22
+#: 10.0 ** k for k = 0 .. _EXACT_POWER (exact doubles).
+_POWERS = 10.0 ** np.arange(_EXACT_POWER + 1, dtype=np.float64)
 
 
 def array(a: np.ndarray, digits: int | None) -> np.ndarray:
@@ -26,9 +28,11 @@ def array(a: np.ndarray, digits: int | None) -> np.ndarray:
         shift = digits - 1 - magnitude  # decimal places to keep (negative: round to tens, hundreds ...)
         ok = np.isfinite(shift) & (np.abs(shift) <= _EXACT_POWER)
         s = np.where(ok, shift, 0.0)
-        up = s >= 0
-        scale = 10.0 ** np.abs(s)
-        out = np.where(up, np.round(a * scale) / scale, np.round(a / scale) * scale)
+        scale = _POWERS[np.abs(s).astype(np.intp)]  # the same doubles as 10.0 ** |s|, looked up
+        out = np.round(a * scale) / scale  # where s >= 0, the usual case; the others just below
+        down = s < 0
+        if down.any():
+            out[down] = np.round(a[down] / scale[down]) * scale[down]
     out = np.where(ok, out, a)
     odd = ~ok & np.isfinite(a) & (a != 0)  # beyond 1e22 or below 1e-22: rare, one at a time
     if odd.any():

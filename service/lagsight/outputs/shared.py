@@ -1,8 +1,8 @@
 """Values the series of a batch have in common, said once: the ``shared`` block of a full batch answer.
 
 A batch of series of one length and options repeats, in every full report, the lags, the band's
-limits (when its width depends only on the length), the periodogram's frequencies and band and the
-tests' meanings and methods. The ``shared`` block holds these values as the batch's first analysed
+limits (when its width depends only on the length), the periodogram's frequencies and band, the
+general cautions and the tests' meanings and methods. The ``shared`` block holds these values as the batch's first analysed
 series has them (:func:`template`), and every result leaves out each of them that it holds equal
 (:func:`strip`):
 
@@ -18,7 +18,7 @@ from __future__ import annotations
 
 #: Object fields a result leaves out when equal to the shared value, in the order ``shared`` lists them.
 PATHS = (
-    ("band",), ("p_values",), ("transform",), ("missing",),
+    ("band",), ("p_values",), ("transform",), ("missing",), ("cautions",),
     ("acf", "lags"), ("acf", "lower"), ("acf", "upper"), ("acf", "centre"), ("acf", "standard_error"),
     ("pacf", "lags"), ("pacf", "lower"), ("pacf", "upper"), ("pacf", "centre"), ("pacf", "standard_error"),
     ("seasonal", "period_source"), ("seasonal", "note"),

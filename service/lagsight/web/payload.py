@@ -123,6 +123,12 @@ def read_body(request: Request) -> bytes:
     return body
 
 
+def release_body(request: Request) -> None:
+    """Forget the body kept by :func:`read_body` (a route that has parsed it and needs the bytes no longer):
+    a large batch's bytes are then freed before its engine runs, not at the end of the request."""
+    request.environ.pop(_BODY_KEY, None)
+
+
 def _whole_body(kind: str, detail: str) -> Problem:
     """A problem with the body as a whole: its pointer is the root ("")."""
     return Problem(kind, detail, [FieldError("", detail)])
