@@ -16,6 +16,7 @@ from scipy.signal import lfilter
 
 from lagsight import create_app
 from lagsight.engine import seasonality, stl
+from lagsight.outputs.shared import merged
 from lagsight.pipeline import BLOCK_POINTS, chunks
 
 STRENGTH_TOLERANCE = 1e-6  # one unit of the 6th decimal, the reported precision (seasonality.DECIMALS)
@@ -49,7 +50,9 @@ def test_a_batch_of_many_lengths_answers_as_the_single_route(lengths, period):
     batch = client.post("/v1/diagnostics/batch", json={
         "period": period, "series": [{"id": f"branch-{i}", "values": v} for i, v in enumerate(values)]})
     assert batch.status_code == 200
-    results = batch.get_json()["results"]
+    answer = batch.get_json()
+    # each series' whole report: its result with the values the batch shares put back (outputs/shared.py)
+    results = [merged(r, answer["shared"]) for r in answer["results"]]
     strengths = 0
     for i, v in enumerate(values):
         single = client.post("/v1/diagnostics", json={"period": period, "values": v})
