@@ -18,6 +18,7 @@ from lagsight.engine import horizon as ahead
 from lagsight.engine.analysis import Spec, analyse
 from lagsight.engine.autocorrelation import acf
 from lagsight.engine.bands import acf_band
+from lagsight.outputs.shared import merged
 
 from .spec_tools import assert_valid
 
@@ -195,7 +196,8 @@ def test_batch_shares_and_overrides_the_horizon(client):
     assert shared["verdict"]["white_noise"] is True and own["verdict"]["white_noise"] is False
     assert bad["error"]["errors"][0]["pointer"] == "/series/2/horizon"
     single = client.post("/v1/diagnostics", json={"values": x, "horizon": 3}).get_json()
-    assert {k: v for k, v in shared.items() if k != "id"} == single
+    whole = merged(shared, body["shared"])  # the values the batch shares put back (outputs/shared.py)
+    assert {k: v for k, v in whole.items() if k != "id"} == single
 
 
 def test_a_horizon_of_two_reads_in_the_singular(client):
