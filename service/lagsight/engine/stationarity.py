@@ -31,6 +31,7 @@ import math
 import warnings
 
 import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
 from scipy.special import ndtr
 from statsmodels.tsa.stattools import adfuller
 
@@ -196,6 +197,14 @@ def _first_t_by_svd(tri: np.ndarray, nobs: int, k: int) -> tuple[np.ndarray, np.
         return np.where(full_rank, beta0 / se, np.nan), full_rank
 
 
+def lagged_differences(augmented: np.ndarray, dx: np.ndarray, lags: int) -> None:
+    """Write dx_{t-1}..dx_{t-lags} into columns 1..lags of ``augmented`` (m, n - 1 - lags, c), for
+    t = lags..n - 2 (dx of shape (m, n - 1)): one strided copy of the windows of dx, not one per lag."""
+    if lags:
+        windows = sliding_window_view(dx, lags + 1, axis=1)  # windows[:, t, j] = dx[:, t + j], no copy
+        augmented[:, :, 1:lags + 1] = windows[:, :, lags - 1::-1]
+
+
 def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     m, n = x.shape
     k = lags + 2
@@ -204,8 +213,7 @@ def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant; then the response dx_t
     augmented = np.empty((m, nobs, k + 1))
     augmented[:, :, 0] = x[:, lags : n - 1]
-    for i in range(1, lags + 1):
-        augmented[:, :, i] = dx[:, lags - i : n - 1 - i]
+    lagged_differences(augmented, dx, lags)
     augmented[:, :, k - 1] = 1.0
     augmented[:, :, k] = dx[:, lags:]
     stat, full_rank = first_t(augmented)
@@ -239,8 +247,7 @@ def adf_pair_rows(x: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         dx = np.diff(block, axis=1)
         augmented = np.empty((block.shape[0], nobs, k + 1))
         augmented[:, :, 0] = block[:, lags:n - 1]
-        for i in range(1, lags + 1):
-            augmented[:, :, i] = dx[:, lags - i:n - 1 - i]
+        lagged_differences(augmented, dx, lags)
         augmented[:, :, k - 2] = 1.0
         augmented[:, :, k - 1] = np.arange(1.0, nobs + 1.0)
         augmented[:, :, k] = dx[:, lags:]
