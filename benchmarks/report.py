@@ -160,7 +160,8 @@ def daily_section(d: dict) -> list[str]:
         "",
         f"`benchmarks.workloads.daily_batch` ({d['distinct_lengths']:,} distinct lengths, {d['points']:,} values; "
         "a yearly cycle plus noise, detail \"brief\") posted to `/v1/diagnostics/batch` in process (Flask's test "
-        "client: parsing, checks, the cost estimate, the engine and the answer). Reproduce with "
+        "client: parsing, checks, the cost estimate, the engine and the answer; the body encoded to JSON bytes "
+        "once beforehand, as a caller sends it). Reproduce with "
         "`python -m benchmarks.run --only 6`.",
         "",
         "| case | median |",

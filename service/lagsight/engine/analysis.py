@@ -51,7 +51,7 @@ class Spec:
     replicates: int = 0
     seed: int | None = None
     seasonal_strength: bool = True
-    report_extras: bool = True  # suggested period and unit-root check (read only by the full report)
+    report_extras: bool = True  # suggested period, unit-root check, partial autocorrelations (full report only)
     horizon: int = 1  # the values are h-step forecast errors: lags 1..horizon - 1 are not tested (horizon.py)
 
     @property
@@ -90,7 +90,7 @@ class GroupAnalysis:
     spec: Spec
     acf: np.ndarray  # (m, K)
     acf_band: Band
-    pacf: np.ndarray
+    pacf: np.ndarray | None  # (m, K); None without spec.report_extras (the brief answer reads none)
     pacf_band: Band
     tests: list[TestArrays]
     frequencies: np.ndarray  # chart frequencies (p,)
@@ -296,7 +296,7 @@ def analyse(x: np.ndarray, spec: Spec, mask: np.ndarray | None = None,
     else:
         r, n_eff = masked_acf(x, mask, spec.max_lag)
         d, power = center_observed(x, mask), None
-    phi = None if deferred else np.clip(pacf(r), -1.0, 1.0)
+    phi = None if deferred or not spec.report_extras else np.clip(pacf(r), -1.0, 1.0)
     band = acf_band(spec.band, r, n, spec.confidence)
     if spec.horizon > 1 and spec.band != "bartlett":  # lags >= h: Bartlett's variance, as the evidence uses
         band.se[:, spec.horizon - 1:] *= np.sqrt(ahead.bartlett_factor(r, spec.horizon))[:, None]

@@ -6,7 +6,8 @@ cost most per group and can run over the rows of every group together:
 
 - the partial autocorrelations (a recursion of one NumPy step per lag): the rows of every group with
   the same number of lags go through one recursion; a row's arithmetic does not depend on the other rows
-  (:func:`.partial.pacf`), so the values are the same, bit for bit, as in the group's own pass;
+  (:func:`.partial.pacf`), so the values are the same, bit for bit, as in the group's own pass (only for
+  groups whose answer is the full report: the brief answer reads no partial autocorrelations);
 - the seasonal strengths (an STL decomposition per row): the rows of every group with the same period are
   decomposed together (:func:`.seasonality.stl_strengths_many`), the same decomposition to rounding (about
   1e-15 of the series' scale), far below the 6 reported decimals.
@@ -31,7 +32,8 @@ def analyse_groups(groups: list[tuple[np.ndarray, Spec, np.ndarray | None, np.nd
     results = [analyse(x, spec, mask=mask, filled=filled, deferred=True) for x, spec, mask, filled in groups]
     by_lags: dict[int, list[GroupAnalysis]] = defaultdict(list)
     for result in results:
-        by_lags[result.acf.shape[1]].append(result)
+        if result.spec.report_extras:  # only the full report reads them
+            by_lags[result.acf.shape[1]].append(result)
     for members in by_lags.values():
         phi = np.clip(pacf(np.concatenate([g.acf for g in members])), -1.0, 1.0)
         start = 0

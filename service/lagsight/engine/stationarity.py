@@ -31,6 +31,7 @@ import math
 import warnings
 
 import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
 from scipy.special import ndtr
 from statsmodels.tsa.stattools import adfuller
 
@@ -142,12 +143,47 @@ def first_t(augmented: np.ndarray, tri: np.ndarray | None = None, k: int | None 
     of X is V S^+ U' Q' with R = U S V' (the SVD of the small R, singular values below 1e-15 x the largest
     dropped, as ``statsmodels.tools.tools.pinv_extended``), so beta = V S^+ U' Q'y and (X'X)^+_00 is the
     squared norm of the first row of V S^+. This is the same arithmetic as forming Q and the pseudo-inverse, to
-    rounding, at about half the cost of a full QR and without the (k, nobs) pseudo-inverse.
+    rounding, at about half the cost of a full QR and without the (k, nobs) pseudo-inverse. Where the triangle
+    is certainly of full rank (by norms: :func:`_first_t_by_inverse`) the pseudo-inverse is the inverse, and
+    the first row of R^-1 serves (a fifth of the small SVD's cost); the SVD runs only for the other rows.
     """
-    m, nobs, c1 = augmented.shape
+    nobs, c1 = augmented.shape[1:]
     k = c1 - 1 if k is None else k
     if tri is None:
         tri = np.linalg.qr(augmented, mode="r")
+    t, sure = _first_t_by_inverse(tri, nobs, k)
+    if sure.all():
+        return t, sure
+    rest = np.flatnonzero(~sure)
+    t[rest], full_rank = _first_t_by_svd(tri[rest], nobs, k)
+    sure[rest] = full_rank
+    return t, sure
+
+
+def _first_t_by_inverse(tri: np.ndarray, nobs: int, k: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`first_t` by the inverse of the triangle, for the rows it shows to have full rank.
+
+    Where the rank is full the pseudo-inverse is the inverse, and the first row of R^-1 gives beta_0 (with Q'y)
+    and (X'X)^-1_00 (its squared norm). The rank is certainly full by ``matrix_rank``'s tolerance when
+    ||R||_F ||R^-1||_F k eps < 1 (the largest singular value is at most ||R||_F, the smallest at least
+    1 / ||R^-1||_F); the other rows (False in the second array) are for the SVD.
+    """
+    r = tri[:, :k, :k]
+    diagonal = np.abs(np.diagonal(r, axis1=1, axis2=2))
+    usable = (diagonal > 0).all(axis=1)
+    with np.errstate(all="ignore"):
+        inverse = np.linalg.inv(np.where(usable[:, None, None], r, np.eye(k)))
+        size = np.sqrt(np.vecdot(r, r, axis=2).sum(axis=1))
+        inverse_size = np.sqrt(np.vecdot(inverse, inverse, axis=2).sum(axis=1))
+        sure = usable & (size * inverse_size * (k * np.finfo(np.float64).eps) < 1.0)
+        weights = inverse[:, 0, :]  # first row of R^-1
+        beta0 = np.vecdot(weights, tri[:, :k, -1])
+        rss = np.vecdot(tri[:, k:, -1], tri[:, k:, -1])
+        t = beta0 / np.sqrt(rss / (nobs - k) * np.vecdot(weights, weights))
+    return np.where(sure, t, np.nan), sure
+
+
+def _first_t_by_svd(tri: np.ndarray, nobs: int, k: int) -> tuple[np.ndarray, np.ndarray]:
     u, sv, vt = np.linalg.svd(tri[:, :k, :k])
     top = np.maximum.reduce(sv, axis=1, keepdims=True)
     with np.errstate(divide="ignore"):
@@ -161,6 +197,14 @@ def first_t(augmented: np.ndarray, tri: np.ndarray | None = None, k: int | None 
         return np.where(full_rank, beta0 / se, np.nan), full_rank
 
 
+def lagged_differences(augmented: np.ndarray, dx: np.ndarray, lags: int) -> None:
+    """Write dx_{t-1}..dx_{t-lags} into columns 1..lags of ``augmented`` (m, n - 1 - lags, c), for
+    t = lags..n - 2 (dx of shape (m, n - 1)): one strided copy of the windows of dx, not one per lag."""
+    if lags:
+        windows = sliding_window_view(dx, lags + 1, axis=1)  # windows[:, t, j] = dx[:, t + j], no copy
+        augmented[:, :, 1:lags + 1] = windows[:, :, lags - 1::-1]
+
+
 def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     m, n = x.shape
     k = lags + 2
@@ -169,8 +213,7 @@ def _adf_block(x: np.ndarray, lags: int) -> list[tuple[float, float, int]]:
     # adfuller's columns: x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, constant; then the response dx_t
     augmented = np.empty((m, nobs, k + 1))
     augmented[:, :, 0] = x[:, lags : n - 1]
-    for i in range(1, lags + 1):
-        augmented[:, :, i] = dx[:, lags - i : n - 1 - i]
+    lagged_differences(augmented, dx, lags)
     augmented[:, :, k - 1] = 1.0
     augmented[:, :, k] = dx[:, lags:]
     stat, full_rank = first_t(augmented)
@@ -204,8 +247,7 @@ def adf_pair_rows(x: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         dx = np.diff(block, axis=1)
         augmented = np.empty((block.shape[0], nobs, k + 1))
         augmented[:, :, 0] = block[:, lags:n - 1]
-        for i in range(1, lags + 1):
-            augmented[:, :, i] = dx[:, lags - i:n - 1 - i]
+        lagged_differences(augmented, dx, lags)
         augmented[:, :, k - 2] = 1.0
         augmented[:, :, k - 1] = np.arange(1.0, nobs + 1.0)
         augmented[:, :, k] = dx[:, lags:]

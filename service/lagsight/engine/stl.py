@@ -189,8 +189,17 @@ def _middle_by_fft(y: np.ndarray, middle: np.ndarray) -> np.ndarray:
     """
     n, width = y.shape[1], middle.size
     size = sp_fft.next_fast_len(n, real=True)
-    kernel = sp_fft.rfft(middle[::-1], n=size)
+    kernel = _kernel(middle.tobytes(), size)
     return sp_fft.irfft(sp_fft.rfft(y, n=size, axis=1) * kernel, n=size, axis=1)[:, width:n]
+
+
+@lru_cache(maxsize=256)
+def _kernel(middle: bytes, size: int) -> np.ndarray:
+    """The transform of the reversed middle coefficients at one size: a batch of many lengths has a few dozen
+    sizes, and each length's smoothing would otherwise transform the same coefficients again."""
+    kernel = sp_fft.rfft(np.frombuffer(middle)[::-1], n=size)
+    kernel.flags.writeable = False
+    return kernel
 
 
 @lru_cache(maxsize=64)
@@ -227,7 +236,9 @@ def _cycle_subseries(y: np.ndarray, period: int) -> np.ndarray:
 
 
 def _moving_average(x: np.ndarray, width: int) -> np.ndarray:
-    total = np.concatenate([np.zeros((x.shape[0], 1)), np.cumsum(x, axis=1)], axis=1)
+    total = np.empty((x.shape[0], x.shape[1] + 1))
+    total[:, 0] = 0.0
+    np.cumsum(x, axis=1, out=total[:, 1:])
     return (total[:, width:] - total[:, :-width]) / float(width)
 
 

@@ -61,10 +61,12 @@ def _test_entries(analysis: GroupAnalysis, alpha: float, digits: int | None = No
     builder run on one row that has the null.
     """
     columns = []
-    for t in analysis.tests:
+    # every test's statistics and p-values rounded in one NumPy pass (rounding.arrays), not two per test
+    shown = rounding.arrays([a for t in analysis.tests for a in (t.statistic, t.p_value)], digits)
+    for i, t in enumerate(analysis.tests):
         finite = np.isfinite(t.statistic) & np.isfinite(t.p_value)
-        stats, exact = rounding.array(t.statistic, digits).T.tolist(), t.p_value.T.tolist()
-        pvals = exact if digits is None else rounding.array(t.p_value, digits).T.tolist()
+        stats, exact = shown[2 * i].T.tolist(), t.p_value.T.tolist()
+        pvals = exact if digits is None else shown[2 * i + 1].T.tolist()
         for j, lag in enumerate(t.lags):
             name, df = t.name, t.df[j]
             if finite[:, j].all():

@@ -11,9 +11,11 @@ requests):
 
 - every engine pass (series of one length and options are analysed together; large groups are cut
   into blocks, see ``pipeline.blocks``): a fixed cost and a cost per lag; small blocks run together in
-  chunks (``pipeline.chunks``), whose partial autocorrelations are one recursion per number of lags;
+  chunks (``pipeline.chunks``), whose partial autocorrelations (for the full report) are one recursion per
+  number of lags;
 - every series: a fixed cost, a cost per point (reading, checks, the engine, the answer) and per
-  squared lag (partial autocorrelations), more for the full report than for the brief one;
+  squared lag (partial autocorrelations, for the full report only), more for the full report than for the
+  brief one;
 - the seasonal decomposition (STL) of series with a period: per period its loess tables (which grow
   with the square of the trend window, about 1.9 x the period; shared by every length longer than
   the window, one per length otherwise), per chunk and period a joint decomposition, per block its
@@ -155,7 +157,7 @@ def engine_work(estimate: Estimate, prepared: list, detail: str) -> Estimate:
     for chunk in chunks(blocks(prepared)):
         # One recursion for the partial autocorrelations of every block with the same lags, and one joint
         # decomposition per period (engine/family.py).
-        for lags in {plan.spec.max_lag for plan, _ in chunk}:
+        for lags in {plan.spec.max_lag for plan, _ in chunk} if full else ():  # the brief answer reads none
             estimate.add("lags", PASS_LAG * lags)
         for period in {plan.spec.period for plan, _ in chunk if _decomposes(plan)}:
             estimate.add("seasonal decompositions", STL_CALL + STL_CALL_W2 * stl.windows(period)[0] ** 2)
@@ -174,7 +176,7 @@ def _block_work(estimate: Estimate, plan: Plan, rows: int, full: bool, tables: s
     """Add one block's work (its series within a chunk; see engine_work)."""
     lags, n = plan.spec.max_lag, max(plan.n, plan.length)
     estimate.add("engine passes", PASS)
-    estimate.add("lags", PASS_LAG_BLOCK * lags + SERIES_LAG2 * lags * lags * rows)
+    estimate.add("lags", PASS_LAG_BLOCK * lags + (SERIES_LAG2 * lags * lags * rows if full else 0.0))
     estimate.add("series and points", rows * (SERIES + POINT * n + (FULL_SERIES + FULL_POINT * n if full else 0)))
     if _decomposes(plan):
         trend = stl.windows(plan.spec.period)[0]
