@@ -33,6 +33,7 @@ from threadpoolctl import threadpool_limits
 
 from benchmarks import machine, workloads
 from benchmarks.report import DASK_END, DASK_START
+from benchmarks.sections import replace_section
 from lagsight import config
 from lagsight.serving import heap
 
@@ -203,14 +204,7 @@ def _load(values) -> str:
 
 def write(text: str, path: Path) -> None:
     """Replace the section between the markers, or put it before the analysis."""
-    old = path.read_text() if path.exists() else ""
-    if DASK_START in old and DASK_END in old:
-        new = old[:old.index(DASK_START)] + text + old[old.index(DASK_END) + len(DASK_END):]
-    elif "## Analysis" in old:
-        new = old.replace("## Analysis", text + "\n\n## Analysis", 1)
-    else:
-        new = old + ("\n" if old else "") + text + "\n"
-    path.write_text(new)
+    replace_section(path, text, DASK_START, DASK_END)
 
 
 def main(argv=None) -> dict:

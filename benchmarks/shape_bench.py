@@ -36,6 +36,8 @@ import tempfile
 from io import BytesIO
 from pathlib import Path
 
+from benchmarks.sections import replace_section
+
 ROOT = Path(__file__).resolve().parents[1]
 START = "<!-- shape-bench: written by python -m benchmarks.shape_bench, kept by make bench -->"
 END = "<!-- /shape-bench -->"
@@ -237,14 +239,7 @@ def section(results: dict) -> str:
 
 def write(text: str, path: Path) -> None:
     """Replace the section between the markers, or put it before the analysis."""
-    old = path.read_text() if path.exists() else ""
-    if START in old and END in old:
-        new = old[:old.index(START)] + text + old[old.index(END) + len(END):]
-    elif "## Analysis" in old:
-        new = old.replace("## Analysis", text + "\n\n## Analysis", 1)
-    else:
-        new = old + ("\n" if old else "") + text + "\n"
-    path.write_text(new)
+    replace_section(path, text, START, END)
 
 
 def main(argv=None) -> dict:

@@ -40,7 +40,7 @@ import numpy as np
 from scipy.special import ndtr
 from statsmodels.tsa.stattools import adfuller
 
-from lagsight.engine.stationarity import first_t, thin_svd
+from lagsight.engine.stationarity import first_t, lagged_differences, thin_svd
 
 from .autocorrelation import acf, autocovariance, center
 from .stationarity import ADF_MAX_POINTS, CHUNK_VALUES, _schwert_lags
@@ -160,8 +160,7 @@ def _adf_trend_block(x: np.ndarray, lags: int) -> np.ndarray:
     # adfuller's columns: x_{t-1}, dx_{t-1}..dx_{t-lags}, constant, trend; then the response dx_t
     augmented = np.empty((m, nobs, k + 1))
     augmented[:, :, 0] = x[:, lags:n - 1]
-    for i in range(1, lags + 1):
-        augmented[:, :, i] = dx[:, lags - i:n - 1 - i]
+    lagged_differences(augmented, dx, lags)
     augmented[:, :, k - 2] = 1.0
     augmented[:, :, k - 1] = np.arange(1.0, nobs + 1.0)
     augmented[:, :, k] = dx[:, lags:]
