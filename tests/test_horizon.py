@@ -127,8 +127,8 @@ def test_structure_beyond_the_horizon_is_still_found():
 
 def test_fitted_model_errors_with_model_df_stay_within_the_level():
     # h-step errors of an AR(1) whose phi is estimated (least squares on lag 1): with model_df = 1 subtracted from the
-    # sums' degrees of freedom the rate stays near the level (measured: 0.02-0.055 over n = 100, 300 and h = 2, 4, 6;
-    # without it 0.01-0.03). Here n = 200, h = 3, 400 series: at most the level plus 3 standard errors (0.031).
+    # sums' degrees of freedom the rate stays near the level (a hand run, not committed: 0.02-0.055 over n = 100, 300
+    # and h = 2, 4, 6; without it 0.01-0.03). Here n = 200, h = 3, 400 series: at most the level plus 3 standard errors (0.031).
     rng = np.random.default_rng(10)
     h = 3
     x = ar1(rng, 400, 200 + h, 0.8)
