@@ -25,6 +25,18 @@ BATCH = "/v1/diagnostics/batch"
 NDJSON = "application/x-ndjson"
 
 
+
+def _estimate(body: dict, detail: str):
+    """A batch body's prepared series and their engine work as web/budget.py estimates it (no analysis)."""
+    from lagsight.inputs.schema import BatchRequest
+    from lagsight.web.batch import prepare_items
+
+    app = create_app({"TESTING": True})
+    with app.test_request_context(BATCH, method="POST"):
+        shared = BatchRequest().load(body)
+        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
+        return prepared, budget.engine_work(budget.Estimate(), prepared, detail)
+
 def _seasonal(n: int, period: int, seed: int) -> list[float]:
     rng = np.random.default_rng(seed)
     return np.round(rng.standard_normal(n) + 3 * np.sin(2 * np.pi * np.arange(n) / period), 4).tolist()
@@ -85,15 +97,8 @@ def test_many_lengths_with_a_long_period_fit_the_default_budget():
     """The same 150 lengths share one loess table per window, one joint decomposition per chunk and one set of
     null draws for their verdict tables (one per short lag, 30 of them): within the default budget of 20,000;
     before, one table per length and per short lag cost about 30,000 units. Their estimate, not their run."""
-    app = create_app({"TESTING": True})
     body = {"period": 1000, "series": [{"id": i, "values": _seasonal(2001 + i, 1000, i)} for i in range(150)]}
-    from lagsight.inputs.schema import BatchRequest
-    from lagsight.web.batch import prepare_items
-
-    with app.test_request_context(BATCH, method="POST"):
-        shared = BatchRequest().load(body)
-        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
-        estimate = budget.engine_work(budget.Estimate(), prepared, "full")
+    prepared, estimate = _estimate(body, "full")
     assert estimate.total < 20_000
     assert estimate.parts.get("verdict null tables", 0.0) == 0.0  # one set of draws: the request's warm-up
 
@@ -102,17 +107,11 @@ def test_the_seasonal_decompositions_of_many_lengths_share_their_tables():
     """The loess tables of a period serve every length its windows are shorter than (engine/stl.py), and the
     lengths of a chunk are decomposed together: 150 lengths with period 1,000 count one table, one joint
     decomposition per chunk, and each block's and series' own work."""
-    app = create_app({"TESTING": True})
     body = {"period": 1000, "series": [{"id": i, "values": _seasonal(2001 + i, 1000, i)} for i in range(150)]}
     from lagsight.engine import stl
-    from lagsight.inputs.schema import BatchRequest
     from lagsight.pipeline import blocks, chunks
-    from lagsight.web.batch import prepare_items
 
-    with app.test_request_context(BATCH, method="POST"):
-        shared = BatchRequest().load(body)
-        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
-        estimate = budget.engine_work(budget.Estimate(), prepared, "brief")
+    prepared, estimate = _estimate(body, "brief")
     trend = stl.windows(1000)[0]
     assert trend < 2001 and trend >= stl.FFT_MIN_WIDTH and (2001 - trend) * trend >= stl.FFT_MIN_WORK
     count = len(chunks(blocks(prepared)))
@@ -149,15 +148,8 @@ def test_the_single_route_is_held_to_the_budget_too():
 
 def test_the_estimate_follows_the_model():
     """The estimate of a plain batch is the sum of its parts as web/budget.py states them."""
-    app = create_app({"TESTING": True})
     body = {"series": [{"id": i, "values": _noise(200, i)} for i in range(10)], "max_lag": 20}
-    from lagsight.inputs.schema import BatchRequest
-    from lagsight.web.batch import prepare_items
-
-    with app.test_request_context(BATCH, method="POST"):
-        shared = BatchRequest().load(body)
-        prepared, _, _ = prepare_items(shared.pop("series"), shared, app.config)
-        estimate = budget.engine_work(budget.Estimate(), prepared, "full")
+    prepared, estimate = _estimate(body, "full")
     per_series = budget.SERIES + budget.POINT * 200 + budget.FULL_SERIES + budget.FULL_POINT * 200
     assert estimate.parts["engine passes"] == pytest.approx(budget.PASS)
     assert estimate.parts["series and points"] == pytest.approx(10 * per_series)

@@ -14,7 +14,7 @@ from lagsight import create_app
 from lagsight.engine.changepoints import cusum_test, segment
 from lagsight.inputs.stability import window_starts
 
-from .spec_tools import assert_valid, spec
+from .spec_tools import assert_problem_at, assert_valid, spec
 
 URL = "/v1/stability"
 
@@ -125,11 +125,7 @@ BAD = [
 
 @pytest.mark.parametrize("body,pointer,phrase", BAD)
 def test_bad_input_is_422_with_a_pointer(client, body, pointer, phrase):
-    r = client.post(URL, json=body)
-    assert r.status_code == 422 and r.mimetype == "application/problem+json", r.get_json()
-    assert_valid(r.get_json(), "Problem")
-    details = {e["pointer"]: e["detail"] for e in r.get_json()["errors"]}
-    assert pointer in details and phrase.lower() in details[pointer].lower(), details
+    assert_problem_at(client.post(URL, json=body), pointer, phrase)
 
 
 def test_http_errors_auth_metrics_and_the_openapi_example(client):
