@@ -118,7 +118,7 @@ def test_without_the_horizon_multi_step_errors_are_flagged():
 def test_structure_beyond_the_horizon_is_still_found():
     # Errors of a wrong model: forecasts phi_hat^h x_t with phi_hat = 0.4 for AR(1) series with phi = 0.8 leave
     # (0.8^h - 0.4^h) x_t in the error, correlated at every lag. Measured with this seed: 1.00 at h = 2 and 0.82
-    # at h = 4 (n = 300, 400 series); the power falls with h, as the Bartlett variance grows.
+    # at h = 4 (n = 300, 200 series); the power falls with h, as the Bartlett variance grows.
     rng = np.random.default_rng(9)
     for h, least in ((2, 0.95), (4, 0.6)):
         x = ar1(rng, 200, 300 + h, 0.8)

@@ -13,7 +13,7 @@ How it runs (see docs/DASK.md for a real cluster):
 3. The false-discovery q-values need every series' ``tail_p_value``: one task gathers that column from every
    partition (8 bytes per series), ranks it and computes the Benjamini-Hochberg q-values
    (:func:`lagsight.consult.across.q_values`), sorted by p-value; each partition then reads its series'
-   q-values from that list. That task's peak is about 100 bytes per series (measured on 4 million: 88 beyond
+   q-values from that list. That task's peak is about 100 bytes per series (a hand run on 4 million, not a committed benchmark: 88 beyond
    the 8 of the gathered column), so 100 million series need about 10 GB on one worker. Both steps are one task
    graph: each partition is computed once.
 
