@@ -204,3 +204,23 @@ def test_a_horizon_of_two_reads_in_the_singular(client):
     assert "lag 1 is not tested" in body["verdict"]["summary"] or body["verdict"]["white_noise"] is False
     assert any("lag 1 is not tested" in c for c in body["cautions"])
     assert all("lags 1 to 1" not in line for line in [*body["interpretation"], *body["cautions"]])
+
+
+@pytest.mark.parametrize("horizon,max_lag,model_df", [(4, 4, 1), (2, 2, 1), (3, 4, 2)])
+def test_no_judgement_when_model_df_uses_up_the_lags_tested(client, horizon, max_lag, model_df):
+    # Only lags horizon..max_lag are summed: with model_df at least their count no sum has a degree of freedom.
+    body = client.post("/v1/diagnostics", json={"values": _errors(1), "horizon": horizon, "max_lag": max_lag,
+                                                "model_df": model_df}).get_json()
+    # Before, the rule counted lags 1..max_lag and called such series white noise with every sum not computable.
+    assert body["verdict"]["white_noise"] is None and body["verdict"]["summary"].startswith("No judgement")
+    notes = [t["note"] for t in body["tests"] if t["name"] == "ljung_box" and t["df"] is None]
+    assert notes and all(f"test at a lag above {horizon - 1 + model_df}" in n for n in notes)
+
+
+def test_a_brief_batch_says_once_that_lags_below_the_horizon_are_not_tested(client):
+    body = client.post("/v1/diagnostics/batch", json={"horizon": 3, "detail": "brief", "series": [
+        {"id": "a", "values": _errors(3)}, {"id": "b", "values": _errors(3)[:40]}]}).get_json()
+    assert any("3-step forecast errors" in c and "not tested" in c for c in body["cautions"])
+    plain = client.post("/v1/diagnostics/batch", json={"detail": "brief", "series": [
+        {"id": "a", "values": _errors(3)}]}).get_json()
+    assert not any("forecast errors" in c for c in plain["cautions"])

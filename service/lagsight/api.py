@@ -202,7 +202,7 @@ def analyse_long(long: tables.LongFrame, shared: dict, limits: dict, reports: bo
     rows: list = [None] * total
     results: list | None = [None] * total if reports else None
     tally = across.Tally(total, 1.0 - shared["confidence"])
-    notes = {"count": 0, "alpha_sum": 0, "unfitted": False}
+    notes = {"count": 0, "alpha_sum": 0, "unfitted": False, "horizons": set()}
     detail = shared["detail"]
     for first in range(0, total, CHUNK):
         with gc_paused():
@@ -214,6 +214,7 @@ def analyse_long(long: tables.LongFrame, shared: dict, limits: dict, reports: bo
                     notes["count"] += 1
                     notes["alpha_sum"] += 1.0 - plan.spec.confidence
                     notes["unfitted"] = notes["unfitted"] or plan.spec.model_df == 0
+                    notes["horizons"].add(plan.spec.horizon)
             for block in run_blocks(prepared, detail, digits=shared["digits"], charts=shared["charts"]):
                 for j, report in block:
                     i, item_id = where[j]
@@ -230,7 +231,8 @@ def analyse_long(long: tables.LongFrame, shared: dict, limits: dict, reports: bo
                 tally.add(result)
                 if reports:
                     results[i] = result
-    extras = handling.brief_notes(notes["count"], notes["alpha_sum"], notes["unfitted"]) if detail == "brief" else {}
+    extras = handling.brief_notes(notes["count"], notes["alpha_sum"], notes["unfitted"],
+                                  horizons=notes["horizons"]) if detail == "brief" else {}
     return rows, results, tally.across(), extras
 
 

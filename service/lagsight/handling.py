@@ -220,13 +220,14 @@ def single_answer(series: PreparedSeries, plan: Plan, data: dict, observe=None) 
     result = run([(series, plan)], observe, detail, data["digits"], data["charts"])[0]
     if detail != "brief":
         return result
-    notes = brief_notes(1, 1.0 - plan.spec.confidence, plan.spec.model_df == 0, single=True)
+    notes = brief_notes(1, 1.0 - plan.spec.confidence, plan.spec.model_df == 0, single=True,
+                        horizons=(plan.spec.horizon,))
     return {"detail": detail, **result, **notes}
 
 
-def brief_notes(count: int, alpha_sum: float, unfitted: bool, single: bool = False) -> dict:
+def brief_notes(count: int, alpha_sum: float, unfitted: bool, single: bool = False, horizons=()) -> dict:
     """The cautions and the pointer to the full report that a brief answer carries once: ``count`` series
     analysed, the sum of their alphas, and whether any was sent with model_df 0 (``single``: the answer of
-    the single route, whose cautions leave out the count across series)."""
-    return {"cautions": cautions_mod.batch_cautions(count, alpha_sum, unfitted, single),
+    the single route, whose cautions leave out the count across series; ``horizons`` those of the series)."""
+    return {"cautions": cautions_mod.batch_cautions(count, alpha_sum, unfitted, single, horizons),
             "full_report": brief.FULL_REPORT}

@@ -168,8 +168,9 @@ def advice(report: dict, d: Decision) -> list[dict]:
     if d.white_noise and not out:
         out.append(_item("nothing_to_model", "Nothing further to model in the autocorrelation; keep checking as new "
                                              "data arrive.",
-                         f"No lag {'up to' if d.horizon == 1 else f'from {d.horizon} to'} {d.max_lag} stands out once "
-                         "the number of checks is allowed for "
+                         (f"Lag {d.max_lag} does not stand out" if d.horizon == d.max_lag else
+                          f"No lag {'up to' if d.horizon == 1 else f'from {d.horizon} to'} {d.max_lag} stands out")
+                         + " once the number of checks is allowed for "
                          f"(adjusted {fmt_p(d.p_value)})."))
     if any(t["reject"] for t in tests.get("jarque_bera", [])):
         out.append(_item("robust_intervals", "Do not rely on normal-theory prediction intervals; use bootstrap or "

@@ -23,14 +23,15 @@ def cautions(report: dict, decision: Decision) -> list[str]:
     out = [
         "A test that does not reject is not proof of white noise: it only says this sample gives no strong "
         "evidence of structure at the lags checked.",
-        f"With {report['max_lag']} lags, about {fmt(ex['expected'], 2)} of the autocorrelations are expected outside "
-        f"the {pct(report['band']['per_lag_confidence'])} band drawn, by chance alone; judge single spikes with that "
+        f"With {plural(ex['lags_tested'], 'lag')} tested, about {fmt(ex['expected'], 2)} of the autocorrelations are "
+        f"expected outside the {pct(report['band']['per_lag_confidence'])} band drawn, by chance alone; judge single spikes with that "
         "in mind. The verdict adjusts for the number of lags and checks; the per-test reject flags do not.",
     ]
     if decision.filled:
         out.append(f"{plural(decision.filled, 'value')} of this series {'was' if decision.filled == 1 else 'were'} "
-                   "filled by interpolation. The verdict leaves them out (it uses the observed values only); the "
-                   "correlograms and tests shown include them, and straight lines drawn through gaps make "
+                   f"filled by interpolation. The verdict leaves {'it' if decision.filled == 1 else 'them'} out (it "
+                   "uses the observed values only); the correlograms and tests shown include "
+                   f"{'it' if decision.filled == 1 else 'them'}, and straight lines drawn through gaps make "
                    "neighbouring values look correlated.")
     if decision.outliers:
         where = and_([str(i) for i in decision.outliers[:8]]) + (" ..." if len(decision.outliers) > 8 else "")
@@ -68,13 +69,16 @@ def cautions(report: dict, decision: Decision) -> list[str]:
     return out
 
 
-def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool, single: bool = False) -> list[str]:
+def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: bool, single: bool = False,
+                   horizons=()) -> list[str]:
     """The general cautions of a brief batch answer, said once for all its series.
 
     ``chance_flags`` is the sum of 1 - confidence over the series analysed: the verdict rule
     holds each pure-noise series' chance of being called "not white noise" at or below its
     1 - confidence, so about that many could be flagged by chance if all were white noise.
     ``single``: the brief answer of one series, whose multiple-testing caution speaks of its own checks.
+    ``horizons``: the series' horizons; above 1 the values are h-step forecast errors, said once here as the full
+    report says it per series.
     """
     out = [
         "A white-noise verdict is not proof of white noise: it says only that the sample gives no strong "
@@ -93,6 +97,13 @@ def batch_cautions(analysed: int, chance_flags: float, any_without_model_df: boo
     if any_without_model_df:
         out.append("If these values are residuals of fitted ARMA models, set model_df to each model's number of "
                    "estimated parameters (p + q); otherwise the portmanteau p-values are too large.")
+    ahead = sorted(h for h in set(horizons) if h > 1)
+    if ahead:
+        which = f"{ahead[0]}-step" if len(ahead) == 1 else "h-step"
+        out.append(f"Values sent with a horizon above 1 are read as {which} forecast errors: the lags below the "
+                   "horizon are not tested (such errors are correlated there by construction), so structure there "
+                   "goes unseen. The runs, turning-point and cumulative-periodogram checks look at every lag, so they "
+                   "often reject such errors; they do not enter the verdict.")
     return out
 
 

@@ -156,7 +156,8 @@ def summary(d: Decision) -> str:
     """The headline: one sentence, derived from the decision only."""
     if d.white_noise is None:
         return (f"No judgement: model_df leaves no degrees of freedom at any portmanteau lag up to {d.max_lag}, and no "
-                "spike stands out; raise max_lag above model_df or check model_df.")
+                f"spike stands out; raise max_lag above {'model_df' if d.horizon == 1 else 'horizon - 1 + model_df'} "
+                "or check model_df.")
     if d.white_noise is False:
         return f"Not white noise: {_phrase(d)} (adjusted {fmt_p(d.p_value)})."
     if "volatility_clustering" in d.structure:
@@ -196,7 +197,7 @@ def decide_block(analysis, ns: list[int], periods: list[int | None], filled: lis
     uneven = _rejects(analysis, "cumulative_periodogram", alpha)
     r = ev.r  # the autocorrelations the evidence rests on (observed values only when some were filled)
     # Without a portmanteau lag that has degrees of freedom left after model_df, only a rejection is read.
-    judged = lay.max_lag - analysis.spec.model_df > 0
+    judged = lay.max_lag - lay.horizon + 1 - analysis.spec.model_df > 0  # lags horizon..max_lag are tested
     lags = _component_lags(lay, ev.z, ev.z_rank)  # per component, every row's lag (None where it has none)
     strongest = _strongest_lags(lay, ev.z, ev.z_rank, ev.components, lags)
     components, simulated_n = ev.components.tolist(), ev.simulated_n.tolist()

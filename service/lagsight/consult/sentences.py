@@ -27,8 +27,10 @@ def sentences(report: dict, decision: Decision, tests: dict[str, list[dict]] | N
     conf = pct(report["confidence"])
     first = report.get("horizon", 1)
     outside = sorted(ex["far"] + ex["marginal"])
-    line = (f"{ex['count']} of {ex['lags_tested']} autocorrelations (lags {first} to {K}) fall outside the {conf}{label} "
-            f"band{width}" + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(outside)})" if ex["count"] else "")
+    tested = "autocorrelation" if ex["lags_tested"] == 1 else "autocorrelations"
+    span = f"lag {K}" if first == K else f"lags {first} to {K}"
+    line = (f"{ex['count']} of {ex['lags_tested']} {tested} ({span}) {'falls' if ex['count'] == 1 else 'fall'} "
+            f"outside the {conf}{label} band{width}" + (f" (lag{'s' if ex['count'] > 1 else ''} {lag_list(outside)})" if ex["count"] else "")
             + f"; about {fmt(ex['expected'], 2)} would be expected by chance if the series were white noise")
     if ex["count"]:
         line += f", and {ex['count']} or more happen by chance with probability {fmt(ex['chance_probability'], 2)}."

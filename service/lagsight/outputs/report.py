@@ -17,6 +17,7 @@ import numpy as np
 from scipy.special import bdtrc
 
 from lagsight import options
+from lagsight.consult.words import plural
 from lagsight.engine import stl
 from lagsight.engine.analysis import GroupAnalysis
 from lagsight.engine.bands import Band, per_lag_confidence
@@ -147,8 +148,10 @@ def test_rows(analysis: GroupAnalysis, digits: int | None = None, shown: list | 
                 stat, p = stats[row][j], pvals[row][j]
                 note = None
                 if no_df:
-                    note = (f"Not computable: lag {lag} minus model_df {analysis.model_df} leaves "
-                            f"{lag - analysis.model_df} degrees of freedom; test at a lag above {analysis.model_df}.")
+                    first = analysis.spec.horizon  # the sums run over lags horizon..lag
+                    note = (f"Not computable: model_df {analysis.model_df} uses up the "
+                            f"{plural(lag - first + 1, 'lag')} summed up to lag {lag}; test at a lag above "
+                            f"{first - 1 + analysis.model_df}.")
                 elif stat is None or p is None:
                     note = _NOT_COMPUTABLE.get(t.name, "Not computable for this series.")
                     if t.name == "cumulative_periodogram" and (constant.get("frequencies_tested") or 0) >= 1:

@@ -206,7 +206,8 @@ def _blocks_in_time(prepared: list, answer: tuple[str, int | None, bool], late: 
 def _brief_notes(prepared: list[tuple[PreparedSeries, Plan]]) -> dict:
     """The cautions and the pointer to the full report that a brief answer carries once."""
     return brief_notes(len(prepared), sum(1.0 - plan.spec.confidence for _, plan in prepared),
-                       any(plan.spec.model_df == 0 for _, plan in prepared))
+                       any(plan.spec.model_df == 0 for _, plan in prepared),
+                       horizons={plan.spec.horizon for _, plan in prepared})
 
 
 def _line(obj) -> bytes:
